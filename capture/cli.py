@@ -1,0 +1,266 @@
+"""The ``masstrail`` command: a thin layer over :mod:`capture.pipeline`.
+
+Each command parses its arguments, calls the library, and turns a domain error
+into a message and an exit code: 0 when the job ran (gaps are findings, not
+failures), 1 when ``--fail-on`` found such gaps, 2 for usage or configuration
+errors. Heavy imports happen inside the commands so that ``--help`` is quick.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import click
+
+from capture import __version__
+
+EXIT_FINDINGS = 1
+EXIT_USAGE = 2
+
+
+def _fail(message: str) -> None:
+    click.echo(f"masstrail: {message}", err=True)
+    sys.exit(EXIT_USAGE)
+
+
+def _open_notebook(path: Path):
+    from capture.config import ConfigError
+    from capture.pipeline import Notebook
+    from capture.plugin_manager import PluginError
+
+    try:
+        return Notebook.open(path)
+    except ConfigError as exc:
+        _fail(f"configuration error:\n{exc}")
+    except PluginError as exc:
+        _fail(str(exc))
+
+
+def _num(x: float | None, spec: str = ".3g") -> str:
+    return "—" if x is None else format(x, spec)
+
+
+def _e(text: str) -> str:
+    """Text from entries and plugins, escaped so rich shows [brackets] as written."""
+    from rich.markup import escape
+
+    return escape(text)
+
+
+def _console():
+    from rich.console import Console
+
+    return Console(highlight=False)
+
+
+def _find_root(entry: Path) -> Path:
+    """The nearest folder above ``entry`` that holds a masstrail.toml, else the entry's folder."""
+    from capture.config import CONFIG_NAME
+
+    for folder in [entry.parent, *entry.parent.parents]:
+        if (folder / CONFIG_NAME).is_file():
+            return folder
+    return entry.parent
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, prog_name="masstrail")
+def cli() -> None:
+    """masstrail: waste records and mass metrics (E-factor, PMI) next to each notebook entry."""
+
+
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object per entry instead of a table.")
+@click.option(
+    "--fail-on",
+    type=click.Choice(["blocking", "major"]),
+    help="Exit 1 when a gap of this severity (or worse) is found; for scheduled checks.",
+)
+def scan(path: Path, as_json: bool, fail_on: str | None) -> None:
+    """Process every entry under PATH once and write NAME.waste.json next to each.
+
+    Prints a summary table: product mass, E-factor, PMI and the record gaps
+    of each entry. Exits 0 when the scan completed, whatever it found.
+    """
+    from capture.pipeline import CAUTION, scan as run_scan
+    from capture.paths import sidecar_path
+
+    nb = _open_notebook(path)
+    files = nb.entry_files()
+    progress = None
+    bar = None
+    if not as_json and len(files) > 50 and sys.stderr.isatty():
+        from rich.progress import Progress
+
+        bar = Progress(transient=True)
+        task = bar.add_task("scanning", total=len(files))
+        bar.start()
+
+        def progress(_path: Path) -> None:
+            bar.advance(task)
+
+    try:
+        report = run_scan(nb, progress=progress)
+    finally:
+        if bar is not None:
+            bar.stop()
+
+    if as_json:
+        for r in report.results:
+            out = {
+                "entry": r.entry.path,
+                "status": r.status,
+                "error": r.error.model_dump() if r.error else None,
+                "sidecar": (
+                    sidecar_path(nb.root / r.entry.path).relative_to(nb.root).as_posix()
+                ),
+                "product_g": r.product.mass_g,
+                "metrics": r.metrics.model_dump(by_alias=True),
+                "gaps": {s: sum(g.severity == s for g in r.gaps) for s in ("blocking", "major", "minor")},
+            }
+            click.echo(json.dumps(out, sort_keys=True))
+    else:
+        from rich.table import Table
+
+        console = _console()
+        table = Table(title=f"masstrail scan of {path}", title_justify="left")
+        for col, just in [("entry", "left"), ("product g", "right"), ("E-factor", "right"),
+                          ("PMI", "right"), ("blocking", "right"), ("major", "right"),
+                          ("minor", "right")]:  # fmt: skip
+            table.add_column(col, justify=just, overflow="fold")
+        for r in report.results:
+            if r.status == "error":
+                table.add_row(_e(r.entry.path), "[red]could not be read[/red]", "", "", "", "", "")
+                continue
+            counts = [sum(g.severity == s for g in r.gaps) for s in ("blocking", "major", "minor")]
+            table.add_row(
+                _e(r.entry.path),
+                _num(r.product.mass_g, ".4g"),
+                _num(r.metrics.e_factor),
+                _num(r.metrics.pmi),
+                *[str(c) if c else "·" for c in counts],
+            )
+        console.print(table)
+        n = len(report.results)
+        console.print(
+            f"{n} entr{'y' if n == 1 else 'ies'}, {len(report.written)} result file(s) written, "
+            f"{len(report.errors)} could not be read. Details: masstrail show ENTRY."
+        )
+        for r in report.errors:
+            where = f" ({r.error.location})" if r.error.location else ""
+            console.print(f"[red]{_e(r.entry.path + where)}:[/red] {_e(r.error.message)}")
+        console.print(f"[dim]{_e(CAUTION)}[/dim]")
+
+    if fail_on:
+        worst = report.count("blocking") + (report.count("major") if fail_on == "major" else 0)
+        if worst:
+            sys.exit(EXIT_FINDINGS)
+
+
+@cli.command()
+@click.argument("entry", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@click.option("--json", "as_json", is_flag=True, help="Print the full result as JSON.")
+def show(entry: Path, as_json: bool) -> None:
+    """Show one entry: materials with masses and their basis, gaps and metrics.
+
+    The notebook root is the nearest folder above ENTRY that holds a
+    masstrail.toml, else the entry's own folder. Nothing is written.
+    """
+    from rich.table import Table
+
+    nb = _open_notebook(_find_root(entry.resolve()))
+    r = nb.process(entry.resolve(), write=False)
+    if as_json:
+        click.echo(r.sidecar_json(), nl=False)
+        return
+    console = _console()
+    title = r.meta.get("title") or r.entry.id
+    console.print(f"[bold]{_e(title)}[/bold]  ({_e(r.entry.path)})")
+    if r.status == "error":
+        where = f" ({r.error.location})" if r.error.location else ""
+        console.print(f"[red]This entry could not be read{_e(where)}:[/red] {_e(r.error.message)}")
+        console.print(f"[dim]{_e(r.caution)}[/dim]")
+        return
+    console.print(f"Product: {_e(r.product.name or '—')}, {_num(r.product.mass_g, '.4g')} g"
+                  + (f"  [dim]({_e(r.product.basis)})[/dim]" if r.product.basis else ""))  # fmt: skip
+    t = Table(title="Materials", title_justify="left")
+    for col in ("material", "stage", "stated", "mass g", "basis"):
+        t.add_column(col, overflow="fold", justify="right" if col == "mass g" else "left")
+    for m in r.materials:
+        t.add_row(
+            _e(m.name) + (f" [dim]= {_e(m.resolved)}[/dim]" if m.resolved and m.resolved != m.name else ""),
+            m.stage or "—",
+            _e(m.stated or "—"),
+            _num(m.mass_g, ".4g"),
+            _e(m.basis) if m.basis else f"[yellow]{_e(m.problem or '')}[/yellow]",
+        )
+    console.print(t)
+    for rec in r.recovered:
+        console.print(f"Recovered: {_e(rec.name)}, {_num(rec.mass_g, '.4g')} g ({_e(rec.basis or rec.problem or '')})")
+    if r.gaps:
+        console.print("[bold]Missing or doubtful records[/bold]")
+        colour = {"blocking": "red", "major": "yellow", "minor": "dim"}
+        for g in r.gaps:
+            c = colour[g.severity]
+            console.print(f"  [{c}]{g.severity}[/{c}] {_e(g.item)}: {_e(g.message)}")
+    else:
+        console.print("No record gaps found.")
+    m = r.metrics
+    console.print(
+        f"E-factor {_num(m.e_factor)} (simple {_num(m.e_factor_simple)}, with allowances "
+        f"{_num(m.e_factor_estimated)}), PMI {_num(m.pmi)}"
+    )
+    if r.totals:
+        console.print(
+            f"Inputs {r.totals.inputs_g:.4g} g (water {r.totals.water_g:.4g} g), "
+            f"recovered {r.totals.recovered_g:.4g} g, waste {_num(r.totals.waste_g, '.4g')} g"
+        )
+    if r.breakdown and r.breakdown.largest:
+        console.print(f"Largest input: {_e(r.breakdown.largest)}")
+    if "sector" in r.context:
+        console.print(f"[dim]{_e(r.context['sector'])}[/dim]")
+    console.print(f"[dim]{_e(r.caution)}[/dim]")
+
+
+@cli.command()
+@click.option("--json", "as_json", is_flag=True, help="Print the list as JSON.")
+def plugins(as_json: bool) -> None:
+    """List the loaded plugins and the hooks each one implements."""
+    from capture.plugin_manager import PluginError, describe_plugins, get_plugin_manager
+
+    try:
+        rows = describe_plugins(get_plugin_manager())
+    except PluginError as exc:
+        _fail(str(exc))
+    if as_json:
+        click.echo(json.dumps(rows, indent=2))
+        return
+    from rich.table import Table
+
+    t = Table(title="masstrail plugins", title_justify="left")
+    for col in ("name", "module", "from", "hooks"):
+        t.add_column(col, overflow="fold")
+    for row in rows:
+        t.add_row(
+            _e(str(row["name"])),
+            _e(str(row["module"])),
+            "built-in" if row["builtin"] else _e(str(row["distribution"] or "registered")),
+            "\n".join(row["hooks"]),
+        )
+    _console().print(t)
+
+
+@cli.command()
+def schema() -> None:
+    """Print the JSON Schema of the result sidecar NAME.waste.json."""
+    from capture.schema import result_schema_text
+
+    click.echo(result_schema_text(), nl=False)
+
+
+def main() -> None:
+    """Entry point of the ``masstrail`` command."""
+    cli()

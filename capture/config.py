@@ -1,0 +1,96 @@
+"""The lab configuration: an optional ``masstrail.toml`` at the notebook root.
+
+Every key is checked; a misspelt or unknown key is an error that names the key
+and the file, because a silently ignored setting is worse than none.
+"""
+
+from __future__ import annotations
+
+import tomllib
+from pathlib import Path
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError
+
+CONFIG_NAME = "masstrail.toml"
+
+
+class ConfigError(Exception):
+    """A lab configuration that cannot be used; the message names the file and key."""
+
+
+class _Section(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+
+class EFactorSettings(_Section):
+    include_water: bool = Field(
+        True, description="count water and aqueous solutions in the headline E-factor"
+    )
+
+
+class ExtraMaterial(_Section):
+    name: str
+    synonyms: list[str] = Field(default_factory=list)
+    formula: str | None = None
+    density_g_ml: float | None = Field(None, gt=0)
+    density_temp_c: float | None = None
+    category: str = "reagent"
+    halogenated: bool = False
+    water_fraction: float | None = Field(None, ge=0, le=1)
+    source: str = Field(description="where the numbers come from")
+
+
+class OutputSettings(_Section):
+    card: bool = Field(False, description="also write a human-readable NAME.waste.md")
+
+
+class ScanSettings(_Section):
+    ignore: list[str] = Field(
+        default_factory=list, description="glob patterns, relative to the notebook root"
+    )
+    max_entry_mb: float = Field(5.0, gt=0, description="entries larger than this are not read")
+
+
+class PluginSettings(_Section):
+    block: list[str] = Field(default_factory=list, description="plugin names not to load")
+
+
+class LabConfig(_Section):
+    """The whole ``masstrail.toml``; every section is optional."""
+
+    e_factor: EFactorSettings = Field(default_factory=EFactorSettings)
+    densities: dict[str, float] = Field(
+        default_factory=dict, description="g/mL at 20 °C, by material name; overrides built-ins"
+    )
+    materials: list[ExtraMaterial] = Field(default_factory=list)
+    output: OutputSettings = Field(default_factory=OutputSettings)
+    scan: ScanSettings = Field(default_factory=ScanSettings)
+    plugins: PluginSettings = Field(default_factory=PluginSettings)
+    source: str | None = Field(None, exclude=True, description="the file this was read from")
+
+
+def load_config(root: Path) -> LabConfig:
+    """Read ``masstrail.toml`` at ``root`` if there is one, else the defaults."""
+    path = root / CONFIG_NAME
+    if not path.is_file():
+        return LabConfig()
+    try:
+        raw = tomllib.loads(path.read_text(encoding="utf-8-sig"))
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ConfigError(f"{path}: cannot be read: {exc}") from exc
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"{path}: invalid TOML: {exc}") from exc
+    try:
+        config = LabConfig.model_validate(raw)
+    except ValidationError as exc:
+        problems = []
+        for err in exc.errors():
+            key = ".".join(str(p) for p in err["loc"])
+            msg = "unknown key" if err["type"] == "extra_forbidden" else err["msg"]
+            problems.append(f"{path}: key '{key}': {msg}")
+        raise ConfigError("\n".join(problems)) from None
+    for name, value in config.densities.items():
+        if value <= 0:
+            raise ConfigError(f"{path}: key 'densities.{name}': a density must be positive")
+    config.source = str(path)
+    return config

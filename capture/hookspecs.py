@@ -1,0 +1,210 @@
+"""Every hook of a masstrail run, in the order the pipeline calls them.
+
+A run over one entry goes: read → extract → resolve → weigh → find gaps →
+compute metrics → write. The pipeline in :mod:`capture.pipeline` does nothing
+but call these hooks; the built-in behaviour lives in ``masstrail_plugins``
+and is loaded through the ``masstrail`` entry-point group like any lab's own
+plugin. Hook implementations may take fewer arguments than the spec lists, so
+a spec can gain an argument later without breaking plugins. Arguments keep the
+same names across hooks: ``entry``, ``materials``, ``product``, ``gaps``,
+``config``.
+
+Units: masses in g, volumes in mL, amounts of substance in mmol, densities in
+g/mL, molar masses in g/mol.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import pluggy
+
+if TYPE_CHECKING:
+    from capture.config import LabConfig
+    from capture.models import (
+        Entry,
+        Gap,
+        MassAssignment,
+        MassContext,
+        MaterialInfo,
+        MaterialLine,
+        MetricsReport,
+        ProductOut,
+        Result,
+    )
+
+hookspec = pluggy.HookspecMarker("masstrail")
+hookimpl = pluggy.HookimplMarker("masstrail")
+
+
+# --------------------------------------------------------------------------
+# Finding and reading entries
+# --------------------------------------------------------------------------
+
+
+@hookspec
+def masstrail_entry_suffixes(config: LabConfig) -> list[str]:
+    """Name the file endings that are notebook entries.
+
+    Called once per scan, before the notebook folder is walked.
+
+    :param config: the lab configuration of the notebook being scanned.
+    :returns: endings with their dot, e.g. ``[".md", ".yaml"]``; all answers are
+        combined.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_read_entry(path: Path, data: bytes, relpath: str, config: LabConfig) -> Entry | None:
+    """Turn the bytes of one file into an :class:`~capture.models.Entry`.
+
+    Called once per entry file, after its bytes were read (size-capped) and
+    hashed. A reader answers for the file types it knows and returns None for
+    the rest. It raises :class:`capture.safeio.InputError` for a file it knows
+    but cannot read; the message ends up in that entry's sidecar.
+
+    :param path: the file on disk.
+    :param data: its bytes, exactly as read and hashed.
+    :param relpath: the path relative to the notebook root, with ``/``.
+    :param config: the lab configuration.
+    :returns: the entry, or None when the file is not this reader's type.
+
+    Stops at first non-None result.
+    """
+
+
+# --------------------------------------------------------------------------
+# Extracting amounts
+# --------------------------------------------------------------------------
+
+
+@hookspec
+def masstrail_extract_amounts(entry: Entry, config: LabConfig) -> list[MaterialLine]:
+    """Find materials and their amounts in an entry's procedure text.
+
+    Called once per entry that was read. The structured materials (front
+    matter and tables) are already known to the pipeline; a material found
+    here under a name that a structured line already has is dropped, so the
+    structured record wins.
+
+    :param entry: the entry, with ``body`` holding the procedure text.
+    :param config: the lab configuration.
+    :returns: material lines with ``origin="text"``, each with its amounts and
+        the text span as evidence; all answers are combined.
+    """
+
+
+# --------------------------------------------------------------------------
+# Resolving materials and converting amounts to masses
+# --------------------------------------------------------------------------
+
+
+@hookspec(firstresult=True)
+def masstrail_resolve_material(name: str, config: LabConfig) -> MaterialInfo | None:
+    """Say what a material name stands for: formula, density, category.
+
+    Called once per distinct material name in a run (answers are cached).
+
+    :param name: the name as written, e.g. ``"EtOAc"`` or ``"sat. aq. NaHCO3"``.
+    :param config: the lab configuration (its extra materials and density
+        overrides).
+    :returns: the material's properties, each number with its source, or None
+        when this resolver does not know the name.
+
+    Stops at first non-None result.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_assign_mass(
+    line: MaterialLine, material: MaterialInfo | None, context: MassContext, config: LabConfig
+) -> MassAssignment | None:
+    """Convert one material line's amounts to a mass in g, with the basis of that mass.
+
+    Called for every material line and for the product, once the line's
+    material is resolved. Lines stated in equivalents are weighed after the
+    others, once ``context`` knows the limiting reagent.
+
+    :param line: the material line, with its parsed amounts.
+    :param material: what the material knowledge says about it, or None.
+    :param context: the limiting reagent's name and amount (mmol), if known.
+    :param config: the lab configuration.
+    :returns: the mass and its basis, or the reason none can be given; None
+        to leave the line to another plugin.
+
+    Stops at first non-None result.
+    """
+
+
+# --------------------------------------------------------------------------
+# Record gaps
+# --------------------------------------------------------------------------
+
+
+@hookspec
+def masstrail_find_gaps(
+    entry: Entry, materials: list[MaterialLine], product: ProductOut, config: LabConfig
+) -> list[Gap]:
+    """Find the records that the waste figure needs but the entry lacks.
+
+    Called once per entry, after every material has a mass or a problem.
+
+    :param entry: the entry.
+    :param materials: its material lines, weighed.
+    :param product: the product with its mass (None when not recorded).
+    :param config: the lab configuration.
+    :returns: gaps, each with a severity and an actionable message; all
+        answers are combined.
+    """
+
+
+# --------------------------------------------------------------------------
+# Metrics
+# --------------------------------------------------------------------------
+
+
+@hookspec
+def masstrail_compute_metrics(
+    entry: Entry,
+    materials: list[MaterialLine],
+    product: ProductOut,
+    recovered: list[MaterialLine],
+    gaps: list[Gap],
+    config: LabConfig,
+) -> MetricsReport | None:
+    """Compute figures for one entry.
+
+    Called once per entry, after the gap rules.
+
+    :param entry: the entry.
+    :param materials: its material lines, weighed.
+    :param product: the product with its mass.
+    :param recovered: what the entry credits as recovered, weighed.
+    :param gaps: every gap found.
+    :param config: the lab configuration.
+    :returns: metrics (plain numbers, fractions 0–1, None where not
+        computable) and, optionally, totals, breakdown and context; answers
+        are merged in plugin order, so a later answer does not erase an
+        earlier figure with None.
+    """
+
+
+# --------------------------------------------------------------------------
+# Writing results
+# --------------------------------------------------------------------------
+
+
+@hookspec
+def masstrail_write_result(result: Result, entry_path: Path, config: LabConfig) -> list[Path]:
+    """Write one entry's result somewhere: a sidecar, a card, a store.
+
+    Called once per entry, last, also for entries that could not be read
+    (their result has ``status="error"``).
+
+    :param result: the complete result.
+    :param entry_path: the entry file on disk.
+    :param config: the lab configuration.
+    :returns: the paths written (unchanged files are not rewritten and not
+        listed); all answers are combined.
+    """

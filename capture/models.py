@@ -1,0 +1,329 @@
+"""The data that flows through a masstrail run, as pydantic models.
+
+An :class:`Entry` is what a reader makes of one notebook file. Its materials
+become :class:`MaterialLine` objects, each holding the amounts as written
+(:class:`AmountMention`) and, once converted, a mass in grams with the basis of
+that mass. Rules add :class:`Gap` records, metric plugins fill
+:class:`Metrics`, and everything is written out as one :class:`Result`: the
+sidecar ``NAME.waste.json`` whose JSON Schema is ``capture/result.schema.json``.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, field_validator
+
+RESULT_FORMAT = "masstrail-result/1"
+
+Severity = Literal["blocking", "major", "minor"]
+Origin = Literal["front-matter", "table", "text", "balance"]
+Stage = Literal["reaction", "workup", "purification"]
+Kind = Literal["mass", "volume", "amount", "equivalents", "concentration"]
+
+# Front-matter values arrive as strings (see capture.safeio); these spellings
+# mean "no value".
+_NULL_WORDS = {"", "~", "null", "Null", "NULL", "none", "None"}
+
+
+def _nullish(value: Any) -> Any:
+    if isinstance(value, str) and value.strip() in _NULL_WORDS:
+        return None
+    return value
+
+
+class _Model(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+
+class AmountMention(_Model):
+    """One amount as the chemist wrote it, parsed into a value and a unit.
+
+    ``value`` is in ``unit``; ``multiplier`` is the ``3`` of ``3 × 40 mL``.
+    ``low``/``high`` hold the two ends of a range (``10–15 mL``), in which
+    case ``value`` is their midpoint.
+    """
+
+    value: float = Field(description="the number, in `unit` (the midpoint of a range)")
+    unit: str = Field(description="canonical unit: g, mL, mmol, equiv or M")
+    kind: Kind = Field(description="what the amount measures")
+    multiplier: int = Field(1, description="the N of `N × amount`")
+    approximate: bool = Field(False, description="written with ca., ~, approx. or ≈")
+    low: float | None = Field(None, description="lower end of a range, in `unit`")
+    high: float | None = Field(None, description="upper end of a range, in `unit`")
+    text: str = Field(description="the amount exactly as written")
+    span: tuple[int, int] | None = Field(
+        None, description="character offsets of `text` in the entry's body, if it came from there"
+    )
+
+    @property
+    def total(self) -> float:
+        """The value times the multiplier, in ``unit``."""
+        return self.value * self.multiplier
+
+
+class StructuredMaterial(BaseModel):
+    """One item of the front-matter ``materials`` list or of a materials table."""
+
+    model_config = ConfigDict(extra="allow")
+
+    name: str
+    amount: str | None = None
+    role: str | None = None
+    stage: Stage | None = None
+
+    _v = field_validator("amount", "role", "stage", mode="before")(_nullish)
+
+    @field_validator("name", mode="before")
+    @classmethod
+    def _name_is_text(cls, value: Any) -> Any:
+        if value is None or (isinstance(value, str) and not value.strip()):
+            raise ValueError("a material needs a name")
+        return str(value) if isinstance(value, (int, float)) else value
+
+    @field_validator("amount", mode="before")
+    @classmethod
+    def _amount_has_unit(cls, value: Any) -> Any:
+        if isinstance(value, bool):
+            raise ValueError(f"amount {value!r} is not an amount")
+        if isinstance(value, (int, float)):
+            # JSON numbers: kept as text, so the amount reader reports the missing unit
+            return str(value)
+        return value
+
+
+class Product(BaseModel):
+    """The desired product of an entry."""
+
+    model_config = ConfigDict(extra="allow")
+
+    name: str | None = None
+    mass: str | None = None
+    formula: str | None = None
+    smiles: str | None = None
+
+    _v = field_validator("name", "mass", "formula", "smiles", mode="before")(_nullish)
+    _u = field_validator("mass", mode="before")(StructuredMaterial._amount_has_unit.__func__)
+
+
+class Recovered(BaseModel):
+    """Material recovered and credited against the waste (e.g. distilled solvent)."""
+
+    model_config = ConfigDict(extra="allow")
+
+    name: str
+    amount: str
+
+    _u = field_validator("amount", mode="before")(StructuredMaterial._amount_has_unit.__func__)
+
+
+class Entry(BaseModel):
+    """One notebook entry, as a reader made it from one file.
+
+    ``path`` is relative to the notebook root, with forward slashes.
+    ``sha256`` is the hash of the file's bytes. Front-matter keys that masstrail
+    does not know are kept in ``extra``.
+    """
+
+    id: str
+    path: str
+    sha256: str
+    format: Literal["markdown", "yaml", "json", "ipynb"]
+    title: str | None = None
+    author: str | None = None
+    group: str | None = None
+    project: str | None = None
+    date: dt.date | None = None
+    product: Product = Field(default_factory=Product)
+    equation: str | None = None
+    balance_log: list[str] = Field(default_factory=list)
+    materials: list[StructuredMaterial] = Field(default_factory=list)
+    table_materials: list[StructuredMaterial] = Field(default_factory=list)
+    recovered: list[Recovered] = Field(default_factory=list)
+    body: str = ""
+    extra: dict[str, Any] = Field(default_factory=dict)
+
+    _v = field_validator("title", "author", "group", "project", "equation", "date", mode="before")(
+        _nullish
+    )
+
+    @field_validator("balance_log", mode="before")
+    @classmethod
+    def _one_or_many(cls, value: Any) -> Any:
+        value = _nullish(value)
+        if value is None:
+            return []
+        return [value] if isinstance(value, str) else value
+
+    @field_validator("materials", "recovered", mode="before")
+    @classmethod
+    def _list_or_none(cls, value: Any) -> Any:
+        value = _nullish(value)
+        return [] if value is None else value
+
+    @field_validator("product", mode="before")
+    @classmethod
+    def _product_or_name(cls, value: Any) -> Any:
+        value = _nullish(value)
+        if value is None:
+            return {}
+        return {"name": value} if isinstance(value, str) else value
+
+
+class MaterialInfo(_Model):
+    """What the material knowledge says about a substance.
+
+    Densities are in g/mL at ``density_temp_c``. Every number names its source.
+    """
+
+    name: str = Field(description="canonical name")
+    formula: str | None = None
+    molar_mass: float | None = Field(None, description="g/mol, from the formula")
+    density_g_ml: float | None = None
+    density_temp_c: float | None = None
+    density_source: str | None = None
+    category: str = "reagent"
+    halogenated: bool = False
+    water_fraction: float | None = Field(
+        None, description="mass fraction of water, for water and aqueous solutions"
+    )
+    source: str = Field(description="where this record comes from")
+
+
+class MaterialLine(_Model):
+    """One material that went into the experiment, with its mass and the basis of it."""
+
+    name: str = Field(description="the name as written")
+    resolved: str | None = Field(None, description="canonical name from the material knowledge")
+    role: str | None = None
+    category: str | None = None
+    stage: Stage | None = None
+    stated: str | None = Field(None, description="the amount exactly as written")
+    amounts: list[AmountMention] = Field(default_factory=list)
+    mass_g: float | None = None
+    moles_mmol: float | None = None
+    basis: str | None = Field(None, description="how mass_g was obtained, with the constants used")
+    origin: Origin
+    evidence: str | None = Field(None, description="the text the amount was read from")
+    problem: str | None = Field(None, description="why no mass could be given, if none")
+    problem_kind: str | None = Field(None, description="the gap kind of that problem")
+    water_g: float | None = Field(None, description="water contained in this mass, in g")
+
+
+class Gap(_Model):
+    """A record the waste figure needs but the entry lacks, or a record that is wrong."""
+
+    kind: str
+    item: str = Field(description="what the gap is about (a material, the product, a file)")
+    severity: Severity
+    evidence: str | None = Field(None, description="the text or key that shows the gap")
+    message: str = Field(description="what is missing and what to do about it")
+    allowance_g: float | None = Field(
+        None, description="estimated mass of the missing record, in g (assumed, not recorded)"
+    )
+
+
+class Metrics(_Model):
+    """The entry's figures. Fractions are 0–1, not percent; null where not computable."""
+
+    model_config = ConfigDict(extra="allow", populate_by_name=True)
+
+    e_factor: float | None = Field(None, description="complete E-factor from recorded masses")
+    e_factor_simple: float | None = Field(None, description="simple E-factor (sEF)")
+    e_factor_estimated: float | None = Field(None, description="E-factor with gap allowances")
+    pmi: float | None = Field(None, description="process mass intensity")
+    atom_economy: float | None = None
+    yield_: float | None = Field(None, alias="yield", serialization_alias="yield")
+    rme: float | None = Field(None, description="reaction mass efficiency")
+
+
+class Totals(_Model):
+    """Mass sums behind the metrics, in grams."""
+
+    inputs_g: float = Field(description="every recorded input")
+    product_g: float | None
+    recovered_g: float = Field(description="credited as recovered")
+    waste_g: float | None = Field(description="inputs − product − recovered")
+    water_g: float = Field(description="water in the inputs (pure water and aqueous solutions)")
+
+
+class Breakdown(_Model):
+    """Where the input mass goes, by category and by stage."""
+
+    by_category: dict[str, float] = Field(default_factory=dict)
+    by_stage: dict[str, float] = Field(default_factory=dict)
+    largest: str | None = Field(None, description="the largest single contributor, in words")
+
+
+class ProductOut(_Model):
+    name: str | None
+    mass_g: float | None
+    basis: str | None = None
+
+
+class EntryRef(_Model):
+    id: str
+    path: str
+    sha256: str | None
+
+
+class EntryError(_Model):
+    """Why an entry could not be processed at all."""
+
+    message: str
+    location: str | None = Field(None, description="file, line or key")
+
+
+class Result(_Model):
+    """Everything masstrail says about one entry: the content of ``NAME.waste.json``."""
+
+    format: Literal["masstrail-result/1"] = RESULT_FORMAT
+    generator: str = Field(description="masstrail and its version")
+    status: Literal["ok", "error"]
+    error: EntryError | None = None
+    entry: EntryRef
+    meta: dict[str, str | None] = Field(
+        default_factory=dict, description="title, author, group, project, date"
+    )
+    product: ProductOut
+    materials: list[MaterialLine] = Field(default_factory=list)
+    recovered: list[MaterialLine] = Field(
+        default_factory=list, description="credited as recovered, not counted as waste"
+    )
+    gaps: list[Gap] = Field(default_factory=list)
+    metrics: Metrics = Field(default_factory=Metrics)
+    totals: Totals | None = None
+    breakdown: Breakdown | None = None
+    context: dict[str, str] = Field(default_factory=dict)
+    caution: str
+
+    def sidecar_json(self) -> str:
+        """The sidecar text: stable key order, two-space indent, trailing newline."""
+        return self.model_dump_json(indent=2, by_alias=True) + "\n"
+
+
+class MassContext(_Model):
+    """What the weighing of one line may need to know about the rest of the entry."""
+
+    limiting_name: str | None = None
+    limiting_mmol: float | None = Field(None, description="amount of the limiting reagent, mmol")
+
+
+class MassAssignment(_Model):
+    """A mass for one material line, or the reason there is none."""
+
+    mass_g: float | None = None
+    moles_mmol: float | None = None
+    basis: str | None = None
+    problem: str | None = Field(None, description="why no mass could be given")
+    problem_kind: str | None = Field(None, description="gap kind for the problem")
+
+
+class MetricsReport(_Model):
+    """One metrics plugin's answer, merged into the result."""
+
+    metrics: dict[str, float | None] = Field(default_factory=dict)
+    totals: Totals | None = None
+    breakdown: Breakdown | None = None
+    context: dict[str, str] = Field(default_factory=dict)

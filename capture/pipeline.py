@@ -1,0 +1,450 @@
+"""One run of masstrail over a notebook: read, extract, resolve, weigh, find gaps, compute, write.
+
+The pipeline only calls hooks (see :mod:`capture.hookspecs`); the behaviour
+comes from the plugins. One broken entry never stops a scan: whatever goes
+wrong with an entry becomes that entry's ``status="error"`` result, and the
+scan goes on with the next one.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+from collections.abc import Callable, Iterable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import pluggy
+
+from capture import __version__
+from capture.chem import material_key, molar_mass
+from capture.config import CONFIG_NAME, LabConfig, load_config
+from capture.models import (
+    Breakdown,
+    Entry,
+    EntryError,
+    EntryRef,
+    Gap,
+    MassContext,
+    MaterialInfo,
+    MaterialLine,
+    Metrics,
+    ProductOut,
+    Result,
+    StructuredMaterial,
+    Totals,
+)
+from capture.paths import STATE_DIR, is_ignored, is_own_output, is_temp_file, sidecar_path
+from capture.quantities import AmountError, parse_amounts
+from capture.safeio import InputError, read_bounded
+
+GENERATOR = f"masstrail {__version__}"
+CAUTION = (
+    "These figures support record keeping and the comparison of routes; they are not a "
+    "hazard assessment. Dispose of waste according to local regulations, the safety data "
+    "sheets and your lab's safety office."
+)
+
+ROLE_STAGE = {
+    "reaction": {"reactant", "limiting reagent", "limiting reactant", "limiting", "reagent",
+                 "catalyst", "ligand", "solvent", "additive", "starting material", "substrate",
+                 "base", "acid", "reaction solvent"},
+    "workup": {"workup", "work-up", "quench", "extraction", "extraction solvent", "wash",
+               "drying", "drying agent", "filtration", "filter aid", "filter medium"},
+    "purification": {"purification", "chromatography", "eluent", "stationary phase",
+                     "recrystallisation", "recrystallization", "trituration", "distillation"},
+}  # fmt: skip
+CATEGORY_STAGE = {
+    "drying agent": "workup",
+    "aqueous": "workup",
+    "filter aid": "workup",
+    "filter medium": "workup",
+    "sorbent": "purification",
+}
+LIMITING_ROLES = {"limiting reagent", "limiting reactant", "limiting"}
+REACTANT_ROLES = {"reactant", "starting material", "substrate"}
+_SEVERITY_ORDER = {"blocking": 0, "major": 1, "minor": 2}
+
+
+def stage_for(role: str | None, category: str | None) -> str | None:
+    """The stage a material belongs to, from its role, else from its category."""
+    if role:
+        low = role.strip().casefold()
+        for stage, roles in ROLE_STAGE.items():
+            if low in roles:
+                return stage
+    return CATEGORY_STAGE.get(category or "")
+
+
+def _flatten(answers: Iterable[list | None]) -> list:
+    return [item for answer in answers if answer for item in answer]
+
+
+@dataclass
+class Notebook:
+    """A notebook folder with its configuration and a ready plugin manager."""
+
+    root: Path
+    config: LabConfig
+    pm: pluggy.PluginManager
+    _resolved: dict[str, MaterialInfo | None] = field(default_factory=dict)
+
+    @classmethod
+    def open(cls, root: Path, pm: pluggy.PluginManager | None = None) -> Notebook:
+        """Load ``masstrail.toml`` (if any) and the plugins for the folder ``root``."""
+        from capture.plugin_manager import get_plugin_manager
+
+        root = root.resolve()
+        config = load_config(root)
+        return cls(root, config, pm or get_plugin_manager(block=config.plugins.block))
+
+    # ------------------------------------------------------------------ discovery
+    def entry_files(self) -> list[Path]:
+        """Every entry file under the root, sorted; outputs, temp and hidden files skipped."""
+        suffixes = {
+            s.lower() for s in _flatten(self.pm.hook.masstrail_entry_suffixes(config=self.config))
+        }
+        found = []
+        for dirpath, dirnames, filenames in os.walk(self.root):
+            dirnames[:] = sorted(
+                d for d in dirnames if not d.startswith(".") and d not in {"__pycache__"}
+            )
+            rel_dir = Path(dirpath).relative_to(self.root)
+            for name in sorted(filenames):
+                if name.startswith(".") or is_own_output(name) or is_temp_file(name):
+                    continue
+                if rel_dir == Path(".") and name == CONFIG_NAME:
+                    continue
+                if Path(name).suffix.lower() not in suffixes:
+                    continue
+                rel = (rel_dir / name).as_posix()
+                if is_ignored(rel, self.config.scan.ignore):
+                    continue
+                found.append(Path(dirpath) / name)
+        return found
+
+    def relpath(self, path: Path) -> str:
+        """``path`` relative to the root, with ``/``."""
+        return path.resolve().relative_to(self.root).as_posix()
+
+    # ------------------------------------------------------------------ one entry
+    def resolve(self, name: str) -> MaterialInfo | None:
+        """Material knowledge for ``name``, asked once per run."""
+        key = material_key(name)
+        if key not in self._resolved:
+            self._resolved[key] = self.pm.hook.masstrail_resolve_material(
+                name=name, config=self.config
+            )
+        return self._resolved[key]
+
+    def process(self, path: Path, write: bool = True) -> Result:
+        """Compute (and by default write) the result for one entry file; never raises for bad input."""
+        rel = self.relpath(path)
+        sha = None
+        try:
+            limit = int(self.config.scan.max_entry_mb * 1024 * 1024)
+            data = read_bounded(path, limit)
+            sha = hashlib.sha256(data).hexdigest()
+            entry = self.pm.hook.masstrail_read_entry(
+                path=path, data=data, relpath=rel, config=self.config
+            )
+            if entry is None:
+                raise InputError("no reader for this kind of file")
+            result = self._compute(entry)
+        except InputError as exc:
+            result = error_result(path, rel, sha, exc.message, exc.location)
+        except Exception as exc:  # a plugin's bug must not stop the scan
+            result = error_result(
+                path, rel, sha, f"internal error while processing this entry: {exc!r}", None
+            )
+        if write:
+            self.write(result, path)
+        return result
+
+    def write(self, result: Result, path: Path) -> list[Path]:
+        """Hand a result to every writer plugin."""
+        return _flatten(
+            self.pm.hook.masstrail_write_result(result=result, entry_path=path, config=self.config)
+        )
+
+    def _line(self, item: StructuredMaterial, origin: str, role: str | None = None) -> MaterialLine:
+        line = MaterialLine(
+            name=item.name.strip(),
+            role=role or item.role,
+            stage=item.stage,
+            stated=item.amount,
+            origin=origin,
+            evidence=_evidence(item, origin),
+        )
+        if item.amount:
+            try:
+                line.amounts = parse_amounts(item.amount)
+            except AmountError as exc:
+                line.problem = f"amount could not be read: {exc}"
+                line.problem_kind = "unreadable_amount"
+        return line
+
+    def _weigh(self, line: MaterialLine, info: MaterialInfo | None, ctx: MassContext) -> None:
+        if line.problem or not line.amounts:
+            return
+        got = self.pm.hook.masstrail_assign_mass(
+            line=line, material=info, context=ctx, config=self.config
+        )
+        if got is None:
+            line.problem = f"no plugin could weigh {line.stated!r}"
+            line.problem_kind = "unweighed"
+            return
+        line.mass_g = None if got.mass_g is None else round(got.mass_g, 4)
+        line.moles_mmol = None if got.moles_mmol is None else round(got.moles_mmol, 4)
+        line.basis = got.basis
+        line.problem, line.problem_kind = got.problem, got.problem_kind
+        if line.mass_g is not None and info is not None:
+            if info.category == "water":
+                line.water_g = line.mass_g
+            elif info.water_fraction is not None:
+                line.water_g = round(line.mass_g * info.water_fraction, 4)
+
+    def _compute(self, entry: Entry) -> Result:
+        structured = [self._line(m, "front-matter") for m in entry.materials]
+        structured += [self._line(m, "table") for m in entry.table_materials]
+        text_lines = _flatten(self.pm.hook.masstrail_extract_amounts(entry=entry, config=self.config))
+
+        formulas = {
+            id(line): (item.model_extra or {}).get("formula")
+            for line, item in zip(structured, entry.materials + entry.table_materials, strict=True)
+        }
+        infos: dict[int, MaterialInfo | None] = {}
+        for line in structured + text_lines:
+            info = self.resolve(line.name)
+            if info is None and formulas.get(id(line)):
+                info = _from_formula(line.name, str(formulas[id(line)]), molar_mass)
+            infos[id(line)] = info
+            if info is not None:
+                line.resolved, line.category = info.name, info.category
+            line.stage = line.stage or stage_for(line.role, line.category)
+
+        def key(line: MaterialLine) -> str:
+            return material_key(line.resolved or line.name)
+
+        product_key = material_key(entry.product.name) if entry.product.name else None
+        materials = structured + [
+            line
+            for line in text_lines
+            if key(line) != product_key and not _restates(line, structured, key)
+        ]
+
+        # weigh everything that does not need the limiting reagent, then the rest
+        ctx = MassContext()
+        by_equiv = [m for m in materials if _needs_limiting(m)]
+        for line in materials:
+            if line not in by_equiv:
+                self._weigh(line, infos[id(line)], ctx)
+        limiting = choose_limiting(materials)
+        if limiting is not None:
+            ctx = MassContext(limiting_name=limiting.name, limiting_mmol=limiting.moles_mmol)
+        for line in by_equiv:
+            self._weigh(line, infos[id(line)], ctx)
+
+        product = self._product(entry, molar_mass)
+        recovered = []
+        for item in entry.recovered:
+            line = self._line(StructuredMaterial(name=item.name, amount=item.amount), "front-matter",
+                              role="recovered")  # fmt: skip
+            info = self.resolve(line.name)
+            if info is not None:
+                line.resolved, line.category = info.name, info.category
+            self._weigh(line, info, ctx)
+            recovered.append(line)
+
+        gaps: list[Gap] = _flatten(
+            self.pm.hook.masstrail_find_gaps(
+                entry=entry, materials=materials, product=product, config=self.config
+            )
+        )
+        for line in recovered:
+            if line.mass_g is None:
+                gaps.append(
+                    Gap(
+                        kind=line.problem_kind or "unweighed",
+                        item=line.name,
+                        severity="minor",
+                        evidence=f"recovered: {line.name}: {line.stated}",
+                        message=(line.problem or "no mass") + "; it is not credited",
+                    )
+                )
+        gaps.sort(key=lambda g: _SEVERITY_ORDER[g.severity])
+
+        metrics: dict[str, float | None] = {}
+        totals: Totals | None = None
+        breakdown: Breakdown | None = None
+        context: dict[str, str] = {}
+        for report in self.pm.hook.masstrail_compute_metrics(
+            entry=entry,
+            materials=materials,
+            product=product,
+            recovered=recovered,
+            gaps=gaps,
+            config=self.config,
+        ):
+            if report is None:
+                continue
+            for name, value in report.metrics.items():
+                if value is not None or name not in metrics:
+                    metrics[name] = value
+            totals = report.totals or totals
+            breakdown = report.breakdown or breakdown
+            context.update(report.context)
+
+        return Result(
+            generator=GENERATOR,
+            status="ok",
+            entry=EntryRef(id=entry.id, path=entry.path, sha256=entry.sha256),
+            meta={
+                "title": entry.title,
+                "author": entry.author,
+                "group": entry.group,
+                "project": entry.project,
+                "date": entry.date.isoformat() if entry.date else None,
+            },
+            product=product,
+            materials=materials,
+            recovered=recovered,
+            gaps=gaps,
+            metrics=Metrics.model_validate(metrics),
+            totals=totals,
+            breakdown=breakdown,
+            context=context,
+            caution=CAUTION,
+        )
+
+    def _product(self, entry: Entry, molar_mass: Callable[[str], float]) -> ProductOut:
+        p = entry.product
+        if not p.mass:
+            return ProductOut(name=p.name, mass_g=None)
+        info = _from_formula(p.name or "product", p.formula, molar_mass) if p.formula else None
+        if info is None and p.name:
+            info = self.resolve(p.name)
+        line = self._line(
+            StructuredMaterial(name=p.name or "product", amount=p.mass), "front-matter", "product"
+        )
+        self._weigh(line, info, MassContext())
+        return ProductOut(name=p.name, mass_g=line.mass_g, basis=line.basis or line.problem)
+
+
+def _from_formula(name: str, formula: str, molar_mass: Callable[[str], float]) -> MaterialInfo | None:
+    """Material knowledge from a formula the entry gives itself."""
+    try:
+        mm = molar_mass(formula)
+    except ValueError:
+        return None
+    return MaterialInfo(
+        name=name,
+        formula=formula,
+        molar_mass=round(mm, 4),
+        category="reagent",
+        source="the formula given in the entry",
+    )
+
+
+def _restates(line: MaterialLine, structured: list[MaterialLine], key: Callable) -> bool:
+    """True when a text mention repeats a structured line: same material and same amount."""
+    k = key(line)
+    for other in structured:
+        if key(other) != k:
+            continue
+        for a in line.amounts:
+            for b in other.amounts:
+                if a.kind == b.kind and abs(a.total - b.total) <= 0.005 * max(a.total, b.total):
+                    return True
+    return False
+
+
+def _evidence(item: StructuredMaterial, origin: str) -> str:
+    if origin == "table":
+        line = (item.model_extra or {}).get("line")
+        return f"materials table, line {line} of the text: {item.name} | {item.amount or ''}"
+    return f"front matter: materials: {item.name}: {item.amount or '(no amount)'}"
+
+
+def _needs_limiting(line: MaterialLine) -> bool:
+    kinds = {a.kind for a in line.amounts}
+    return "equivalents" in kinds and not kinds & {"mass", "volume", "amount"}
+
+
+def choose_limiting(materials: list[MaterialLine]) -> MaterialLine | None:
+    """The limiting reagent: marked by role, else stated as 1 equiv, else the scarcest reactant."""
+    known = [m for m in materials if m.moles_mmol]
+    for m in known:
+        if (m.role or "").casefold() in LIMITING_ROLES:
+            return m
+    for m in known:
+        if any(a.kind == "equivalents" and abs(a.value - 1.0) < 1e-9 for a in m.amounts):
+            return m
+    reactants = [m for m in known if (m.role or "").casefold() in REACTANT_ROLES]
+    return min(reactants, key=lambda m: m.moles_mmol) if reactants else None
+
+
+def error_result(
+    path: Path, rel: str, sha: str | None, message: str, location: str | None
+) -> Result:
+    """The result of an entry that could not be processed: its sidecar says why."""
+    from capture.paths import entry_stem
+
+    return Result(
+        generator=GENERATOR,
+        status="error",
+        error=EntryError(message=message, location=location),
+        entry=EntryRef(id=entry_stem(path), path=rel, sha256=sha),
+        product=ProductOut(name=None, mass_g=None),
+        caution=CAUTION,
+    )
+
+
+@dataclass
+class ScanReport:
+    """The results of one scan, in the order of the entry files."""
+
+    root: Path
+    results: list[Result]
+    written: list[Path]
+
+    def count(self, severity: str) -> int:
+        """How many gaps of ``severity`` the scan found."""
+        return sum(1 for r in self.results for g in r.gaps if g.severity == severity)
+
+    @property
+    def errors(self) -> list[Result]:
+        return [r for r in self.results if r.status == "error"]
+
+
+def scan(
+    notebook: Notebook, progress: Callable[[Path], None] | None = None, write: bool = True
+) -> ScanReport:
+    """Process every entry under the notebook root once; one result per entry file."""
+    files = notebook.entry_files()
+    by_sidecar: dict[Path, list[Path]] = {}
+    for f in files:
+        by_sidecar.setdefault(sidecar_path(f), []).append(f)
+    results, written = [], []
+    for f in files:
+        clash = by_sidecar[sidecar_path(f)]
+        if len(clash) > 1:
+            names = ", ".join(p.name for p in clash)
+            result = error_result(
+                f,
+                notebook.relpath(f),
+                None,
+                f"{len(clash)} entries in this folder share the name "
+                f"'{sidecar_path(f).name}' for their results ({names}); rename one of them",
+                None,
+            )
+            if write and f == clash[0]:
+                written += notebook.write(result, f)
+        else:
+            result = notebook.process(f, write=False)
+            if write:
+                written += notebook.write(result, f)
+        results.append(result)
+        if progress:
+            progress(f)
+    return ScanReport(notebook.root, results, written)

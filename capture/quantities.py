@@ -1,0 +1,226 @@
+"""Amount strings to numbers: a strict front end in front of pint.
+
+pint is the unit authority, but it must never see a chemist's raw text: it
+reads ``ca. 5 g`` as centiyear·gram, ``5,2 g`` as 52 g and ``0.5 N`` as
+newtons. So this module first normalises the text (Unicode NFKC, µ/μ/u,
+U+2212, thin and non-breaking spaces), strips and records qualifiers
+(``ca.``, ``~``, ``≈``), expands ``3 × 40 mL``, reads ranges (``10–15 mL``),
+settles the decimal separator, and accepts only units on its own list. Only
+then does pint convert to the canonical units g, mL, mmol, equiv and M, and
+the dimensionality is checked against the kind the unit promised.
+"""
+
+from __future__ import annotations
+
+import functools
+import re
+import threading
+import unicodedata
+
+from capture.models import AmountMention, Kind
+
+
+class AmountError(ValueError):
+    """An amount string that cannot be read; the message says why and what to write."""
+
+
+# unit as written (after normalisation, compared case-sensitively) → (pint unit, kind)
+_UNITS: dict[str, tuple[str, Kind]] = {}
+
+
+def _add(names: str, pint_unit: str, kind: Kind) -> None:
+    for name in names.split():
+        _UNITS[name] = (pint_unit, kind)
+
+
+_add("ug mcg μg", "microgram", "mass")
+_add("mg", "milligram", "mass")
+_add("g gram grams", "gram", "mass")
+_add("kg", "kilogram", "mass")
+_add("uL ul μL μl", "microliter", "volume")
+_add("mL ml cm3 cc", "milliliter", "volume")
+_add("cL cl", "centiliter", "volume")
+_add("dL dl", "deciliter", "volume")
+_add("L l", "liter", "volume")
+_add("umol μmol", "micromole", "amount")
+_add("mmol", "millimole", "amount")
+_add("mol", "mole", "amount")
+_add("equiv equiv. eq eq. equivalent equivalents equivs", "equivalent", "equivalents")
+_add("M mol/L mol/l", "molar", "concentration")
+_add("mM mmol/L mmol/l", "millimolar", "concentration")
+
+CANONICAL: dict[Kind, str] = {
+    "mass": "g",
+    "volume": "mL",
+    "amount": "mmol",
+    "equivalents": "equiv",
+    "concentration": "M",
+}
+_PINT_CANONICAL: dict[Kind, str] = {
+    "mass": "gram",
+    "volume": "milliliter",
+    "amount": "millimole",
+    "equivalents": "equivalent",
+    "concentration": "molar",
+}
+_DIMENSION: dict[Kind, str] = {
+    "mass": "[mass]",
+    "volume": "[length] ** 3",
+    "amount": "[substance]",
+    "equivalents": "[stoichiometry]",
+    "concentration": "[substance] / [length] ** 3",
+}
+
+_REFUSED = {
+    "N": "N (normality, or newtons to a unit library) is not read; give the molarity in M",
+    "%": "a bare percentage is not an amount; give the mass or volume",
+    "wt%": "a mass fraction is not an amount by itself; give the mass or volume",
+    "drops": "drops are not a measured amount; give the volume in mL",
+}
+
+_registry = None
+_registry_lock = threading.Lock()
+
+
+def registry():
+    """The one pint registry of this process, built on first use (it takes ~0.2 s)."""
+    global _registry
+    if _registry is None:
+        with _registry_lock:
+            if _registry is None:
+                import pint
+
+                reg = pint.UnitRegistry()
+                reg.define("equivalent = [stoichiometry] = equiv")
+                _registry = reg
+    return _registry
+
+
+@functools.lru_cache(maxsize=256)
+def _factor(pint_unit: str, kind: Kind) -> float:
+    """Factor from ``pint_unit`` to the canonical unit of ``kind``, checked by pint."""
+    reg = registry()
+    q = reg.Quantity(1.0, pint_unit)
+    if not q.check(_DIMENSION[kind]):
+        raise AmountError(f"{pint_unit} is not a {kind}")
+    return float(q.to(_PINT_CANONICAL[kind]).magnitude)
+
+
+_SPACES = dict.fromkeys(map(ord, "\u00a0\u2009\u202f\u2007\u200a\u2002\u2003"), " ")
+
+
+def normalise(text: str) -> str:
+    """NFKC, one kind of µ, ASCII minus, plain spaces, collapsed whitespace."""
+    text = text.translate(_SPACES)
+    text = unicodedata.normalize("NFKC", text)
+    text = text.replace("\u2212", "-").replace("µ", "μ")
+    return re.sub(r"\s+", " ", text).strip()
+
+
+_QUALIFIER = re.compile(r"^(?:ca\.?|c\.|approx\.?|approximately|about|circa|~|≈|∼)\s*", re.I)
+_MULT = re.compile(r"^(\d+)\s*[×xX*]\s*")
+_NUMBER = r"\d+(?:[.,]\d+)?|[.,]\d+"
+_BODY = re.compile(
+    rf"^(?P<a>{_NUMBER})(?:\s*(?:-|–|—|to)\s*(?P<b>{_NUMBER}))?\s*(?P<unit>[^\s\d].*)?$"
+)
+
+
+def _number(raw: str, whole: str) -> float:
+    if "," in raw:
+        head, _, tail = raw.partition(",")
+        if len(tail) == 3:
+            raise AmountError(
+                f"{whole!r}: {raw!r} could be {head}.{tail} or {head}{tail}; "
+                "write it without a thousands separator and with a decimal point"
+            )
+        raw = f"{head}.{tail}"
+    return float(raw)
+
+
+def parse_amount(text: str, span: tuple[int, int] | None = None) -> AmountMention:
+    """Parse one amount such as ``3.12 g``, ``ca. 5 g``, ``3 × 40 mL`` or ``10–15 mL``."""
+    original = text
+    s = normalise(text)
+    if not s:
+        raise AmountError("the amount is empty")
+    approximate = False
+    m = _QUALIFIER.match(s)
+    if m:
+        approximate = True
+        s = s[m.end() :]
+    multiplier = 1
+    m = _MULT.match(s)
+    if m:
+        multiplier = int(m.group(1))
+        s = s[m.end() :]
+        if multiplier < 1:
+            raise AmountError(f"{original!r}: the multiplier must be at least 1")
+    if s.startswith("-"):
+        raise AmountError(f"{original!r}: an amount cannot be negative")
+    m = _BODY.match(s)
+    if not m:
+        raise AmountError(f"{original!r} is not an amount; write a number and a unit, e.g. '2.5 g'")
+    unit = (m.group("unit") or "").strip()
+    if not unit:
+        raise AmountError(f"{original!r} has no unit; write e.g. '{s} g' or '{s} mL'")
+    if unit in _REFUSED:
+        raise AmountError(f"{original!r}: {_REFUSED[unit]}")
+    if unit not in _UNITS:
+        raise AmountError(
+            f"{original!r}: unknown unit {unit!r} (masstrail reads g, mg, kg, μg, mL, L, μL, "
+            "mol, mmol, μmol, equiv and M)"
+        )
+    pint_unit, kind = _UNITS[unit]
+    factor = _factor(pint_unit, kind)
+    a = _number(m.group("a"), original) * factor
+    b = _number(m.group("b"), original) * factor if m.group("b") else None
+    if a <= 0 or (b is not None and b <= 0):
+        raise AmountError(f"{original!r}: an amount must be greater than zero")
+    low = high = None
+    value = a
+    if b is not None:
+        if b < a:
+            raise AmountError(f"{original!r}: the range runs backwards")
+        low, high, value = a, b, (a + b) / 2
+    return AmountMention(
+        value=value,
+        unit=CANONICAL[kind],
+        kind=kind,
+        multiplier=multiplier,
+        approximate=approximate,
+        low=low,
+        high=high,
+        text=original.strip(),
+        span=span,
+    )
+
+
+_SPLIT = re.compile(r"\s*(?:;|,(?=\s))\s*")
+
+
+def parse_amounts(text: str, offset: int | None = None) -> list[AmountMention]:
+    """Parse a list such as ``4.36 g, 20.0 mmol``; a comma needs a space after it to split.
+
+    With ``offset`` (the position of ``text`` in the body), each amount gets its span.
+    """
+    out: list[AmountMention] = []
+    pos = 0
+    for part in _SPLIT.split(text):
+        start = text.find(part, pos)
+        pos = start + len(part)
+        if not part.strip():
+            continue
+        span = (offset + start, offset + start + len(part)) if offset is not None else None
+        out.append(parse_amount(part, span))
+    if not out:
+        raise AmountError("the amount is empty")
+    return out
+
+
+def looks_like_amount(text: str) -> bool:
+    """True when ``text`` starts like an amount (a number, maybe qualified, then a unit word)."""
+    s = normalise(text)
+    s = _QUALIFIER.sub("", s, count=1)
+    s = _MULT.sub("", s, count=1)
+    m = _BODY.match(s.split(",")[0].split(";")[0].strip())
+    return bool(m and (m.group("unit") or "").strip() in _UNITS)

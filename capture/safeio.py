@@ -1,0 +1,178 @@
+"""Reading untrusted files and writing results safely.
+
+Entries come from many hands and many editors, so every read is bounded and
+every parse is strict: YAML is loaded with a safe loader that turns every plain
+scalar into a string (values are typed by our schema, not by YAML 1.1's guesses
+such as ``NO`` → False or ``1:20`` → 80), aliases are refused (a 300-byte alias
+bomb otherwise expands without limit), duplicate keys are refused in YAML and
+JSON, and ``NaN`` is refused in JSON. Results are written atomically.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import stat
+import tempfile
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+
+class InputError(Exception):
+    """A file masstrail cannot read, with a message naming where the problem is."""
+
+    def __init__(self, message: str, location: str | None = None) -> None:
+        super().__init__(message)
+        self.message = message
+        self.location = location
+
+
+MAX_ENTRY_BYTES = 5 * 1024 * 1024
+
+
+def read_bounded(path: Path, limit: int = MAX_ENTRY_BYTES) -> bytes:
+    """Read a regular file of at most ``limit`` bytes, or raise :class:`InputError`."""
+    try:
+        st = path.lstat()
+    except OSError as exc:
+        raise InputError(f"cannot read the file: {exc.strerror}") from exc
+    if not stat.S_ISREG(st.st_mode):
+        raise InputError("not a regular file")
+    if st.st_size > limit:
+        raise InputError(
+            f"the file is {st.st_size / 1e6:.1f} MB; entries larger than "
+            f"{limit / 1e6:.0f} MB are not read"
+        )
+    with path.open("rb") as fh:
+        data = fh.read(limit + 1)
+    if len(data) > limit:
+        raise InputError(f"the file grew past {limit / 1e6:.0f} MB while it was read")
+    return data
+
+
+def decode_text(data: bytes) -> str:
+    """Decode UTF-8 (a BOM is dropped); refuse binary files with a clear message."""
+    if b"\x00" in data[:8192]:
+        raise InputError("this is a binary file (it contains NUL bytes), not a notebook entry")
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise InputError(
+            f"the file is not UTF-8 text (byte 0x{data[exc.start]:02x} at offset {exc.start}); "
+            "save it as UTF-8",
+            location=f"line {line}",
+        ) from exc
+    return text.replace("\r\n", "\n").replace("\r", "\n")
+
+
+class _StringLoader(yaml.SafeLoader):
+    """Safe YAML loader: plain scalars stay strings, aliases and duplicate keys are refused."""
+
+    def compose_node(self, parent: Any, index: Any) -> Any:
+        if self.check_event(yaml.AliasEvent):
+            event = self.peek_event()
+            raise InputError(
+                "YAML aliases (*name) are not allowed in entries",
+                location=f"line {event.start_mark.line + 1}",
+            )
+        return super().compose_node(parent, index)
+
+    def construct_mapping(self, node: Any, deep: bool = False) -> Any:
+        seen: dict[Any, int] = {}
+        for key_node, _ in node.value:
+            key = self.construct_object(key_node, deep=True)
+            if isinstance(key, (list, dict)):
+                raise InputError(
+                    "a YAML key must be plain text", location=f"line {key_node.start_mark.line + 1}"
+                )
+            if key in seen:
+                raise InputError(
+                    f"key {key!r} appears twice (lines {seen[key]} and "
+                    f"{key_node.start_mark.line + 1})",
+                    location=f"line {key_node.start_mark.line + 1}",
+                )
+            seen[key] = key_node.start_mark.line + 1
+        return super().construct_mapping(node, deep=deep)
+
+
+# No implicit resolvers at all: every plain scalar is a str. Quoted and plain
+# scalars are then treated alike, and our pydantic schema decides the type.
+_StringLoader.yaml_implicit_resolvers = {}
+
+
+def load_yaml(text: str, line_offset: int = 0) -> Any:
+    """Load one YAML document safely; errors name the line (shifted by ``line_offset``)."""
+    try:
+        return yaml.load(text, Loader=_StringLoader)  # noqa: S506 - a SafeLoader subclass
+    except InputError as exc:
+        if exc.location and exc.location.startswith("line ") and line_offset:
+            exc.location = f"line {int(exc.location[5:]) + line_offset}"
+        raise
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f"line {mark.line + 1 + line_offset}" if mark is not None else None
+        problem = getattr(exc, "problem", None) or str(exc)
+        raise InputError(f"invalid YAML: {problem}", location=where) from exc
+
+
+def _no_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for key, value in pairs:
+        if key in out:
+            raise InputError(f"key {key!r} appears twice in one JSON object", location=key)
+        out[key] = value
+    return out
+
+
+def _no_constants(name: str) -> Any:
+    raise InputError(f"{name} is not a number masstrail accepts")
+
+
+def load_json(text: str) -> Any:
+    """Load JSON strictly: no NaN/Infinity, no duplicate keys; errors name the line."""
+    try:
+        return json.loads(text, object_pairs_hook=_no_duplicates, parse_constant=_no_constants)
+    except json.JSONDecodeError as exc:
+        raise InputError(f"invalid JSON: {exc.msg}", location=f"line {exc.lineno}") from exc
+
+
+def atomic_write(path: Path, text: str) -> bool:
+    """Write ``text`` to ``path`` atomically; return False when the file already holds it.
+
+    A temp file in the same folder is written, flushed and fsynced, then moved
+    over the target with ``os.replace``, so a crash leaves the old or the new
+    file, never a partial one.
+    """
+    data = text.encode("utf-8")
+    try:
+        if path.read_bytes() == data:
+            return False
+    except OSError:
+        pass
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+    try:
+        dir_fd = os.open(path.parent, os.O_RDONLY)
+    except OSError:
+        return True
+    try:
+        os.fsync(dir_fd)
+    except OSError:
+        pass
+    finally:
+        os.close(dir_fd)
+    return True

@@ -1,0 +1,164 @@
+"""Material knowledge: what a name stands for.
+
+Three resolvers answer ``masstrail_resolve_material``, first answer wins:
+
+1. ``lab`` (tryfirst): the lab's own ``[[materials]]`` and ``[densities]`` in
+   ``masstrail.toml``;
+2. ``builtin``: the data file ``data/materials.toml`` (over 100 common lab
+   materials, every number with its source);
+3. ``chemicals`` (trylast): the offline name database of the ``chemicals``
+   library, when it is installed (formula and molar mass only, no density).
+
+A name none of them knows resolves to nothing, and the gap rules say so.
+"""
+
+from __future__ import annotations
+
+import functools
+import tomllib
+from pathlib import Path
+from typing import Any
+
+from capture.chem import material_key, molar_mass
+from capture.config import LabConfig
+from capture.hookspecs import hookimpl
+from capture.models import MaterialInfo
+
+DATA_FILE = Path(__file__).with_name("data") / "materials.toml"
+BUILTIN_SOURCE = "masstrail material data (plugins/data/materials.toml)"
+
+class MaterialData:
+    """The built-in material table, indexed by every name and synonym."""
+
+    def __init__(self, raw: dict[str, Any]) -> None:
+        self.sources: dict[str, str] = raw.get("sources", {})
+        self.records: list[dict[str, Any]] = raw.get("material", [])
+        self.index: dict[str, dict[str, Any]] = {}
+        for rec in self.records:
+            for name in [rec["name"], *rec.get("synonyms", [])]:
+                key = material_key(name)
+                other = self.index.get(key)
+                if other is not None and other is not rec:
+                    raise ValueError(
+                        f"{DATA_FILE}: the name {name!r} is given to both "
+                        f"{other['name']!r} and {rec['name']!r}"
+                    )
+                self.index[key] = rec
+
+    def source(self, key: str | None) -> str | None:
+        if key is None:
+            return None
+        return self.sources.get(key, key)
+
+    def info(self, rec: dict[str, Any]) -> MaterialInfo:
+        formula = rec.get("formula")
+        return MaterialInfo(
+            name=rec["name"],
+            formula=formula,
+            molar_mass=round(molar_mass(formula), 4) if formula else None,
+            density_g_ml=rec.get("density"),
+            density_temp_c=rec.get("density_temp_c"),
+            density_source=self.source(rec.get("density_source")),
+            category=rec.get("category", "reagent"),
+            halogenated=bool(rec.get("halogenated", False)),
+            water_fraction=rec.get("water_fraction"),
+            source=BUILTIN_SOURCE,
+        )
+
+
+@functools.lru_cache(maxsize=1)
+def builtin_data() -> MaterialData:
+    """The built-in material table, loaded once per process."""
+    return MaterialData(tomllib.loads(DATA_FILE.read_text(encoding="utf-8")))
+
+
+def _density_override(name: str, config: LabConfig) -> float | None:
+    key = material_key(name)
+    for k, v in config.densities.items():
+        if material_key(k) == key:
+            return v
+    return None
+
+
+def _apply_override(info: MaterialInfo, asked: str, config: LabConfig) -> MaterialInfo:
+    """A density from [densities] in masstrail.toml wins, under any of the material's names."""
+    if not config.densities:
+        return info
+    value = _density_override(asked, config) or _density_override(info.name, config)
+    if value is None:
+        return info
+    return info.model_copy(
+        update={
+            "density_g_ml": value,
+            "density_temp_c": None,
+            "density_source": f"lab override in {config.source or 'masstrail.toml'}",
+        }
+    )
+
+
+@hookimpl(tryfirst=True, specname="masstrail_resolve_material")
+def resolve_from_lab(name: str, config: LabConfig) -> MaterialInfo | None:
+    """The lab's own materials from masstrail.toml."""
+    key = material_key(name)
+    for extra in config.materials:
+        if key in {material_key(n) for n in [extra.name, *extra.synonyms]}:
+            info = MaterialInfo(
+                name=extra.name,
+                formula=extra.formula,
+                molar_mass=round(molar_mass(extra.formula), 4) if extra.formula else None,
+                density_g_ml=extra.density_g_ml,
+                density_temp_c=extra.density_temp_c,
+                density_source=extra.source if extra.density_g_ml else None,
+                category=extra.category,
+                halogenated=extra.halogenated,
+                water_fraction=extra.water_fraction,
+                source=f"lab material in {config.source or 'masstrail.toml'}: {extra.source}",
+            )
+            return _apply_override(info, name, config)
+    return None
+
+
+@hookimpl(specname="masstrail_resolve_material")
+def resolve_builtin(name: str, config: LabConfig) -> MaterialInfo | None:
+    """The built-in material table."""
+    data = builtin_data()
+    rec = data.index.get(material_key(name))
+    if rec is None:
+        return None
+    return _apply_override(data.info(rec), name, config)
+
+
+@functools.lru_cache(maxsize=1024)
+def _chemicals_lookup(name: str) -> tuple[str, str, float] | None:
+    try:
+        from chemicals.identifiers import search_chemical
+    except ImportError:
+        return None
+    try:
+        found = search_chemical(name)
+    except Exception:  # the library raises plain Exceptions for unknown names
+        return None
+    if not found or not found.formula:
+        return None
+    return (found.common_name or name, found.formula, float(found.MW))
+
+
+@hookimpl(trylast=True, specname="masstrail_resolve_material")
+def resolve_with_chemicals(name: str, config: LabConfig) -> MaterialInfo | None:
+    """The `chemicals` library's offline name database, if installed."""
+    hit = _chemicals_lookup(name.strip())
+    if hit is None:
+        return None
+    common, formula, _mw = hit
+    try:
+        mm = molar_mass(formula)
+    except Exception:
+        return None
+    info = MaterialInfo(
+        name=common,
+        formula=formula,
+        molar_mass=round(mm, 4),
+        category="reagent",
+        source="chemicals library, offline name database (formula only; no density)",
+    )
+    return _apply_override(info, name, config)

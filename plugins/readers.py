@@ -1,0 +1,216 @@
+"""Readers: Markdown with YAML front matter, YAML, JSON and Jupyter notebooks.
+
+Each reader answers ``masstrail_read_entry`` for its own file endings and
+returns None for the rest. All of them share the same front-matter keys (see
+the README's "Entry format"), and all of them read Markdown pipe tables in the
+procedure text as structured materials.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+from typing import Any
+
+from pydantic import ValidationError
+
+from capture.hookspecs import hookimpl
+from capture.models import Entry, StructuredMaterial
+from capture.safeio import InputError, decode_text, load_json, load_yaml
+
+KNOWN_KEYS = {
+    "id",
+    "title",
+    "author",
+    "group",
+    "project",
+    "date",
+    "product",
+    "equation",
+    "balance_log",
+    "materials",
+    "recovered",
+}
+
+_NAME_HEADERS = {"material", "materials", "reagent", "reagents", "chemical", "chemicals",
+                 "compound", "compounds", "name", "substance"}  # fmt: skip
+_AMOUNT_HEADERS = {"amount", "quantity", "qty", "mass", "volume", "amount used", "weight"}
+_ROLE_HEADERS = {"role", "function", "use"}
+_ROW = re.compile(r"^\s*\|(.*)\|\s*$")
+_RULE = re.compile(r"^\s*\|?\s*:?-{2,}:?\s*(\|\s*:?-{2,}:?\s*)*\|?\s*$")
+
+
+def _cells(line: str) -> list[str]:
+    m = _ROW.match(line)
+    return [c.strip() for c in m.group(1).split("|")] if m else []
+
+
+def read_tables(body: str) -> list[StructuredMaterial]:
+    """Materials from every pipe table whose header has a name and an amount column."""
+    lines = body.split("\n")
+    found: list[StructuredMaterial] = []
+    i = 0
+    while i < len(lines) - 1:
+        header = _cells(lines[i])
+        if not header or not _RULE.match(lines[i + 1]):
+            i += 1
+            continue
+        low = [h.casefold() for h in header]
+        name_col = next((k for k, h in enumerate(low) if h in _NAME_HEADERS), None)
+        amount_cols = [k for k, h in enumerate(low) if h in _AMOUNT_HEADERS]
+        role_col = next((k for k, h in enumerate(low) if h in _ROLE_HEADERS), None)
+        i += 2
+        while i < len(lines) and _ROW.match(lines[i]):
+            row = _cells(lines[i])
+            i += 1
+            if name_col is None or not amount_cols or name_col >= len(row):
+                continue
+            name = row[name_col].strip("*_ ")
+            if not name:
+                continue
+            amounts = [row[k] for k in amount_cols if k < len(row) and row[k] not in {"", "-", "–"}]
+            role = row[role_col] if role_col is not None and role_col < len(row) else None
+            found.append(
+                StructuredMaterial(
+                    name=name,
+                    amount=", ".join(amounts) or None,
+                    role=role or None,
+                    line=i,  # 1-based line in the body
+                )
+            )
+    return found
+
+
+def _split_front_matter(text: str) -> tuple[str, str, int]:
+    """(front matter, body, lines before the front matter's first line) of a Markdown text."""
+    lines = text.split("\n")
+    first = 0
+    while first < len(lines) and not lines[first].strip():
+        first += 1
+    if first >= len(lines) or lines[first].strip() != "---":
+        raise InputError(
+            "no front matter: an entry starts with a YAML block between two '---' lines",
+            location="line 1",
+        )
+    for end in range(first + 1, len(lines)):
+        if lines[end].strip() in {"---", "..."}:
+            return "\n".join(lines[first + 1 : end]), "\n".join(lines[end + 1 :]), first + 1
+    raise InputError("the front matter is not closed: add a line '---' after it",
+                     location=f"line {first + 1}")  # fmt: skip
+
+
+def build_entry(
+    meta: Any, body: str, *, data: bytes, relpath: str, fmt: str, where: str = ""
+) -> Entry:
+    """Type the front-matter mapping with masstrail's schema; keep unknown keys."""
+    import hashlib
+
+    if meta is None:
+        meta = {}
+    if not isinstance(meta, dict):
+        raise InputError(f"the {where or 'front matter'} must be a mapping of keys to values")
+    known = {k: v for k, v in meta.items() if k in KNOWN_KEYS}
+    extra = {str(k): v for k, v in meta.items() if k not in KNOWN_KEYS and k != "procedure"}
+    known.setdefault("id", Path(relpath).name.split(".")[0])
+    if isinstance(known.get("id"), str) and not known["id"].strip():
+        known["id"] = Path(relpath).name.split(".")[0]
+    try:
+        return Entry(
+            **known,
+            path=relpath,
+            sha256=hashlib.sha256(data).hexdigest(),
+            format=fmt,
+            body=body,
+            table_materials=read_tables(body),
+            extra=extra,
+        )
+    except ValidationError as exc:
+        err = exc.errors()[0]
+        key = ".".join(str(p) for p in err["loc"])
+        raise InputError(f"key '{key}': {err['msg']}", location=f"key {key}") from None
+
+
+@hookimpl(trylast=True, specname="masstrail_entry_suffixes")
+def builtin_suffixes() -> list[str]:
+    """The entry formats read by the built-in readers."""
+    return [".md", ".markdown", ".yaml", ".yml", ".json", ".ipynb"]
+
+
+@hookimpl(specname="masstrail_read_entry")
+def read_markdown(path: Path, data: bytes, relpath: str) -> Entry | None:
+    """Markdown with a YAML front-matter block."""
+    if path.suffix.lower() not in {".md", ".markdown"}:
+        return None
+    text = decode_text(data)
+    front, body, offset = _split_front_matter(text)
+    meta = load_yaml(front, line_offset=offset)
+    return build_entry(meta, body, data=data, relpath=relpath, fmt="markdown")
+
+
+def _procedure(meta: Any) -> str:
+    if not isinstance(meta, dict):
+        return ""
+    proc = meta.get("procedure")
+    if proc is None:
+        return ""
+    if isinstance(proc, list):
+        return "\n\n".join(str(p) for p in proc)
+    return str(proc)
+
+
+@hookimpl(specname="masstrail_read_entry")
+def read_yaml(path: Path, data: bytes, relpath: str) -> Entry | None:
+    """A YAML entry: the front-matter keys at the top level, the text under ``procedure``."""
+    if path.suffix.lower() not in {".yaml", ".yml"}:
+        return None
+    meta = load_yaml(decode_text(data))
+    return build_entry(
+        meta, _procedure(meta), data=data, relpath=relpath, fmt="yaml", where="YAML document"
+    )
+
+
+def _typed_as_text(value: Any) -> Any:
+    """JSON scalars to text, so that JSON and YAML entries are typed by the same schema."""
+    if isinstance(value, dict):
+        return {k: _typed_as_text(v) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_typed_as_text(v) for v in value]
+    if isinstance(value, bool) or value is None:
+        return value
+    return str(value) if isinstance(value, (int, float)) else value
+
+
+@hookimpl(specname="masstrail_read_entry")
+def read_json(path: Path, data: bytes, relpath: str) -> Entry | None:
+    """A JSON entry, laid out like a YAML one."""
+    if path.suffix.lower() != ".json":
+        return None
+    meta = _typed_as_text(load_json(decode_text(data)))
+    return build_entry(
+        meta, _procedure(meta), data=data, relpath=relpath, fmt="json", where="JSON document"
+    )
+
+
+@hookimpl(specname="masstrail_read_entry")
+def read_notebook(path: Path, data: bytes, relpath: str) -> Entry | None:
+    """A Jupyter notebook: front matter in the first Markdown cell, text from all Markdown cells."""
+    if path.suffix.lower() != ".ipynb":
+        return None
+    nb = load_json(decode_text(data))
+    cells = nb.get("cells") if isinstance(nb, dict) else None
+    if not isinstance(cells, list):
+        raise InputError("not a Jupyter notebook: it has no list of cells", location="key cells")
+    texts = []
+    for cell in cells:
+        if isinstance(cell, dict) and cell.get("cell_type") == "markdown":
+            src = cell.get("source", "")
+            texts.append("".join(src) if isinstance(src, list) else str(src))
+    if not texts:
+        raise InputError("the notebook has no Markdown cell with front matter")
+    try:
+        front, first_body, _ = _split_front_matter(texts[0])
+    except InputError as exc:
+        raise InputError(f"first Markdown cell: {exc.message}") from None
+    meta = load_yaml(front)
+    body = "\n\n".join([first_body, *texts[1:]])
+    return build_entry(meta, body, data=data, relpath=relpath, fmt="ipynb")

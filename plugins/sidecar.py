@@ -1,0 +1,50 @@
+"""Results next to each entry: ``NAME.waste.json`` and, if the lab wants it, ``NAME.waste.md``.
+
+Both are written atomically (temp file in the same folder, fsync, ``os.replace``)
+and only when their content changes, so an unchanged notebook stays unchanged
+on disk. The entry file itself is never opened for writing.
+"""
+
+from __future__ import annotations
+
+import functools
+from pathlib import Path
+
+from capture.config import LabConfig
+from capture.hookspecs import hookimpl
+from capture.models import Result
+from capture.paths import card_path, sidecar_path
+from capture.safeio import atomic_write
+
+
+@functools.lru_cache(maxsize=1)
+def _card_template():
+    import jinja2
+
+    env = jinja2.Environment(
+        loader=jinja2.PackageLoader("capture", "templates"),
+        autoescape=False,  # Markdown, not HTML
+        keep_trailing_newline=True,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
+    return env.get_template("card.md.j2")
+
+
+def render_card(result: Result) -> str:
+    """The human-readable card for one result, in Markdown."""
+    return _card_template().render(r=result)
+
+
+@hookimpl(specname="masstrail_write_result")
+def write_sidecar(result: Result, entry_path: Path, config: LabConfig) -> list[Path]:
+    """Write ``NAME.waste.json`` (always) and ``NAME.waste.md`` (with ``[output] card = true``)."""
+    written = []
+    target = sidecar_path(entry_path)
+    if atomic_write(target, result.sidecar_json()):
+        written.append(target)
+    if config.output.card:
+        card = card_path(entry_path)
+        if atomic_write(card, render_card(result)):
+            written.append(card)
+    return written
