@@ -39,7 +39,11 @@ def _open_notebook(path: Path):
 
 
 def _num(x: float | None, spec: str = ".3g") -> str:
-    return "—" if x is None else format(x, spec)
+    if x is None:
+        return "—"
+    if abs(x) >= 1000:
+        return f"{x:,.0f}"  # 16,043 g, not 1.6e+04 g
+    return format(x, spec)
 
 
 def _e(text: str) -> str:
@@ -191,7 +195,7 @@ def show(entry: Path, as_json: bool) -> None:
         t.add_column(col, overflow="fold", justify="right" if col == "mass g" else "left")
     for m in r.materials:
         t.add_row(
-            _e(m.name) + (f" [dim]= {_e(m.resolved)}[/dim]" if m.resolved and m.resolved != m.name else ""),
+            _e(m.name) + (f" [dim]= {_e(m.resolved)}[/dim]" if m.resolved and m.resolved.casefold() != m.name.casefold() else ""),
             m.stage or "—",
             _e(m.stated or "—"),
             _num(m.mass_g, ".4g"),
@@ -215,8 +219,8 @@ def show(entry: Path, as_json: bool) -> None:
     )
     if r.totals:
         console.print(
-            f"Inputs {r.totals.inputs_g:.4g} g (water {r.totals.water_g:.4g} g), "
-            f"recovered {r.totals.recovered_g:.4g} g, waste {_num(r.totals.waste_g, '.4g')} g"
+            f"Inputs {_num(r.totals.inputs_g, '.4g')} g (water {_num(r.totals.water_g, '.4g')} g), "
+            f"recovered {_num(r.totals.recovered_g, '.4g')} g, waste {_num(r.totals.waste_g, '.4g')} g"
         )
     if r.breakdown and r.breakdown.largest:
         console.print(f"Largest input: {_e(r.breakdown.largest)}")

@@ -13,7 +13,7 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator
+from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
 RESULT_FORMAT = "masstrail-result/1"
 
@@ -81,6 +81,18 @@ class StructuredMaterial(BaseModel):
         if value is None or (isinstance(value, str) and not value.strip()):
             raise ValueError("a material needs a name")
         return str(value) if isinstance(value, (int, float)) else value
+
+    @model_validator(mode="after")
+    def _no_split_names(self) -> StructuredMaterial:
+        # YAML flow mappings split at commas: {name: 3,4-difluoro…} gives name '3' and an
+        # empty key '4-difluoro…'. Say so rather than weigh the wrong material.
+        for key, value in (self.model_extra or {}).items():
+            if value is None or value == "":
+                raise ValueError(
+                    f"unexpected empty key {key!r} next to name {self.name!r}; a name that "
+                    f"contains commas must be quoted, e.g. name: \"{self.name},{key}\""
+                )
+        return self
 
     @field_validator("amount", mode="before")
     @classmethod

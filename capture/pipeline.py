@@ -52,7 +52,8 @@ ROLE_STAGE = {
     "workup": {"workup", "work-up", "quench", "extraction", "extraction solvent", "wash",
                "drying", "drying agent", "filtration", "filter aid", "filter medium"},
     "purification": {"purification", "chromatography", "eluent", "stationary phase",
-                     "recrystallisation", "recrystallization", "trituration", "distillation"},
+                     "recrystallisation", "recrystallization", "trituration", "distillation",
+                     "crystallisation", "crystallization", "antisolvent", "anti-solvent"},
 }  # fmt: skip
 CATEGORY_STAGE = {
     "drying agent": "workup",
@@ -216,8 +217,14 @@ class Notebook:
         infos: dict[int, MaterialInfo | None] = {}
         for line in structured + text_lines:
             info = self.resolve(line.name)
-            if info is None and formulas.get(id(line)):
-                info = _from_formula(line.name, str(formulas[id(line)]), molar_mass)
+            if formulas.get(id(line)):
+                # the entry's own formula wins over any name lookup for the molar mass
+                own = _from_formula(line.name, str(formulas[id(line)]), molar_mass)
+                if own is not None and info is not None:
+                    own = info.model_copy(
+                        update={"formula": own.formula, "molar_mass": own.molar_mass}
+                    )
+                info = own or info
             infos[id(line)] = info
             if info is not None:
                 line.resolved, line.category = info.name, info.category

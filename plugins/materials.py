@@ -72,10 +72,14 @@ def builtin_data() -> MaterialData:
     return MaterialData(tomllib.loads(DATA_FILE.read_text(encoding="utf-8")))
 
 
-def _density_override(name: str, config: LabConfig) -> float | None:
-    key = material_key(name)
+def _density_override(info: MaterialInfo, asked: str, config: LabConfig) -> float | None:
+    """The lab's density for this material, whichever of its names the lab used."""
+    names = {material_key(asked), material_key(info.name)}
+    index = builtin_data().index
     for k, v in config.densities.items():
-        if material_key(k) == key:
+        key = material_key(k)
+        rec = index.get(key)
+        if key in names or (rec is not None and rec["name"] == info.name):
             return v
     return None
 
@@ -84,14 +88,14 @@ def _apply_override(info: MaterialInfo, asked: str, config: LabConfig) -> Materi
     """A density from [densities] in masstrail.toml wins, under any of the material's names."""
     if not config.densities:
         return info
-    value = _density_override(asked, config) or _density_override(info.name, config)
+    value = _density_override(info, asked, config)
     if value is None:
         return info
     return info.model_copy(
         update={
             "density_g_ml": value,
             "density_temp_c": None,
-            "density_source": f"lab override in {config.source or 'masstrail.toml'}",
+            "density_source": "lab override in masstrail.toml",
         }
     )
 
@@ -112,7 +116,7 @@ def resolve_from_lab(name: str, config: LabConfig) -> MaterialInfo | None:
                 category=extra.category,
                 halogenated=extra.halogenated,
                 water_fraction=extra.water_fraction,
-                source=f"lab material in {config.source or 'masstrail.toml'}: {extra.source}",
+                source=f"lab material in masstrail.toml: {extra.source}",
             )
             return _apply_override(info, name, config)
     return None
@@ -146,6 +150,8 @@ def _chemicals_lookup(name: str) -> tuple[str, str, float] | None:
 @hookimpl(trylast=True, specname="masstrail_resolve_material")
 def resolve_with_chemicals(name: str, config: LabConfig) -> MaterialInfo | None:
     """The `chemicals` library's offline name database, if installed."""
+    if sum(c.isalpha() for c in name) < 3:
+        return None  # "3" is lithium to a name database; a real name has letters
     hit = _chemicals_lookup(name.strip())
     if hit is None:
         return None

@@ -1,0 +1,115 @@
+"""Bounded, strict reading and atomic writing (traps listed in shared RELIABILITY.md)."""
+
+from __future__ import annotations
+
+import os
+
+import pytest
+
+from capture import safeio
+from capture.safeio import InputError, atomic_write, decode_text, load_json, load_yaml, read_bounded
+
+# YAML 1.1 implicit typing would turn these into booleans, sexagesimal integers, octal, floats.
+YAML_SCALARS = [
+    ("NO", "NO"),
+    ("on", "on"),
+    ("yes", "yes"),
+    ("1:20", "1:20"),
+    ("0755", "0755"),
+    ("1e3", "1e3"),
+    ("3.50", "3.50"),
+    ("2026-11-03", "2026-11-03"),
+    ("~", "~"),
+    ("null", "null"),
+    ("'quoted'", "quoted"),
+]
+
+
+@pytest.mark.parametrize(("raw", "expected"), YAML_SCALARS, ids=[s[0] for s in YAML_SCALARS])
+def test_yaml_scalars_stay_text(raw, expected):
+    assert load_yaml(f"key: {raw}") == {"key": expected}
+
+
+def test_yaml_alias_bomb_is_refused():
+    bomb = 'a: &a ["x","x"]\nb: &b [*a,*a]\nc: &c [*b,*b]\nd: [*c,*c]\n'
+    with pytest.raises(InputError, match="aliases") as err:
+        load_yaml(bomb, line_offset=1)
+    assert err.value.location == "line 3"
+
+
+def test_yaml_duplicate_key_names_both_lines():
+    with pytest.raises(InputError, match=r"'title' appears twice \(lines 1 and 3\)"):
+        load_yaml("title: a\nauthor: b\ntitle: c\n")
+
+
+def test_yaml_syntax_error_names_the_line():
+    with pytest.raises(InputError, match="invalid YAML") as err:
+        load_yaml("a: 1\nb: [unclosed\nc: 2\n", line_offset=1)
+    assert err.value.location.startswith("line ")
+
+
+def test_yaml_tags_are_refused():
+    with pytest.raises(InputError):
+        load_yaml("a: !!python/object/apply:os.system ['echo hi']")
+
+
+def test_json_nan_and_duplicates_refused():
+    with pytest.raises(InputError, match="NaN"):
+        load_json('{"a": NaN}')
+    with pytest.raises(InputError, match="twice"):
+        load_json('{"a": 1, "a": 2}')
+    with pytest.raises(InputError, match="invalid JSON") as err:
+        load_json('{\n"a": 1,\n}')
+    assert err.value.location == "line 3"
+
+
+def test_binary_and_non_utf8_refused():
+    with pytest.raises(InputError, match="binary"):
+        decode_text(b"\x89PNG\r\n\x1a\n\x00\x00")
+    with pytest.raises(InputError, match="not UTF-8") as err:
+        decode_text(b"---\ntitle: caf\xe9\n---\n")
+    assert err.value.location == "line 2"
+
+
+def test_bom_and_crlf_are_absorbed():
+    assert decode_text("\ufeff---\r\na: 1\r\n".encode()) == "---\na: 1\n"
+
+
+def test_size_cap(tmp_path):
+    big = tmp_path / "big.md"
+    big.write_bytes(b"x" * 2048)
+    with pytest.raises(InputError, match="larger than"):
+        read_bounded(big, limit=1024)
+    assert read_bounded(big, limit=4096) == b"x" * 2048
+
+
+def test_fifo_is_not_opened(tmp_path):
+    fifo = tmp_path / "pipe.md"
+    os.mkfifo(fifo)
+    with pytest.raises(InputError, match="not a regular file"):
+        read_bounded(fifo)
+
+
+def test_atomic_write_skips_identical_content(tmp_path):
+    target = tmp_path / "a.waste.json"
+    assert atomic_write(target, "one\n") is True
+    before = target.stat().st_mtime_ns
+    assert atomic_write(target, "one\n") is False
+    assert target.stat().st_mtime_ns == before
+    assert atomic_write(target, "two\n") is True
+    assert target.read_text() == "two\n"
+
+
+def test_atomic_write_failure_leaves_old_file_and_no_temp(tmp_path, monkeypatch):
+    """Fault injection: os.replace fails; the old content stays and no temp file is left."""
+    target = tmp_path / "a.waste.json"
+    target.write_text("old\n")
+
+    def broken_replace(src, dst):
+        raise OSError("injected failure")
+
+    monkeypatch.setattr(safeio.os, "replace", broken_replace)
+    with pytest.raises(OSError, match="injected"):
+        atomic_write(target, "new\n")
+    assert target.read_text() == "old\n"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.waste.json"]
