@@ -42,13 +42,13 @@ def read_bounded(path: Path, limit: int = MAX_ENTRY_BYTES) -> bytes:
         raise InputError("not a regular file")
     if st.st_size > limit:
         raise InputError(
-            f"the file is {st.st_size / 1e6:.1f} MB; entries larger than "
-            f"{limit / 1e6:.0f} MB are not read"
+            f"the file is {st.st_size / 2**20:.1f} MB; entries larger than "
+            f"{limit / 2**20:.0f} MB are not read"
         )
     with path.open("rb") as fh:
         data = fh.read(limit + 1)
     if len(data) > limit:
-        raise InputError(f"the file grew past {limit / 1e6:.0f} MB while it was read")
+        raise InputError(f"the file grew past {limit / 2**20:.0f} MB while it was read")
     return data
 
 

@@ -47,8 +47,3 @@ def notebook(tmp_path: Path) -> NotebookDir:
     root = tmp_path / "notebook"
     root.mkdir()
     return NotebookDir(root)
-
-
-def entry_md(front: str, body: str = "") -> str:
-    """A Markdown entry from a front-matter block and a body."""
-    return f"---\n{textwrap.dedent(front).strip()}\n---\n{textwrap.dedent(body)}"

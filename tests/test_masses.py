@@ -1,0 +1,64 @@
+"""Amounts to masses: each with its basis."""
+
+from __future__ import annotations
+
+import pytest
+
+from capture.config import LabConfig
+from capture.models import MassContext, MaterialLine
+from capture.quantities import parse_amounts
+from masstrail_plugins.masses import weigh_line
+from masstrail_plugins.materials import resolve_builtin
+
+CFG = LabConfig()
+
+
+def _weigh(name: str, amount: str, ctx: MassContext | None = None):
+    line = MaterialLine(name=name, stated=amount, amounts=parse_amounts(amount), origin="text")
+    return weigh_line(line, resolve_builtin(name, CFG), ctx or MassContext(), CFG)
+
+
+def test_stated_mass_wins_and_keeps_the_text():
+    got = _weigh("MgSO4", "3.0 g")
+    assert got.mass_g == 3.0 and got.basis == "3.0 g as recorded"
+    # moles from the IUPAC molar mass of MgSO4, 120.37 g/mol (CRC Handbook)
+    assert got.moles_mmol == pytest.approx(3.0 / 120.366 * 1000, rel=1e-4)
+
+
+def test_volume_times_density_names_the_constant_and_its_source():
+    got = _weigh("DMF", "25 mL")
+    # 25 mL × 0.9487 g/mL (DMF, 20 °C, CRC Handbook value quoted in FIELD.md)
+    assert got.mass_g == pytest.approx(23.7175)
+    assert got.basis.startswith("25 mL × 0.9487 g/mL (N,N-dimethylformamide, 20 °C; CRC Handbook")
+
+
+def test_multiplier_and_range_are_in_the_basis():
+    got = _weigh("MTBE", "3 × 40 mL")
+    assert got.mass_g == pytest.approx(120 * 0.7405)
+    assert got.basis.startswith("3 × 40 mL × 0.7405")
+    got = _weigh("water", "10–15 mL")
+    assert got.mass_g == pytest.approx(12.5 * 0.9982)
+    assert "midpoint of 10–15 mL" in got.basis
+
+
+def test_moles_times_molar_mass():
+    got = _weigh("Et3N", "20 mmol")
+    # triethylamine C6H15N, 101.19 g/mol (IUPAC weights)
+    assert got.mass_g == pytest.approx(20 * 101.193 / 1000, rel=1e-4)
+    assert "IUPAC standard atomic weights" in got.basis
+
+
+def test_equivalents_need_the_limiting_reagent():
+    got = _weigh("Boc2O", "1.05 equiv")
+    assert got.mass_g is None and got.problem_kind == "no_limiting_reagent"
+    got = _weigh("Boc2O", "1.05 equiv", MassContext(limiting_name="amine", limiting_mmol=30.0))
+    # di-tert-butyl dicarbonate C10H18O5, 218.25 g/mol
+    assert got.mass_g == pytest.approx(1.05 * 30 * 218.249 / 1000, rel=1e-4)
+    assert "(amine, limiting)" in got.basis
+
+
+def test_volume_without_density_or_material_is_a_problem_not_a_guess():
+    assert _weigh("MgSO4", "20 mL").problem_kind == "no_density"
+    got = _weigh("Kestrel wash blend", "25 mL")
+    assert got.mass_g is None and got.problem_kind == "unknown_material"
+    assert "masstrail.toml" in got.problem

@@ -1,0 +1,106 @@
+"""Metric definitions, checked against the published definitions (see FIELD.md)."""
+
+from __future__ import annotations
+
+import pytest
+
+from capture.config import LabConfig
+from capture.models import Gap, MaterialLine, ProductOut
+from masstrail_plugins.metrics import mass_metrics, sector_context
+
+
+def _line(name, mass, category="reagent", stage="reaction", water=None):
+    return MaterialLine(name=name, mass_g=mass, category=category, stage=stage, origin="front-matter",
+                        water_g=water)  # fmt: skip
+
+
+def _run(lines, product, recovered=(), gaps=(), config=None):
+    return mass_metrics(
+        materials=list(lines),
+        product=ProductOut(name="p", mass_g=product),
+        recovered=list(recovered),
+        gaps=list(gaps),
+        config=config or LabConfig(),
+    )
+
+
+def test_e_factor_2_means_twice_as_much_waste_as_product():
+    # definition (Sheldon 1992; common practice): E = m(waste) / m(product)
+    r = _run([_line("A", 2.0), _line("B", 1.0)], product=1.0)
+    assert r.metrics["e_factor"] == 2.0
+    assert r.totals.waste_g == 2.0
+
+
+def test_e_factor_0_1_means_ten_times_more_product_than_waste():
+    r = _run([_line("A", 11.0)], product=10.0)
+    assert r.metrics["e_factor"] == pytest.approx(0.1)
+
+
+def test_pmi_is_e_plus_one_for_the_complete_e_factor():
+    # Jiménez-González et al. 2011: PMI = Σ inputs / product; cEF = PMI − 1 (Roschangar 2015)
+    lines = [_line("A", 1.9), _line("DCM", 53.06, "solvent"), _line("brine", 23.96, "aqueous", "workup", 17.6)]
+    r = _run(lines, product=2.41)
+    assert r.metrics["pmi"] == pytest.approx(r.metrics["e_factor"] + 1, abs=1e-3)
+
+
+def test_simple_e_factor_leaves_out_solvents_water_and_workup():
+    lines = [
+        _line("A", 1.0),
+        _line("B", 0.5),
+        _line("toluene", 20.0, "solvent"),
+        _line("water", 10.0, "water", "workup", 10.0),
+        _line("MgSO4", 2.0, "drying agent", "workup"),
+    ]
+    r = _run(lines, product=1.0)
+    assert r.metrics["e_factor_simple"] == pytest.approx(0.5)
+    assert r.metrics["e_factor"] == pytest.approx(32.5)
+
+
+def test_water_can_be_left_out_of_the_headline():
+    lines = [_line("A", 2.0), _line("brine", 12.0, "aqueous", "workup", water=8.0)]
+    cfg = LabConfig.model_validate({"e_factor": {"include_water": False}})
+    r = _run(lines, product=1.0, config=cfg)
+    assert r.metrics["e_factor"] == pytest.approx(13.0 - 8.0)
+    assert r.metrics["pmi"] == pytest.approx(14.0)  # PMI counts everything
+
+
+def test_recovered_solvent_is_credited():
+    r = _run([_line("A", 2.0), _line("MTBE", 66.6, "solvent")], product=2.5, recovered=[_line("MTBE", 44.4, "solvent")])
+    assert r.metrics["e_factor"] == pytest.approx((68.6 - 2.5 - 44.4) / 2.5)
+    assert r.totals.recovered_g == pytest.approx(44.4)
+
+
+def test_allowances_only_raise_the_estimate():
+    gap = Gap(kind="x", item="filter paper", severity="minor", message="m", allowance_g=0.56)
+    r = _run([_line("A", 3.0)], product=1.0, gaps=[gap])
+    assert r.metrics["e_factor"] == 2.0 and r.metrics["e_factor_estimated"] == pytest.approx(2.56)
+
+
+def test_no_product_mass_no_figures():
+    r = _run([_line("A", 3.0)], product=None)
+    assert all(v is None for v in r.metrics.values())
+    assert r.totals.inputs_g == 3.0 and r.totals.waste_g is None
+
+
+def test_breakdown_names_the_largest_contributor():
+    r = _run([_line("A", 1.0), _line("DCM", 53.06, "solvent")], product=0.5)
+    assert r.breakdown.by_category == {"reagent": 1.0, "solvent": 53.06}
+    assert r.breakdown.largest.startswith("DCM, 53.06 g (98% of inputs)")
+
+
+@pytest.mark.parametrize(
+    ("e", "bands"),
+    [
+        # Sheldon, Green Chem. 2007, 9, 1273: oil refining ca. 0.1, bulk < 1–5,
+        # fine chemicals 5 to > 50, pharmaceuticals 25 to > 100
+        (0.1, ["oil refining", "bulk chemicals"]),
+        (3.0, ["bulk chemicals"]),
+        (12.0, ["fine chemicals"]),
+        (30.0, ["fine chemicals", "pharmaceuticals"]),
+        (150.0, ["pharmaceuticals"]),
+    ],
+)
+def test_sector_bands(e, bands):
+    text = sector_context(e)
+    for name in ["oil refining", "bulk chemicals", "fine chemicals", "pharmaceuticals"]:
+        assert (name in text) == (name in bands), name

@@ -1,0 +1,207 @@
+"""End to end: a notebook folder becomes sidecars, and bad input loses nothing else."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import shutil
+
+import pytest
+from conftest import EXAMPLES, NotebookDir
+from helpers import entry_md
+
+from capture.config import ConfigError
+from capture.pipeline import Notebook, scan
+
+GOOD = entry_md("""
+    title: good
+    product: {name: amide, mass: 1.00 g}
+    materials:
+      - {name: A, amount: 2.00 g, role: reactant}
+      - {name: toluene, amount: 10 mL, role: solvent}
+    """)
+
+
+@pytest.fixture
+def examples(tmp_path) -> NotebookDir:
+    root = tmp_path / "examples"
+    shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.json", "*.waste.md"))
+    return NotebookDir(root)
+
+
+def _by_id(report):
+    return {r.entry.id: r for r in report.results}
+
+
+def test_example_notebook_end_to_end(examples):
+    hashes = {p: hashlib.sha256(p.read_bytes()).hexdigest() for p in examples.root.rglob("*") if p.is_file()}
+    report = examples.scan()
+    r = _by_id(report)
+    assert len(report.results) == 8 and not report.errors
+
+    # FW-0412: every input weighed by hand from the densities in the data file:
+    # 1.90 + 1.18 + 2.30 + 1.62 + 40 mL DCM × 1.3266 + 40 mL 1 M HCl × 1.016
+    # + 20 mL sat. NaHCO3 × 1.06 + 20 mL brine × 1.198 + 3.0 = 148.864 g
+    fw = r["FW-0412"]
+    assert fw.totals.inputs_g == pytest.approx(148.864, abs=1e-3)
+    assert fw.metrics.e_factor == pytest.approx((148.864 - 2.41) / 2.41, abs=1e-3)
+    assert fw.metrics.pmi == pytest.approx(148.864 / 2.41, abs=1e-3)
+    assert fw.metrics.e_factor_simple == pytest.approx((7.00 - 2.41) / 2.41, abs=1e-3)
+    assert fw.gaps == []
+    assert {m.origin for m in fw.materials} == {"front-matter"}  # the text restates them
+
+    # Suzuki (table + text): 24.4265 g from the table, 96.409 g from the workup text
+    sz = r["group3-suzuki"]
+    assert sz.totals.inputs_g == pytest.approx(120.8356, abs=1e-3)
+    assert sz.metrics.e_factor == pytest.approx(119.4156 / 1.42, abs=1e-3)
+    assert {m.origin for m in sz.materials} == {"table", "text"}
+
+    # NaBH4 0.5 equiv of 2.68 g 4-methylacetophenone (C9H10O, 134.18 g/mol), NaBH4 37.83 g/mol
+    red = r["FW-0419"]
+    nabh4 = next(m for m in red.materials if m.name == "NaBH4")
+    assert nabh4.mass_g == pytest.approx(0.5 * 2.68 / 134.178 * 37.8325, rel=1e-4)
+    assert red.totals.recovered_g == pytest.approx(60 * 0.7405, abs=1e-3)
+
+    # pilot bay: kg and L, 2-MeTHF density overridden by the lab (0.852), 4.8 L recovered
+    pilot = r["ARN7-S2-R03"]
+    assert pilot.totals.recovered_g == pytest.approx(4.8 * 1000 * 0.852, abs=0.01)
+    assert pilot.metrics.e_factor == pytest.approx((15999.8 - 1270 - 4089.6) / 1270, abs=1e-3)
+
+    # no product mass: blocking gap, no figures
+    boc = r["FW-0427"]
+    assert [g.kind for g in boc.gaps if g.severity == "blocking"] == ["product_mass_missing"]
+    assert boc.metrics.e_factor is None and boc.metrics.pmi is None
+
+    # PMI = E + 1 wherever nothing is recovered and water counts (the default)
+    for res in report.results:
+        if res.metrics.e_factor is not None and not res.recovered:
+            assert res.metrics.pmi == pytest.approx(res.metrics.e_factor + 1, abs=2e-4)
+
+    # sidecars next to entries, with the stable keys; the card is switched on in masstrail.toml
+    side = examples.sidecar("fenwick-group/FW-0412-amide-coupling.md")
+    assert side["format"] == "masstrail-result/1"
+    assert set(side["metrics"]) >= {"e_factor", "e_factor_simple", "e_factor_estimated", "pmi",
+                                    "atom_economy", "yield", "rme"}  # fmt: skip
+    assert set(side["materials"][0]) >= {"name", "role", "category", "stated", "mass_g", "basis", "origin"}
+    assert (examples.root / "fenwick-group/FW-0412-amide-coupling.waste.md").is_file()
+    assert not (examples.root / "templates/blank-entry.waste.json").exists()  # ignored in config
+
+    # the chemist's files are never modified
+    for p, h in hashes.items():
+        assert hashlib.sha256(p.read_bytes()).hexdigest() == h, p
+
+    # a second scan of an unchanged notebook writes nothing
+    assert examples.scan().written == []
+
+
+def test_sidecars_validate_against_the_committed_schema(examples):
+    jsonschema = pytest.importorskip("jsonschema")
+    from capture.schema import SCHEMA_FILE
+
+    schema = json.loads(SCHEMA_FILE.read_text())
+    examples.write("broken.md", "no front matter")
+    examples.scan()
+    sidecars = list(examples.root.rglob("*.waste.json"))
+    assert len(sidecars) == 9
+    for path in sidecars:
+        jsonschema.validate(json.loads(path.read_text()), schema)
+
+
+BAD = {
+    "invalid-yaml.md": ("---\ntitle: [unclosed\n---\n", "invalid YAML"),
+    "no-front-matter.md": ("Just a note.\n", "no front matter"),
+    "binary.md": (b"\x89PNG\r\n\x1a\n\x00\x00\x00", "binary"),
+    "latin1.md": ("---\ntitle: café\n---\n".encode("latin-1"), "not UTF-8"),
+    "alias-bomb.md": ("---\na: &a [x, x]\nb: &b [*a, *a]\nc: [*b, *b]\n---\n", "aliases"),
+    "nan.json": ('{"title": "n", "product": {"mass": NaN}}', "NaN"),
+    "dupe.json": ('{"title": "a", "title": "b"}', "twice"),
+    "not-a-notebook.ipynb": ("[1, 2]", "no list of cells"),
+}
+
+
+def test_bad_input_is_reported_and_nothing_else_is_lost(notebook):
+    notebook.write("good.md", GOOD)
+    for name, (content, _) in BAD.items():
+        notebook.write(f"bad/{name}", content)
+    huge = notebook.root / "bad" / "huge.md"
+    with huge.open("wb") as fh:  # a sparse 50 MB file
+        fh.truncate(50 * 1024 * 1024)
+    report = notebook.scan()
+    results = {r.entry.path: r for r in report.results}
+    assert results["good.md"].status == "ok"
+    assert results["good.md"].metrics.e_factor == pytest.approx((2.0 + 10 * 0.8669 - 1.0) / 1.0)
+    for name, (_, message) in BAD.items():
+        side = notebook.sidecar(f"bad/{name}")
+        assert side["status"] == "error", name
+        assert message in side["error"]["message"], name
+        assert side["metrics"]["e_factor"] is None
+    assert "50.0 MB" in notebook.sidecar("bad/huge.md")["error"]["message"]
+    assert len(report.errors) == len(BAD) + 1
+
+
+@pytest.mark.parametrize(
+    ("amount", "kind", "message"),
+    [
+        ("5 blorps", "unreadable_amount", "unknown unit 'blorps'"),
+        ("0 g", "unreadable_amount", "greater than zero"),
+        ("-2 mL", "unreadable_amount", "negative"),
+        ("12", "unreadable_amount", "no unit"),
+        ("a few drops", "unreadable_amount", "not an amount"),
+    ],
+)
+def test_bad_amounts_are_gaps_and_the_rest_is_computed(notebook, amount, kind, message):
+    notebook.write("e.md", entry_md(f"""
+        product: {{name: p, mass: 1 g}}
+        materials:
+          - {{name: A, amount: 3 g}}
+          - {{name: B, amount: "{amount}"}}
+        """))
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    assert side["status"] == "ok"
+    (gap,) = side["gaps"]
+    assert gap["kind"] == kind and gap["severity"] == "major" and message in gap["message"]
+    assert side["metrics"]["e_factor"] == 2.0  # from A alone: a lower bound
+
+
+def test_same_stem_is_an_error_for_both_never_an_overwrite(notebook):
+    notebook.write("x/run.md", GOOD)
+    notebook.write("x/run.yaml", "title: y\n")
+    report = notebook.scan()
+    assert [r.status for r in report.results] == ["error", "error"]
+    side = notebook.sidecar("x/run.md")
+    assert "run.md, run.yaml" in side["error"]["message"]
+
+
+def test_outputs_temp_files_and_hidden_folders_are_not_entries(notebook):
+    notebook.write("a.md", GOOD)
+    for name in [".a.md.swp", "a.md~", ".#a.md", ".~lock.a.md#", "a.md.tmp", ".masstrail/x.md",
+                 ".git/y.md", "a.waste.md"]:  # fmt: skip
+        notebook.write(name, GOOD)
+    assert [p.name for p in Notebook.open(notebook.root).entry_files()] == ["a.md"]
+
+
+def test_bad_config_key_names_the_key_and_file(notebook):
+    notebook.write("masstrail.toml", "[e_factor]\ninclude_watr = false\n")
+    with pytest.raises(ConfigError, match=r"masstrail.toml: key 'e_factor.include_watr': unknown key"):
+        Notebook.open(notebook.root)
+
+
+def test_a_plugin_crash_is_contained(notebook):
+    notebook.write("a.md", GOOD)
+    notebook.write("b.md", GOOD)
+    nb = Notebook.open(notebook.root)
+
+    class Crashes:
+        from capture.hookspecs import hookimpl
+
+        @hookimpl
+        def masstrail_find_gaps(self, entry):
+            if entry.id == "a":
+                raise RuntimeError("boom")
+            return []
+
+    nb.pm.register(Crashes(), name="crashes")
+    report = scan(nb)
+    assert [r.status for r in report.results] == ["error", "ok"]
+    assert "boom" in report.results[0].error.message
