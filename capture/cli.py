@@ -77,7 +77,9 @@ def cli() -> None:
 
 @cli.command()
 @click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
-@click.option("--json", "as_json", is_flag=True, help="Print one JSON object per entry instead of a table.")
+@click.option(
+    "--json", "as_json", is_flag=True, help="Print one JSON object per entry instead of a table."
+)
 @click.option(
     "--fail-on",
     type=click.Choice(["blocking", "major"]),
@@ -89,8 +91,9 @@ def scan(path: Path, as_json: bool, fail_on: str | None) -> None:
     Prints a summary table: product mass, E-factor, PMI and the record gaps
     of each entry. Exits 0 when the scan completed, whatever it found.
     """
-    from capture.pipeline import CAUTION, scan as run_scan
     from capture.paths import sidecar_path
+    from capture.pipeline import CAUTION
+    from capture.pipeline import scan as run_scan
 
     nb = _open_notebook(path)
     files = nb.entry_files()
@@ -118,12 +121,12 @@ def scan(path: Path, as_json: bool, fail_on: str | None) -> None:
                 "entry": r.entry.path,
                 "status": r.status,
                 "error": r.error.model_dump() if r.error else None,
-                "sidecar": (
-                    sidecar_path(nb.root / r.entry.path).relative_to(nb.root).as_posix()
-                ),
+                "sidecar": (sidecar_path(nb.root / r.entry.path).relative_to(nb.root).as_posix()),
                 "product_g": r.product.mass_g,
                 "metrics": r.metrics.model_dump(by_alias=True),
-                "gaps": {s: sum(g.severity == s for g in r.gaps) for s in ("blocking", "major", "minor")},
+                "gaps": {
+                    s: sum(g.severity == s for g in r.gaps) for s in ("blocking", "major", "minor")
+                },
             }
             click.echo(json.dumps(out, sort_keys=True))
     else:
@@ -189,13 +192,19 @@ def show(entry: Path, as_json: bool) -> None:
         console.print(f"[dim]{_e(r.caution)}[/dim]")
         return
     console.print(f"Product: {_e(r.product.name or '—')}, {_num(r.product.mass_g, '.4g')} g"
-                  + (f"  [dim]({_e(r.product.basis)})[/dim]" if r.product.basis else ""))  # fmt: skip
+                  + (f"  [dim]({_e(r.product.basis)})[/dim]"
+                     if r.product.basis else ""))  # fmt: skip
     t = Table(title="Materials", title_justify="left")
     for col in ("material", "stage", "stated", "mass g", "basis"):
         t.add_column(col, overflow="fold", justify="right" if col == "mass g" else "left")
     for m in r.materials:
         t.add_row(
-            _e(m.name) + (f" [dim]= {_e(m.resolved)}[/dim]" if m.resolved and m.resolved.casefold() != m.name.casefold() else ""),
+            _e(m.name)
+            + (
+                f" [dim]= {_e(m.resolved)}[/dim]"
+                if m.resolved and m.resolved.casefold() != m.name.casefold()
+                else ""
+            ),
             m.stage or "—",
             _e(m.stated or "—"),
             _num(m.mass_g, ".4g"),
@@ -203,7 +212,10 @@ def show(entry: Path, as_json: bool) -> None:
         )
     console.print(t)
     for rec in r.recovered:
-        console.print(f"Recovered: {_e(rec.name)}, {_num(rec.mass_g, '.4g')} g ({_e(rec.basis or rec.problem or '')})")
+        console.print(
+            f"Recovered: {_e(rec.name)}, {_num(rec.mass_g, '.4g')} g "
+            f"({_e(rec.basis or rec.problem or '')})"
+        )
     if r.gaps:
         console.print("[bold]Missing or doubtful records[/bold]")
         colour = {"blocking": "red", "major": "yellow", "minor": "dim"}
@@ -220,7 +232,8 @@ def show(entry: Path, as_json: bool) -> None:
     if r.totals:
         console.print(
             f"Inputs {_num(r.totals.inputs_g, '.4g')} g (water {_num(r.totals.water_g, '.4g')} g), "
-            f"recovered {_num(r.totals.recovered_g, '.4g')} g, waste {_num(r.totals.waste_g, '.4g')} g"
+            f"recovered {_num(r.totals.recovered_g, '.4g')} g, "
+            f"waste {_num(r.totals.waste_g, '.4g')} g"
         )
     if r.breakdown and r.breakdown.largest:
         console.print(f"Largest input: {_e(r.breakdown.largest)}")

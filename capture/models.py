@@ -90,7 +90,7 @@ class StructuredMaterial(BaseModel):
             if value is None or value == "":
                 raise ValueError(
                     f"unexpected empty key {key!r} next to name {self.name!r}; a name that "
-                    f"contains commas must be quoted, e.g. name: \"{self.name},{key}\""
+                    f'contains commas must be quoted, e.g. name: "{self.name},{key}"'
                 )
         return self
 

@@ -34,7 +34,7 @@ from capture.models import (
     StructuredMaterial,
     Totals,
 )
-from capture.paths import STATE_DIR, is_ignored, is_own_output, is_temp_file, sidecar_path
+from capture.paths import is_ignored, is_own_output, is_temp_file, sidecar_path
 from capture.quantities import AmountError, parse_amounts
 from capture.safeio import InputError, read_bounded
 
@@ -139,7 +139,7 @@ class Notebook:
         return self._resolved[key]
 
     def process(self, path: Path, write: bool = True) -> Result:
-        """Compute (and by default write) the result for one entry file; never raises for bad input."""
+        """Compute (and by default write) one entry's result; never raises for bad input."""
         rel = self.relpath(path)
         sha = None
         try:
@@ -208,7 +208,9 @@ class Notebook:
     def _compute(self, entry: Entry) -> Result:
         structured = [self._line(m, "front-matter") for m in entry.materials]
         structured += [self._line(m, "table") for m in entry.table_materials]
-        text_lines = _flatten(self.pm.hook.masstrail_extract_amounts(entry=entry, config=self.config))
+        text_lines = _flatten(
+            self.pm.hook.masstrail_extract_amounts(entry=entry, config=self.config)
+        )
 
         formulas = {
             id(line): (item.model_extra or {}).get("formula")
@@ -255,7 +257,8 @@ class Notebook:
         product = self._product(entry, molar_mass)
         recovered = []
         for item in entry.recovered:
-            line = self._line(StructuredMaterial(name=item.name, amount=item.amount), "front-matter",
+            item_sm = StructuredMaterial(name=item.name, amount=item.amount)
+            line = self._line(item_sm, "front-matter",
                               role="recovered")  # fmt: skip
             info = self.resolve(line.name)
             if info is not None:
@@ -338,7 +341,9 @@ class Notebook:
         return ProductOut(name=p.name, mass_g=line.mass_g, basis=line.basis or line.problem)
 
 
-def _from_formula(name: str, formula: str, molar_mass: Callable[[str], float]) -> MaterialInfo | None:
+def _from_formula(
+    name: str, formula: str, molar_mass: Callable[[str], float]
+) -> MaterialInfo | None:
     """Material knowledge from a formula the entry gives itself."""
     try:
         mm = molar_mass(formula)

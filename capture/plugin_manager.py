@@ -86,4 +86,3 @@ def describe_plugins(pm: pluggy.PluginManager) -> list[dict[str, object]]:
             }
         )
     return rows
-

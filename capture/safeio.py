@@ -10,6 +10,7 @@ JSON, and ``NaN`` is refused in JSON. Results are written atomically.
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import stat
@@ -106,7 +107,7 @@ _StringLoader.yaml_implicit_resolvers = {}
 def load_yaml(text: str, line_offset: int = 0) -> Any:
     """Load one YAML document safely; errors name the line (shifted by ``line_offset``)."""
     try:
-        return yaml.load(text, Loader=_StringLoader)  # noqa: S506 - a SafeLoader subclass
+        return yaml.load(text, Loader=_StringLoader)
     except InputError as exc:
         if exc.location and exc.location.startswith("line ") and line_offset:
             exc.location = f"line {int(exc.location[5:]) + line_offset}"
@@ -160,10 +161,8 @@ def atomic_write(path: Path, text: str) -> bool:
             os.fsync(fh.fileno())
         os.replace(tmp, path)
     except BaseException:
-        try:
+        with contextlib.suppress(OSError):
             os.unlink(tmp)
-        except OSError:
-            pass
         raise
     try:
         dir_fd = os.open(path.parent, os.O_RDONLY)

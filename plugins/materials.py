@@ -27,6 +27,7 @@ from capture.models import MaterialInfo
 DATA_FILE = Path(__file__).with_name("data") / "materials.toml"
 BUILTIN_SOURCE = "masstrail material data (plugins/data/materials.toml)"
 
+
 class MaterialData:
     """The built-in material table, indexed by every name and synonym."""
 

@@ -86,7 +86,9 @@ def mass_metrics(
     largest = None
     if weighed and inputs > 0:
         top = max(weighed, key=lambda m: m.mass_g)
-        largest = f"{top.resolved or top.name}, {top.mass_g:.4g} g ({top.mass_g / inputs:.0%} of inputs)"
+        largest = (
+            f"{top.resolved or top.name}, {top.mass_g:.4g} g ({top.mass_g / inputs:.0%} of inputs)"
+        )
 
     metrics: dict[str, float | None] = {
         "e_factor": None,
@@ -109,7 +111,9 @@ def mass_metrics(
         )
         context["sector"] = sector_context(e)
         if not config.e_factor.include_water:
-            context["water"] = "water is left out of the E-factor ([e_factor] include_water = false)"
+            context["water"] = (
+                "water is left out of the E-factor ([e_factor] include_water = false)"
+            )
     return MetricsReport(
         metrics=metrics,
         totals=Totals(

@@ -77,7 +77,9 @@ def test_unknown_name_resolves_to_nothing():
 def test_lab_materials_and_density_overrides_win():
     cfg = LabConfig(
         densities={"EtOAc": 0.902},
-        materials=[ExtraMaterial(name="Kestrel wash blend", density_g_ml=0.95, source="QC sheet 7")],
+        materials=[
+            ExtraMaterial(name="Kestrel wash blend", density_g_ml=0.95, source="QC sheet 7")
+        ],
     )
     assert resolve_builtin("ethyl acetate", cfg).density_g_ml == 0.902
     assert "masstrail.toml" in resolve_builtin("ethyl acetate", cfg).density_source
@@ -157,7 +159,9 @@ def _thermo_density(name: str, t_c: float) -> float | None:
 SOLVENTS = [
     r
     for r in DATA.records
-    if r["category"] in {"solvent", "water"} and r.get("formula") and r["name"] not in {"xylenes", "hexanes"}
+    if r["category"] in {"solvent", "water"}
+    and r.get("formula")
+    and r["name"] not in {"xylenes", "hexanes"}
 ]
 
 

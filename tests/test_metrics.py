@@ -38,7 +38,11 @@ def test_e_factor_0_1_means_ten_times_more_product_than_waste():
 
 def test_pmi_is_e_plus_one_for_the_complete_e_factor():
     # Jiménez-González et al. 2011: PMI = Σ inputs / product; cEF = PMI − 1 (Roschangar 2015)
-    lines = [_line("A", 1.9), _line("DCM", 53.06, "solvent"), _line("brine", 23.96, "aqueous", "workup", 17.6)]
+    lines = [
+        _line("A", 1.9),
+        _line("DCM", 53.06, "solvent"),
+        _line("brine", 23.96, "aqueous", "workup", 17.6),
+    ]
     r = _run(lines, product=2.41)
     assert r.metrics["pmi"] == pytest.approx(r.metrics["e_factor"] + 1, abs=1e-3)
 
@@ -65,7 +69,11 @@ def test_water_can_be_left_out_of_the_headline():
 
 
 def test_recovered_solvent_is_credited():
-    r = _run([_line("A", 2.0), _line("MTBE", 66.6, "solvent")], product=2.5, recovered=[_line("MTBE", 44.4, "solvent")])
+    r = _run(
+        [_line("A", 2.0), _line("MTBE", 66.6, "solvent")],
+        product=2.5,
+        recovered=[_line("MTBE", 44.4, "solvent")],
+    )
     assert r.metrics["e_factor"] == pytest.approx((68.6 - 2.5 - 44.4) / 2.5)
     assert r.totals.recovered_g == pytest.approx(44.4)
 

@@ -7,11 +7,12 @@ import json
 import shutil
 
 import pytest
-from conftest import EXAMPLES, NotebookDir
-from helpers import entry_md
 
 from capture.config import ConfigError
 from capture.pipeline import Notebook, scan
+
+from conftest import EXAMPLES, NotebookDir
+from helpers import entry_md
 
 GOOD = entry_md("""
     title: good
@@ -34,7 +35,11 @@ def _by_id(report):
 
 
 def test_example_notebook_end_to_end(examples):
-    hashes = {p: hashlib.sha256(p.read_bytes()).hexdigest() for p in examples.root.rglob("*") if p.is_file()}
+    hashes = {
+        p: hashlib.sha256(p.read_bytes()).hexdigest()
+        for p in examples.root.rglob("*")
+        if p.is_file()
+    }
     report = examples.scan()
     r = _by_id(report)
     assert len(report.results) == 8 and not report.errors
@@ -82,7 +87,15 @@ def test_example_notebook_end_to_end(examples):
     assert side["format"] == "masstrail-result/1"
     assert set(side["metrics"]) >= {"e_factor", "e_factor_simple", "e_factor_estimated", "pmi",
                                     "atom_economy", "yield", "rme"}  # fmt: skip
-    assert set(side["materials"][0]) >= {"name", "role", "category", "stated", "mass_g", "basis", "origin"}
+    assert set(side["materials"][0]) >= {
+        "name",
+        "role",
+        "category",
+        "stated",
+        "mass_g",
+        "basis",
+        "origin",
+    }
     assert (examples.root / "fenwick-group/FW-0412-amide-coupling.waste.md").is_file()
     assert not (examples.root / "templates/blank-entry.waste.json").exists()  # ignored in config
 
@@ -150,12 +163,15 @@ def test_bad_input_is_reported_and_nothing_else_is_lost(notebook):
     ],
 )
 def test_bad_amounts_are_gaps_and_the_rest_is_computed(notebook, amount, kind, message):
-    notebook.write("e.md", entry_md(f"""
+    notebook.write(
+        "e.md",
+        entry_md(f"""
         product: {{name: p, mass: 1 g}}
         materials:
           - {{name: A, amount: 3 g}}
           - {{name: B, amount: "{amount}"}}
-        """))
+        """),
+    )
     notebook.scan()
     side = notebook.sidecar("e.md")
     assert side["status"] == "ok"
@@ -183,7 +199,9 @@ def test_outputs_temp_files_and_hidden_folders_are_not_entries(notebook):
 
 def test_bad_config_key_names_the_key_and_file(notebook):
     notebook.write("masstrail.toml", "[e_factor]\ninclude_watr = false\n")
-    with pytest.raises(ConfigError, match=r"masstrail.toml: key 'e_factor.include_watr': unknown key"):
+    with pytest.raises(
+        ConfigError, match=r"masstrail.toml: key 'e_factor.include_watr': unknown key"
+    ):
         Notebook.open(notebook.root)
 
 

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import contextlib
+
 import pytest
 from hypothesis import example, given
 from hypothesis import strategies as st
@@ -97,13 +99,18 @@ def test_spacing_and_mu_change_nothing(number, unit, space):
     assert (other.value, other.unit) == (base.value, base.unit)
 
 
-@given(st.text(alphabet=st.sampled_from(list("0123456789.,;×x*~≈-– µμumgLMlol\u2009\u00a0\u2212=+@\t\r\nequivca")), max_size=20))
+@given(
+    st.text(
+        alphabet=st.sampled_from(
+            list("0123456789.,;×x*~≈-– µμumgLMlol\u2009\u00a0\u2212=+@\t\r\nequivca")
+        ),
+        max_size=20,
+    )
+)
 def test_only_our_error_escapes(text):
     """Whatever the text, the parser answers or raises AmountError, nothing else."""
-    try:
+    with contextlib.suppress(AmountError):
         parse_amount(text)
-    except AmountError:
-        pass
 
 
 @given(st.text(max_size=30))

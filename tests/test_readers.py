@@ -8,7 +8,13 @@ from pathlib import Path
 import pytest
 
 from capture.safeio import InputError
-from masstrail_plugins.readers import read_json, read_markdown, read_notebook, read_tables, read_yaml
+from masstrail_plugins.readers import (
+    read_json,
+    read_markdown,
+    read_notebook,
+    read_tables,
+    read_yaml,
+)
 
 from helpers import entry_md
 
@@ -18,7 +24,9 @@ def _md(text: str, name: str = "e.md"):
 
 
 def test_markdown_front_matter_and_defaults():
-    e = _md(entry_md("""
+    e = _md(
+        entry_md(
+            """
         title: Test
         date: 2026-11-03
         product: {name: amide, mass: 2.41 g}
@@ -26,7 +34,10 @@ def test_markdown_front_matter_and_defaults():
         materials:
           - {name: DCM, amount: 40 mL, role: solvent}
         lab_notebook_page: 17
-        """, "Body text."))
+        """,
+            "Body text.",
+        )
+    )
     assert e.id == "e" and e.path == "g/e.md" and e.format == "markdown"
     assert e.date.isoformat() == "2026-11-03"
     assert e.product.mass == "2.41 g"
@@ -49,7 +60,10 @@ def test_yaml_guesses_do_not_leak_into_entries():
         ("---\ntitle: x\n", "not closed"),
         ("---\n- a\n- b\n---\n", "must be a mapping"),
         ("---\ndate: 31/02/2026\n---\n", "key 'date'"),
-        ("---\nmaterials:\n  - {name: 3,4-difluoronitrobenzene, amount: 1 g}\n---\n", "must be quoted"),
+        (
+            "---\nmaterials:\n  - {name: 3,4-difluoronitrobenzene, amount: 1 g}\n---\n",
+            "must be quoted",
+        ),
         ("---\ntitle: a\ntitle: b\n---\n", "appears twice"),
     ],
 )

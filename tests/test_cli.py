@@ -1,0 +1,118 @@
+"""The command line, through click's CliRunner and, once, as a real process."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+from click.testing import CliRunner
+
+from capture.cli import cli
+
+from helpers import entry_md
+
+GOOD = entry_md("""
+    title: good
+    product: {name: p, mass: 1.00 g}
+    materials: [{name: A, amount: 3.00 g}]
+    """)
+NO_PRODUCT = entry_md("materials: [{name: A, amount: 3.00 g}]")
+
+
+def test_scan_prints_a_table_and_exits_0_with_gaps(notebook):
+    notebook.write("good.md", GOOD)
+    notebook.write("open.md", NO_PRODUCT)
+    res = CliRunner().invoke(cli, ["scan", str(notebook.root)], env={"COLUMNS": "200"})
+    assert res.exit_code == 0, res.output
+    assert "good.md" in res.output and "2" in res.output and "open.md" in res.output
+    assert "2 entries, 2 result file(s) written, 0 could not be read" in res.output
+    assert "not a hazard assessment" in res.output
+
+
+def test_scan_json_and_fail_on(notebook):
+    notebook.write("good.md", GOOD)
+    notebook.write("open.md", NO_PRODUCT)
+    res = CliRunner().invoke(cli, ["scan", str(notebook.root), "--json", "--fail-on", "blocking"])
+    assert res.exit_code == 1
+    rows = [json.loads(line) for line in res.output.splitlines()]
+    assert [(r["entry"], r["metrics"]["e_factor"], r["gaps"]["blocking"]) for r in rows] == [
+        ("good.md", 2.0, 0),
+        ("open.md", None, 1),
+    ]
+    assert rows[0]["sidecar"] == "good.waste.json"
+
+
+def test_fail_on_major_passes_a_clean_notebook(notebook):
+    notebook.write("good.md", GOOD)
+    res = CliRunner().invoke(cli, ["scan", str(notebook.root), "--fail-on", "major"])
+    assert res.exit_code == 0
+
+
+def test_bad_config_exits_2_naming_the_key(notebook):
+    notebook.write("masstrail.toml", "[output]\ncards = true\n")
+    res = CliRunner().invoke(cli, ["scan", str(notebook.root)])
+    assert res.exit_code == 2
+    assert "key 'output.cards': unknown key" in res.output
+
+
+def test_missing_path_is_a_usage_error(tmp_path):
+    res = CliRunner().invoke(cli, ["scan", str(tmp_path / "nowhere")])
+    assert res.exit_code == 2
+
+
+def test_show_prints_basis_gaps_and_metrics(notebook):
+    notebook.write("masstrail.toml", '[densities]\n"toluene" = 0.87\n')
+    notebook.write(
+        "sub/e.md",
+        entry_md("""
+        product: {name: p, mass: 1 g}
+        materials: [{name: toluene, amount: 10 mL}, {name: DMAP}]
+        """),
+    )
+    res = CliRunner().invoke(cli, ["show", str(notebook.root / "sub/e.md")], env={"COLUMNS": "200"})
+    assert res.exit_code == 0, res.output
+    assert "10 mL × 0.87 g/mL (toluene; lab override in masstrail.toml)" in res.output
+    assert "[densities]" not in res.output or "under [densities]" in res.output
+    assert "DMAP is listed with no amount" in res.output
+    assert "E-factor 7.7" in res.output
+    assert not (notebook.root / "sub/e.waste.json").exists()  # show writes nothing
+
+
+def test_show_json_is_the_sidecar_content(notebook):
+    path = notebook.write("e.md", GOOD)
+    res = CliRunner().invoke(cli, ["show", "--json", str(path)])
+    assert json.loads(res.output)["metrics"]["e_factor"] == 2.0
+
+
+def test_show_reports_an_unreadable_entry(notebook):
+    path = notebook.write("e.md", "no front matter here")
+    res = CliRunner().invoke(cli, ["show", str(path)])
+    assert (
+        res.exit_code == 0 and "could not be read" in res.output and "no front matter" in res.output
+    )
+
+
+def test_plugins_and_schema_commands():
+    res = CliRunner().invoke(cli, ["plugins", "--json"])
+    assert {row["name"] for row in json.loads(res.output)} >= {"readers", "sidecar"}
+    res = CliRunner().invoke(cli, ["schema"])
+    assert json.loads(res.output)["title"] == "Result"
+
+
+def test_the_installed_command_runs(notebook):
+    notebook.write("good.md", GOOD)
+    out = subprocess.run(
+        [
+            sys.executable,
+            "-c",
+            "from capture.cli import main; main()",
+            "scan",
+            "--json",
+            str(notebook.root),
+        ],
+        capture_output=True,
+        text=True,
+        check=True,
+    ).stdout
+    assert json.loads(out)["metrics"]["pmi"] == 3.0
