@@ -134,21 +134,27 @@ def scan(path: Path, as_json: bool, fail_on: str | None) -> None:
 
         console = _console()
         table = Table(title=f"masstrail scan of {path}", title_justify="left")
-        for col, just in [("entry", "left"), ("product g", "right"), ("E-factor", "right"),
-                          ("PMI", "right"), ("blocking", "right"), ("major", "right"),
-                          ("minor", "right")]:  # fmt: skip
-            table.add_column(col, justify=just, overflow="fold")
+        table.add_column("entry", overflow="fold", min_width=min(24, max(
+            [len(r.entry.path) for r in report.results] or [5])))  # fmt: skip
+        for col in ("product g", "E-factor", "PMI"):
+            table.add_column(col, justify="right", no_wrap=True)
+        table.add_column("record gaps")
         for r in report.results:
             if r.status == "error":
-                table.add_row(_e(r.entry.path), "[red]could not be read[/red]", "", "", "", "", "")
+                table.add_row(_e(r.entry.path), "", "", "", "[red]could not be read[/red]")
                 continue
-            counts = [sum(g.severity == s for g in r.gaps) for s in ("blocking", "major", "minor")]
+            counts = [
+                (s, sum(g.severity == s for g in r.gaps)) for s in ("blocking", "major", "minor")
+            ]
+            gaps = ", ".join(f"{n} {s}" for s, n in counts if n) or "none"
+            if counts[0][1]:
+                gaps = f"[red]{gaps}[/red]"
             table.add_row(
                 _e(r.entry.path),
                 _num(r.product.mass_g, ".4g"),
                 _num(r.metrics.e_factor),
                 _num(r.metrics.pmi),
-                *[str(c) if c else "·" for c in counts],
+                gaps,
             )
         console.print(table)
         n = len(report.results)

@@ -359,14 +359,21 @@ def _from_formula(
 
 
 def _restates(line: MaterialLine, structured: list[MaterialLine], key: Callable) -> bool:
-    """True when a text mention repeats a structured line: same material and same amount."""
+    """True when a text mention repeats a structured line: same material, stage and amount.
+
+    ``washed with ice-cold ethanol (2 × 5 mL)`` does not repeat ``ethanol, 10 mL`` used as
+    the reaction solvent: the stage and the way the amount is written differ.
+    """
     k = key(line)
     for other in structured:
         if key(other) != k:
             continue
+        if line.stage and other.stage and line.stage != other.stage:
+            continue
         for a in line.amounts:
             for b in other.amounts:
-                if a.kind == b.kind and abs(a.total - b.total) <= 0.005 * max(a.total, b.total):
+                same = a.kind == b.kind and a.multiplier == b.multiplier
+                if same and abs(a.value - b.value) <= 0.005 * max(a.value, b.value):
                     return True
     return False
 

@@ -223,3 +223,21 @@ def test_a_plugin_crash_is_contained(notebook):
     report = scan(nb)
     assert [r.status for r in report.results] == ["error", "ok"]
     assert "boom" in report.results[0].error.message
+
+
+def test_text_restating_a_structured_amount_is_not_counted_twice(notebook):
+    notebook.write("e.md", entry_md("""
+        product: {name: p, mass: 1 g}
+        materials:
+          - {name: ethanol, amount: 10 mL, role: solvent}
+          - {name: brine, amount: 20 mL, role: wash}
+        """, "Stirred in ethanol (10 mL). Washed with brine (20 mL) and then with "
+             "ice-cold ethanol (2 × 5 mL)."))
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    got = [(m["name"], m["origin"], m["stage"], m["mass_g"]) for m in side["materials"]]
+    assert got == [
+        ("ethanol", "front-matter", "reaction", 7.893),
+        ("brine", "front-matter", "workup", 23.96),
+        ("ice-cold ethanol", "text", "workup", 7.893),  # 2 × 5 mL × 0.7893: a second use
+    ]
