@@ -226,13 +226,19 @@ def test_a_plugin_crash_is_contained(notebook):
 
 
 def test_text_restating_a_structured_amount_is_not_counted_twice(notebook):
-    notebook.write("e.md", entry_md("""
+    notebook.write(
+        "e.md",
+        entry_md(
+            """
         product: {name: p, mass: 1 g}
         materials:
           - {name: ethanol, amount: 10 mL, role: solvent}
           - {name: brine, amount: 20 mL, role: wash}
-        """, "Stirred in ethanol (10 mL). Washed with brine (20 mL) and then with "
-             "ice-cold ethanol (2 × 5 mL)."))
+        """,
+            "Stirred in ethanol (10 mL). Washed with brine (20 mL) and then with "
+            "ice-cold ethanol (2 × 5 mL).",
+        ),
+    )
     notebook.scan()
     side = notebook.sidecar("e.md")
     got = [(m["name"], m["origin"], m["stage"], m["mass_g"]) for m in side["materials"]]
