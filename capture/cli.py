@@ -241,6 +241,8 @@ def show(entry: Path, as_json: bool) -> None:
             f"recovered {_num(r.totals.recovered_g, '.4g')} g, "
             f"waste {_num(r.totals.waste_g, '.4g')} g"
         )
+    if "lower_bound" in r.context:
+        console.print(f"[yellow]{_e(r.context['lower_bound'])}[/yellow]")
     if r.breakdown and r.breakdown.largest:
         console.print(f"Largest input: {_e(r.breakdown.largest)}")
     if "sector" in r.context:

@@ -110,6 +110,12 @@ def mass_metrics(
             pmi=_r(inputs / p),
         )
         context["sector"] = sector_context(e)
+        unweighed = [m.name for m in materials if m.mass_g is None]
+        if unweighed:
+            context["lower_bound"] = (
+                f"{len(unweighed)} input(s) have no mass ({', '.join(unweighed)}), so the "
+                "E-factor and PMI are lower bounds"
+            )
         if not config.e_factor.include_water:
             context["water"] = (
                 "water is left out of the E-factor ([e_factor] include_water = false)"

@@ -178,6 +178,7 @@ def test_bad_amounts_are_gaps_and_the_rest_is_computed(notebook, amount, kind, m
     (gap,) = side["gaps"]
     assert gap["kind"] == kind and gap["severity"] == "major" and message in gap["message"]
     assert side["metrics"]["e_factor"] == 2.0  # from A alone: a lower bound
+    assert side["context"]["lower_bound"].startswith("1 input(s) have no mass (B)")
 
 
 def test_same_stem_is_an_error_for_both_never_an_overwrite(notebook):
