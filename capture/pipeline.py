@@ -125,8 +125,12 @@ class Notebook:
         return found
 
     def relpath(self, path: Path) -> str:
-        """``path`` relative to the root, with ``/``."""
-        return path.resolve().relative_to(self.root).as_posix()
+        """``path`` relative to the root, with ``/`` (links are not followed out of the root)."""
+        path = path if path.is_absolute() else Path.cwd() / path
+        try:
+            return path.relative_to(self.root).as_posix()
+        except ValueError:
+            return path.resolve().relative_to(self.root).as_posix()
 
     # ------------------------------------------------------------------ one entry
     def resolve(self, name: str) -> MaterialInfo | None:
@@ -140,8 +144,11 @@ class Notebook:
 
     def process(self, path: Path, write: bool = True) -> Result:
         """Compute (and by default write) one entry's result; never raises for bad input."""
-        rel = self.relpath(path)
         sha = None
+        try:
+            rel = self.relpath(path)
+        except ValueError:
+            rel = path.name
         try:
             limit = int(self.config.scan.max_entry_mb * 1024 * 1024)
             data = read_bounded(path, limit)
@@ -221,7 +228,7 @@ class Notebook:
             info = self.resolve(line.name)
             if formulas.get(id(line)):
                 # the entry's own formula wins over any name lookup for the molar mass
-                own = _from_formula(line.name, str(formulas[id(line)]), molar_mass)
+                own = _from_formula(line.name, str(formulas[id(line)]))
                 if own is not None and info is not None:
                     own = info.model_copy(
                         update={"formula": own.formula, "molar_mass": own.molar_mass}
@@ -254,7 +261,7 @@ class Notebook:
         for line in by_equiv:
             self._weigh(line, infos[id(line)], ctx)
 
-        product = self._product(entry, molar_mass)
+        product = self._product(entry)
         recovered = []
         for item in entry.recovered:
             item_sm = StructuredMaterial(name=item.name, amount=item.amount)
@@ -327,11 +334,11 @@ class Notebook:
             caution=CAUTION,
         )
 
-    def _product(self, entry: Entry, molar_mass: Callable[[str], float]) -> ProductOut:
+    def _product(self, entry: Entry) -> ProductOut:
         p = entry.product
         if not p.mass:
             return ProductOut(name=p.name, mass_g=None)
-        info = _from_formula(p.name or "product", p.formula, molar_mass) if p.formula else None
+        info = _from_formula(p.name or "product", p.formula) if p.formula else None
         if info is None and p.name:
             info = self.resolve(p.name)
         line = self._line(
@@ -341,9 +348,7 @@ class Notebook:
         return ProductOut(name=p.name, mass_g=line.mass_g, basis=line.basis or line.problem)
 
 
-def _from_formula(
-    name: str, formula: str, molar_mass: Callable[[str], float]
-) -> MaterialInfo | None:
+def _from_formula(name: str, formula: str) -> MaterialInfo | None:
     """Material knowledge from a formula the entry gives itself."""
     try:
         mm = molar_mass(formula)

@@ -248,3 +248,16 @@ def test_text_restating_a_structured_amount_is_not_counted_twice(notebook):
         ("brine", "front-matter", "workup", 23.96),
         ("ice-cold ethanol", "text", "workup", 7.893),  # 2 × 5 mL × 0.7893: a second use
     ]
+
+
+def test_a_link_out_of_the_notebook_is_refused_not_followed(notebook, tmp_path):
+    outside = tmp_path / "elsewhere.md"
+    outside.write_text(GOOD)
+    (notebook.root / "linked.md").symlink_to(outside)
+    notebook.write("good.md", GOOD)
+    report = notebook.scan()
+    by_path = {r.entry.path: r for r in report.results}
+    assert by_path["good.md"].status == "ok"
+    assert by_path["linked.md"].status == "error"
+    assert "not a regular file" in by_path["linked.md"].error.message
+    assert outside.read_text() == GOOD
