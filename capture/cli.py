@@ -110,7 +110,7 @@ def scan(path: Path, as_json: bool, fail_on: str | None) -> None:
             bar.advance(task)
 
     try:
-        report = run_scan(nb, progress=progress)
+        report = run_scan(nb, progress=progress, files=files)
     finally:
         if bar is not None:
             bar.stop()

@@ -442,10 +442,16 @@ class ScanReport:
 
 
 def scan(
-    notebook: Notebook, progress: Callable[[Path], None] | None = None, write: bool = True
+    notebook: Notebook,
+    progress: Callable[[Path], None] | None = None,
+    write: bool = True,
+    files: list[Path] | None = None,
 ) -> ScanReport:
-    """Process every entry under the notebook root once; one result per entry file."""
-    files = notebook.entry_files()
+    """Process every entry under the notebook root once; one result per entry file.
+
+    ``files`` is the list from :meth:`Notebook.entry_files`, if the caller already has it.
+    """
+    files = notebook.entry_files() if files is None else files
     by_sidecar: dict[Path, list[Path]] = {}
     for f in files:
         by_sidecar.setdefault(sidecar_path(f), []).append(f)
