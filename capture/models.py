@@ -209,6 +209,9 @@ class MaterialLine(_Model):
     name: str = Field(description="the name as written")
     resolved: str | None = Field(None, description="canonical name from the material knowledge")
     role: str | None = None
+    operation: str | None = Field(
+        None, description="the operation the text mention belongs to (wash, drying, …)"
+    )
     category: str | None = None
     stage: Stage | None = None
     stated: str | None = Field(None, description="the amount exactly as written")
@@ -221,6 +224,14 @@ class MaterialLine(_Model):
     problem: str | None = Field(None, description="why no mass could be given, if none")
     problem_kind: str | None = Field(None, description="the gap kind of that problem")
     water_g: float | None = Field(None, description="water contained in this mass, in g")
+    solvent: str | None = Field(
+        None,
+        description="for a solution: its solvent, whose density stands in when the "
+        "solution's own is not known",
+    )
+    note: str | None = Field(
+        None, description="how the amount was derived before weighing (e.g. a mixture's share)"
+    )
 
 
 class Gap(_Model):

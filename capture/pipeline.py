@@ -20,6 +20,7 @@ from capture import __version__
 from capture.chem import material_key, molar_mass
 from capture.config import CONFIG_NAME, LabConfig, load_config
 from capture.models import (
+    AmountMention,
     Breakdown,
     Entry,
     EntryError,
@@ -75,6 +76,14 @@ def stage_for(role: str | None, category: str | None) -> str | None:
             if low in roles:
                 return stage
     return CATEGORY_STAGE.get(category or "")
+
+
+def _same_amount(a: AmountMention, b: AmountMention) -> bool:
+    return (
+        a.kind == b.kind
+        and a.multiplier == b.multiplier
+        and abs(a.value - b.value) <= 0.005 * max(a.value, b.value)
+    )
 
 
 def _flatten(answers: Iterable[list | None]) -> list:
@@ -215,9 +224,9 @@ class Notebook:
     def _compute(self, entry: Entry) -> Result:
         structured = [self._line(m, "front-matter") for m in entry.materials]
         structured += [self._line(m, "table") for m in entry.table_materials]
-        text_lines = _flatten(
-            self.pm.hook.masstrail_extract_amounts(entry=entry, config=self.config)
-        )
+        found = _flatten(self.pm.hook.masstrail_extract_amounts(entry=entry, config=self.config))
+        text_product = next((m for m in found if m.role == "product"), None)
+        text_lines = [m for m in found if m.role != "product"]
 
         formulas = {
             id(line): (item.model_extra or {}).get("formula")
@@ -234,6 +243,8 @@ class Notebook:
                         update={"formula": own.formula, "molar_mass": own.molar_mass}
                     )
                 info = own or info
+            if line.solvent and (info is None or not info.density_g_ml):
+                info = self._solvent_proxy(line, info)
             infos[id(line)] = info
             if info is not None:
                 line.resolved, line.category = info.name, info.category
@@ -243,11 +254,32 @@ class Notebook:
             return material_key(line.resolved or line.name)
 
         product_key = material_key(entry.product.name) if entry.product.name else None
-        materials = structured + [
-            line
-            for line in text_lines
-            if key(line) != product_key and not _restates(line, structured, key)
-        ]
+        merge_gaps: list[Gap] = []
+        materials = list(structured)
+        for line in text_lines:
+            if key(line) == product_key:
+                continue
+            same = [o for o in structured if key(o) == key(line) and _same_stage(o, line)]
+            if not same:
+                materials.append(line)
+                continue
+            if any(_same_amount(a, b) for o in same for a in line.amounts for b in o.amounts):
+                continue  # the text repeats the structured record: counted once
+            kinds = {a.kind for a in line.amounts}
+            if not any(kinds & {b.kind for b in o.amounts} for o in same):
+                materials.append(line)  # e.g. a mass in the text, a volume in the table
+                continue
+            merge_gaps.append(
+                Gap(
+                    kind="conflicting_amounts",
+                    item=line.name,
+                    severity="minor",
+                    evidence=line.evidence,
+                    message=f"{same[0].name} is recorded as {same[0].stated!r} ({same[0].origin}) "
+                    f"and as {line.stated!r} in the text at the same stage; the {same[0].origin} "
+                    "amount is counted. Correct whichever is wrong",
+                )
+            )
 
         # weigh everything that does not need the limiting reagent, then the rest
         ctx = MassContext()
@@ -261,7 +293,9 @@ class Notebook:
         for line in by_equiv:
             self._weigh(line, infos[id(line)], ctx)
 
-        product = self._product(entry)
+        product, product_gap = self._product(entry, text_product)
+        if product_gap:
+            merge_gaps.append(product_gap)
         recovered = []
         for item in entry.recovered:
             item_sm = StructuredMaterial(name=item.name, amount=item.amount)
@@ -289,6 +323,7 @@ class Notebook:
                         message=(line.problem or "no mass") + "; it is not credited",
                     )
                 )
+        gaps += merge_gaps
         gaps.sort(key=lambda g: _SEVERITY_ORDER[g.severity])
 
         metrics: dict[str, float | None] = {}
@@ -334,10 +369,37 @@ class Notebook:
             caution=CAUTION,
         )
 
-    def _product(self, entry: Entry) -> ProductOut:
+    def _solvent_proxy(self, line: MaterialLine, info: MaterialInfo | None) -> MaterialInfo | None:
+        """A solution whose own density is unknown is weighed with its solvent's density."""
+        solvent = self.resolve(line.solvent or "")
+        if solvent is None or not solvent.density_g_ml:
+            return info
+        base = info or MaterialInfo(
+            name=line.name, category="reagent", source="named in the text; not in the data"
+        )
+        temp = f", {solvent.density_temp_c:g} °C" if solvent.density_temp_c is not None else ""
+        return base.model_copy(
+            update={
+                "density_g_ml": solvent.density_g_ml,
+                "density_temp_c": solvent.density_temp_c,
+                "density_source": f"density of the solvent, {solvent.name}{temp}, "
+                f"{solvent.density_source}; the solution's own density is not known",
+            }
+        )
+
+    def _product(
+        self, entry: Entry, from_text: MaterialLine | None
+    ) -> tuple[ProductOut, Gap | None]:
+        """The product and its mass: the front matter's, else the one the text reports."""
         p = entry.product
+        text_mass = None
+        if from_text is not None and from_text.amounts:
+            text_mass = from_text.amounts[0]
         if not p.mass:
-            return ProductOut(name=p.name, mass_g=None)
+            if text_mass is None:
+                return ProductOut(name=p.name, mass_g=None), None
+            basis = f"{text_mass.text} as reported in the text: {from_text.evidence}"
+            return ProductOut(name=p.name, mass_g=round(text_mass.total, 4), basis=basis), None
         info = _from_formula(p.name or "product", p.formula) if p.formula else None
         if info is None and p.name:
             info = self.resolve(p.name)
@@ -345,7 +407,22 @@ class Notebook:
             StructuredMaterial(name=p.name or "product", amount=p.mass), "front-matter", "product"
         )
         self._weigh(line, info, MassContext())
-        return ProductOut(name=p.name, mass_g=line.mass_g, basis=line.basis or line.problem)
+        out = ProductOut(name=p.name, mass_g=line.mass_g, basis=line.basis or line.problem)
+        gap = None
+        if (
+            text_mass is not None
+            and out.mass_g is not None
+            and abs(text_mass.total - out.mass_g) > 0.005 * out.mass_g
+        ):
+            gap = Gap(
+                kind="conflicting_product_mass",
+                item=p.name or "product",
+                severity="minor",
+                evidence=from_text.evidence,
+                message=f"the front matter gives {p.mass} and the text {text_mass.text}; "
+                "the front matter is used. Correct whichever is wrong",
+            )
+        return out, gap
 
 
 def _from_formula(name: str, formula: str) -> MaterialInfo | None:
@@ -363,24 +440,13 @@ def _from_formula(name: str, formula: str) -> MaterialInfo | None:
     )
 
 
-def _restates(line: MaterialLine, structured: list[MaterialLine], key: Callable) -> bool:
-    """True when a text mention repeats a structured line: same material, stage and amount.
+def _same_stage(a: MaterialLine, b: MaterialLine) -> bool:
+    """Two lines belong to one step unless both know their stage and the stages differ.
 
-    ``washed with ice-cold ethanol (2 × 5 mL)`` does not repeat ``ethanol, 10 mL`` used as
-    the reaction solvent: the stage and the way the amount is written differ.
+    ``washed with ice-cold ethanol (2 × 5 mL)`` is not the ``ethanol, 10 mL`` used as
+    the reaction solvent.
     """
-    k = key(line)
-    for other in structured:
-        if key(other) != k:
-            continue
-        if line.stage and other.stage and line.stage != other.stage:
-            continue
-        for a in line.amounts:
-            for b in other.amounts:
-                same = a.kind == b.kind and a.multiplier == b.multiplier
-                if same and abs(a.value - b.value) <= 0.005 * max(a.value, b.value):
-                    return True
-    return False
+    return not (a.stage and b.stage and a.stage != b.stage)
 
 
 def _evidence(item: StructuredMaterial, origin: str) -> str:
@@ -405,7 +471,14 @@ def choose_limiting(materials: list[MaterialLine]) -> MaterialLine | None:
         if any(a.kind == "equivalents" and abs(a.value - 1.0) < 1e-9 for a in m.amounts):
             return m
     reactants = [m for m in known if (m.role or "").casefold() in REACTANT_ROLES]
-    return min(reactants, key=lambda m: m.moles_mmol) if reactants else None
+    if reactants:
+        return min(reactants, key=lambda m: m.moles_mmol)
+    # prose only: the first reaction-stage material stated in mmol (common practice: the
+    # substrate is named first, with its amount of substance)
+    return next(
+        (m for m in known if m.stage == "reaction" and any(a.kind == "amount" for a in m.amounts)),
+        None,
+    )
 
 
 def error_result(

@@ -47,6 +47,8 @@ def _first(line: MaterialLine, kind: str) -> AmountMention | None:
 
 
 def _density_words(info: MaterialInfo) -> str:
+    if (info.density_source or "").startswith("density of the solvent"):
+        return f"{fmt(info.density_g_ml)} g/mL ({info.density_source})"
     temp = f", {fmt(info.density_temp_c)} °C" if info.density_temp_c is not None else ""
     return f"{fmt(info.density_g_ml)} g/mL ({info.name}{temp}; {info.density_source})"
 
@@ -94,6 +96,8 @@ def weigh_line(
             )
         grams = volume.total * info.density_g_ml
         basis = f"{_amount_words(volume)} × {_density_words(info)}"
+        if line.note:
+            basis += f"; {line.note}"
         return MassAssignment(mass_g=grams, moles_mmol=_moles(line, info, grams), basis=basis)
     amount = _first(line, "amount")
     if amount is not None:

@@ -246,7 +246,7 @@ def test_text_restating_a_structured_amount_is_not_counted_twice(notebook):
     assert got == [
         ("ethanol", "front-matter", "reaction", 7.893),
         ("brine", "front-matter", "workup", 23.96),
-        ("ice-cold ethanol", "text", "workup", 7.893),  # 2 × 5 mL × 0.7893: a second use
+        ("ethanol", "text", "workup", 7.893),  # 2 × 5 mL ice-cold ethanol: a second use
     ]
 
 

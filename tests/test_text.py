@@ -53,7 +53,8 @@ def test_bracketed_amounts(body, expected):
 
 def test_product_mention_and_non_amounts_are_not_inputs():
     body = "Stirred (2 h) at 0 °C (ice bath), then filtered to give the amide (2.41 g, 86%)."
-    assert _found(body) == []
+    (line,) = extract(body)
+    assert (line.role, line.name, line.amounts[0].value) == ("product", "amide", 2.41)
 
 
 def test_spans_point_at_the_amount_text():
