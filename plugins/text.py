@@ -31,6 +31,7 @@ The extractor works sentence by sentence, in this order:
 
 from __future__ import annotations
 
+import contextlib
 import re
 
 from capture.config import LabConfig
@@ -40,8 +41,8 @@ from capture.quantities import AmountError, normalise, parse_amount
 
 # operation keyword → (operation, stage)
 _OPERATIONS: list[tuple[str, str, Stage]] = [
-    (r"chromatograph|\bcolumn\b|\belut|\beluent|\bflash\b|\bsilica gel\b|\bplug\b", "chromatography",
-     "purification"),
+    (r"chromatograph|\bcolumn\b|\belut|\beluent|\bflash\b|\bsilica gel\b|\bplug\b",
+     "chromatography", "purification"),
     (r"recrystalli[sz]|crystalli[sz]", "recrystallisation", "purification"),
     (r"triturat", "trituration", "purification"),
     (r"distil", "distillation", "purification"),
@@ -256,10 +257,8 @@ def _read_group(content: str, offset: int, name: str | None, mixture) -> list[_G
         norm = normalise(part)
         m = _SOLUTION_PART.match(norm)
         if m:
-            try:
+            with contextlib.suppress(AmountError):
                 groups[-1].amounts.append(parse_amount(f"{m.group('c')} {m.group('u')}", span))
-            except AmountError:
-                pass
             groups[-1].solvent = _clean_name(m.group("solv"))
             groups[-1].texts.append(part)
             continue
