@@ -9,7 +9,7 @@ import unicodedata
 # words that describe the state of a material, not which material it is
 _DROP_PREFIXES = ("anhydrous ", "dry ", "freshly distilled ", "degassed ", "distilled ",
                   "ice-cold ", "ice cold ", "cold ", "hot ", "warm ", "boiling ", "chilled ",
-                  "fresh ", "cooled ", "pre-cooled ")  # fmt: skip
+                  "fresh ", "cooled ", "pre-cooled ", "wet ")  # fmt: skip
 _TOKEN_MAP = {
     "sat.": "saturated",
     "sat": "saturated",

@@ -106,6 +106,7 @@ def _factor(pint_unit: str, kind: Kind) -> float:
     return float(q.to(_PINT_CANONICAL[kind]).magnitude)
 
 
+_WS = re.compile(r"\s+")
 _SPACES = dict.fromkeys(map(ord, "\u00a0\u2009\u202f\u2007\u200a\u2002\u2003"), " ")
 
 
@@ -114,7 +115,7 @@ def normalise(text: str) -> str:
     text = text.translate(_SPACES)
     text = unicodedata.normalize("NFKC", text)
     text = text.replace("\u2212", "-").replace("µ", "μ")
-    return re.sub(r"\s+", " ", text).strip()
+    return _WS.sub(" ", text).strip()
 
 
 _QUALIFIER = re.compile(r"^(?:ca\.?|c\.|approx\.?|approximately|about|circa|~|≈|∼)\s*", re.I)

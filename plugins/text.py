@@ -39,27 +39,47 @@ from capture.hookspecs import hookimpl
 from capture.models import AmountMention, Entry, MaterialLine, Stage
 from capture.quantities import AmountError, normalise, parse_amount
 
-# operation keyword → (operation, stage)
-_OPERATIONS: list[tuple[str, str, Stage]] = [
-    (r"chromatograph|\bcolumn\b|\belut|\beluent|\bflash\b|\bsilica gel\b|\bplug\b",
-     "chromatography", "purification"),
-    (r"recrystalli[sz]|crystalli[sz]", "recrystallisation", "purification"),
-    (r"triturat", "trituration", "purification"),
-    (r"distil", "distillation", "purification"),
-    (r"quench", "quench", "workup"),
-    (r"extract|partition", "extraction", "workup"),
-    (r"\bwash|\brins", "wash", "workup"),
-    (r"(?<![-\w])dried\b|(?<![-\w])drying\b|\bdry over\b", "drying", "workup"),
-    (r"filt(er|ra)|\bcelite\b|suction", "filtration", "workup"),
-    (r"\bdilut|\bpoured\b|\bseparat|\bacidif|\bbasif|\bneutrali", "extraction", "workup"),
-]  # fmt: skip
-_OP_RES = [(re.compile(p, re.I), op, stage) for p, op, stage in _OPERATIONS]
+# The hot path works on words, not on large case-insensitive regular expressions:
+# a sentence is cut into words once, and each word is looked up in small tables.
 
-_PRODUCT_WORDS = re.compile(
-    r"\b(to give|to afford|to provide|to furnish|afforded|affording|gave|giving|yielded|"
-    r"yielding|provided|providing|furnished|furnishing|obtained|leaving|left)\b",
-    re.I,
-)
+# operation word stems → (operation, stage); a word matches when it starts with the stem
+_OPERATION_STEMS: dict[str, tuple[str, Stage]] = {
+    "chromatograph": ("chromatography", "purification"),
+    "column": ("chromatography", "purification"),
+    "elut": ("chromatography", "purification"),
+    "eluent": ("chromatography", "purification"),
+    "flash": ("chromatography", "purification"),
+    "recrystalli": ("recrystallisation", "purification"),
+    "crystalli": ("recrystallisation", "purification"),
+    "triturat": ("trituration", "purification"),
+    "distil": ("distillation", "purification"),
+    "quench": ("quench", "workup"),
+    "extract": ("extraction", "workup"),
+    "partition": ("extraction", "workup"),
+    "wash": ("wash", "workup"),
+    "rins": ("wash", "workup"),
+    "dried": ("drying", "workup"),
+    "drying": ("drying", "workup"),
+    "filt": ("filtration", "workup"),
+    "celite": ("filtration", "workup"),
+    "suction": ("filtration", "workup"),
+    "dilut": ("extraction", "workup"),
+    "poured": ("extraction", "workup"),
+    "separat": ("extraction", "workup"),
+    "acidif": ("extraction", "workup"),
+    "basif": ("extraction", "workup"),
+    "neutrali": ("extraction", "workup"),
+}
+_STEMS_BY_HEAD: dict[str, list[tuple[str, tuple[str, Stage]]]] = {}
+for _stem, _op in _OPERATION_STEMS.items():
+    _STEMS_BY_HEAD.setdefault(_stem[:4], []).append((_stem, _op))
+
+# words that introduce the product: the mention after them is an output, not an input
+_PRODUCT_WORDS = {"give", "gave", "giving", "afford", "afforded", "affording", "provide",
+                  "provided", "providing", "furnish", "furnished", "furnishing", "yielded",
+                  "yielding", "obtained", "leaving", "left"}  # fmt: skip
+_CHAR_HINTS = ("NMR", "δ", "m/z", "HRMS", "LRMS", "ESI", "IR", "cm", "mp", "m.p", "Rf", "RF",
+               "b.p", "bp", "[α]")  # fmt: skip
 _CHARACTERISATION = re.compile(
     r"\b(1H|13C|19F|31P|11B)\s*NMR\b|\bNMR\s*\(|δ|\bm/z\b|\bHRMS\b|\bLRMS\b|\bESI\b|^\s*IR\b|"
     r"cm[-−]1|\bm\.?p\.?\s*\d|\bmp\b|\bR[fF]\s*[=\d(]|\bb\.?p\.?\s*\d|\[α\]",
@@ -72,41 +92,47 @@ _ABBREVIATIONS = {"sat.", "satd.", "aq.", "ca.", "approx.", "conc.", "dil.", "e.
                   "b.p.", "rt.", "st.", "approx", "ca", "et al.", "al."}  # fmt: skip
 # a bracket group, allowing one level of nested brackets inside
 _GROUP = re.compile(r"\(((?:[^()]|\([^()]*\))*)\)")
-_BOUNDARY = re.compile(
-    r"(?:^|[;:]\s|,\s|\s(?:with|in|over|of|and|to|from|using|by|into|onto|added|then|was|were|"
-    r"is|are|through|on|at|for|containing|followed|via|after|before|under|as|or|plus|while|"
-    r"whereupon|which|that|dropwise|portionwise|slowly|treated|charged|eluting|eluted|"
-    r"afforded|gave)\s)",
-    re.I,
-)
+_WORD = re.compile(r"\S+")
+# a name ends at the word after one of these (or after a word ending in , ; :)
+_BOUNDARY_WORDS = {"with", "in", "over", "of", "and", "to", "from", "using", "by", "into", "onto",
+                   "added", "then", "was", "were", "is", "are", "through", "on", "at", "for",
+                   "containing", "followed", "via", "after", "before", "under", "as", "or",
+                   "plus", "while", "whereupon", "which", "that", "dropwise", "portionwise",
+                   "slowly", "treated", "charged", "eluting", "eluted", "afforded", "gave",
+                   "between", "washing", "rinsing", "quenched", "diluted", "extracted", "washed",
+                   "rinsed", "dissolved", "suspended", "stirred", "heated", "cooled",
+                   "recrystallised", "recrystallized", "triturated", "flushed", "poured",
+                   "loaded", "passed", "filtered", "dried", "purified", "including", "namely",
+                   "also"}  # fmt: skip
 _LEADING = re.compile(
-    r"^(?:a|an|the|then|next|finally|additional|more|fresh|further|dry|anhydrous|"
+    r"^(?:a|an|the|to|then|next|finally|additional|more|fresh|further|dry|anhydrous|"
     r"freshly\s+distilled|degassed|distilled|cold|ice-cold|hot|warm|chilled|solid|neat|"
-    r"another|excess|aqueous\s+layer\s+with|portions?\s+of)\s+",
+    r"another|excess|wet|little|small\s+amount\s+of|catalyst|reagent|ligand|"
+    r"portions?\s+of)\s+",
     re.I,
 )
 # a name with one of these words is never an input: equipment, intermediates, outputs
-_NOT_MATERIAL = re.compile(
-    r"\b(vials?|flasks?|tubes?|schlenk|beakers?|funnels?|syringes?|cylinders?|vessels?|"
-    r"reactors?|bottles?|ampoules?|jars?|cartridges?|crude|residue|filtrates?|layers?|"
-    r"phases?|extracts?|combined|aliquots?|samples?|bath|condenser|concentrate|eluate|"
-    r"fractions?|mother liquors?|supernatant|product|compound|total|volume|yield|sealed|"
-    r"oven-dried|flame-dried|dried|portions?)\b",
-    re.I,
-)
+_NOT_MATERIAL = {"vial", "vials", "flask", "flasks", "tube", "tubes", "schlenk", "beaker",
+                 "beakers", "funnel", "funnels", "syringe", "syringes", "cylinder", "cylinders",
+                 "vessel", "vessels", "reactor", "reactors", "bottle", "bottles", "ampoule",
+                 "ampoules", "jar", "jars", "cartridge", "cartridges", "crude", "residue",
+                 "filtrate", "filtrates", "layer", "layers", "phase", "phases", "extract",
+                 "extracts", "combined", "aliquot", "aliquots", "sample", "samples", "bath",
+                 "condenser", "concentrate", "eluate", "fraction", "fractions", "liquor",
+                 "liquors", "supernatant", "product", "compound", "total", "volume", "yield",
+                 "sealed", "dried", "portion", "portions", "washing", "washings"}  # fmt: skip
 # words that describe a material's form, not which material it is; dropped from names
-_GENERIC = re.compile(
-    r"\b(mixture|solution|suspension|slurry|solid|(?<!mineral )(?<!silicone )(?<!paraffin )oil|"
-    r"foam|gum|material|precipitate|reaction|"
-    r"batch|white|yellow|colou?rless|pale|brown|orange|red|off-white|clear|viscous|beige|"
-    r"light|dark|green|amorphous|crystalline|powder|resulting|above|this|that|it)\b",
-    re.I,
-)
+_GENERIC = {"mixture", "solution", "suspension", "slurry", "solid", "oil", "foam", "gum",
+            "material", "precipitate", "reaction", "batch", "white", "yellow", "colourless",
+            "colorless", "pale", "brown", "orange", "red", "off-white", "clear", "viscous",
+            "beige", "light", "dark", "green", "amorphous", "crystalline", "powder", "resulting",
+            "above", "this", "that", "it"}  # fmt: skip
+_OIL_KEEPERS = {"mineral", "silicone", "paraffin"}
 _OPERATION_NAMES = re.compile(
-    r"^(?:flash\s+)?(?:column\s+)?(?:chromatography|chromatographed|column|purified|purification|"
-    r"filtered|filtration|dried|drying|washed|washing|extracted|extraction|recrystallised|"
-    r"recrystallized|triturated|distilled|eluted|elution|eluent|concentrated|stirred|added|"
-    r"treated|quenched|plug|pad|purified\s+by\s+flash\s+chromatography)$",
+    r"^(?:[\w-]+\s+)*chromatography$|^(?:flash\s+)?(?:column\s+)?(?:chromatography|"
+    r"chromatographed|column|purified|purification|filtered|filtration|dried|drying|washed|"
+    r"washing|extracted|extraction|recrystallised|recrystallized|triturated|distilled|eluted|"
+    r"elution|eluent|concentrated|stirred|added|treated|quenched|plug|pad)$",
     re.I,
 )
 _SOLUTION_PART = re.compile(
@@ -117,6 +143,10 @@ _FRACTION_PART = re.compile(
     r"solution\s+)?in\s+(?P<solv>.+)$",
     re.I,
 )
+_LETTER = re.compile(r"[A-Za-z]")
+_NUMBERED = re.compile(r"\d+\.")
+_PART_SEP = re.compile(r";|,(?=\s)")
+_BARE_NUMBERS = re.compile(r"[\d.,:\s]+")
 _PERCENT_ONLY = re.compile(r"^[<>~≈]?\s*\d+(?:[.,]\d+)?\s*%(?:\s*\w+)?$")
 _NAME_TOKEN = r"[A-Za-z0-9(\[][\w\-'·,()\[\]]*"
 _RATIO = r"\d+(?:\.\d+)?(?:\s*:\s*\d+(?:\.\d+)?)+"
@@ -134,20 +164,37 @@ _AQUEOUS_SOLUTION = re.compile(
     r"^(?:\d+(?:\.\d+)?\s*(?:M|N)\s+\S|\d+(?:\.\d+)?\s*%\s*(?:aq\.?|aqueous)\s+\S|"
     r"(?:sat\.?|saturated)\s+(?:aq\.?|aqueous)\s+\S|(?:aq\.?|aqueous)\s+\S)"
 )
+_PUNCT = "()[]{},;:.!?\"'"
 
 
-def _operation(sentence: str, pos: int) -> tuple[str, Stage]:
-    """The operation of a mention at ``pos``: the nearest keyword before it, else after it."""
-    before: tuple[int, str, Stage] | None = None
-    after: tuple[int, str, Stage] | None = None
-    for rx, op, stage in _OP_RES:
-        for m in rx.finditer(sentence):
-            if m.start() < pos and (before is None or m.start() > before[0]):
-                before = (m.start(), op, stage)
-            elif m.start() >= pos and (after is None or m.start() < after[0]):
-                after = (m.start(), op, stage)
-    hit = before or after
-    return (hit[1], hit[2]) if hit else ("reaction", "reaction")
+class _Sentence:
+    """One sentence cut into words once: operation words and the product word found."""
+
+    def __init__(self, text: str) -> None:
+        self.text = text
+        self.operations: list[tuple[int, str, Stage]] = []
+        self.product_at: int | None = None
+        for m in _WORD.finditer(text):
+            word = m.group(0).strip(_PUNCT).lower()
+            if self.product_at is None and word in _PRODUCT_WORDS:
+                self.product_at = m.start()
+            for stem, op in _STEMS_BY_HEAD.get(word[:4], ()):
+                if word.startswith(stem):
+                    self.operations.append((m.start(), *op))
+                    break
+
+    def operation(self, pos: int) -> tuple[str, Stage]:
+        """The operation of a mention at ``pos``: the nearest word before it, else after it."""
+        hit = None
+        for op in self.operations:
+            if op[0] < pos:
+                hit = op
+            elif hit is None:
+                hit = op
+                break
+            else:
+                break
+        return (hit[1], hit[2]) if hit else ("reaction", "reaction")
 
 
 def _clean_name(name: str) -> str | None:
@@ -158,43 +205,78 @@ def _clean_name(name: str) -> str | None:
             break
         name = stripped
     name = name.strip(" ,;:")
-    if not name or len(name) > 80 or len(name.split()) > 6 or not re.search(r"[A-Za-z]", name):
+    if not name or len(name) > 80 or not _LETTER.search(name):
         return None
-    if _OPERATION_NAMES.match(name) or _NOT_MATERIAL.search(name):
+    words = name.split()
+    if len(words) > 6:
         return None
-    if _GENERIC.search(name):
-        name = " ".join(_GENERIC.sub(" ", name).split())
-        name = _LEADING.sub("", name + " ").strip() if name else name
-        if not name or name.casefold() in {"a", "an", "the", "of", "aqueous", "organic"}:
+    lowered = [w.strip(_PUNCT).lower() for w in words]
+    parts = {p for w in lowered for p in w.split("-")}
+    if parts & _NOT_MATERIAL or _OPERATION_NAMES.match(name):
+        return None
+    if parts & _GENERIC:
+        kept = [
+            w
+            for i, (w, low) in enumerate(zip(words, lowered, strict=True))
+            if low not in _GENERIC or (low == "oil" and i and lowered[i - 1] in _OIL_KEEPERS)
+        ]
+        name = _LEADING.sub("", " ".join(kept) + " ").strip()
+        if not name or name.lower() in {"a", "an", "the", "of", "aqueous", "organic"}:
             return None
     if name.endswith(" of"):
         return None
     return name
 
 
+_MAX_NAME_WORDS = 6
+
+
 def _name_before(text: str) -> str | None:
-    """The material name that ends where ``text`` ends, or None."""
-    last = 0
-    for m in _BOUNDARY.finditer(text):
-        last = m.end()
-    return _clean_name(text[last:])
+    """The material name that ends where ``text`` ends, or None.
+
+    Walks back word by word to the nearest boundary: a boundary word (with, in, over, …)
+    or a word that ends in a comma, semicolon or colon.
+    """
+    words = text[-200:].split()
+    if len(text) > 200 and words:
+        words = words[1:]  # the first word may be cut
+    start = 0
+    for i in range(len(words) - 1, -1, -1):
+        w = words[i]
+        if w.lower() in _BOUNDARY_WORDS:
+            start = i + 1
+            break
+        if w[-1] in ",;:":
+            start = i + 1
+            break
+        if len(words) - i > _MAX_NAME_WORDS + 2:
+            return None  # no boundary in reach: not a name
+    else:
+        if len(text) > 200:
+            return None
+    return _clean_name(" ".join(words[start:]))
 
 
 def _mixture_before(text: str) -> tuple[str, list[tuple[str, float]]] | None:
     """A mixture named at the end of ``text``: (as written, [(component, volume fraction)])."""
-    m = _MIX_PERCENT.search(text)
+    text = text[-120:]
+    if "%" not in text and "/" not in text:
+        return None
+    m = _MIX_PERCENT.search(text) if "%" in text else None
     if m:
         p = float(m.group("p")) / 100
         if 0 < p < 1:
             a, b = _clean_name(m.group("a")), _clean_name(m.group("b"))
             if a and b:
                 return m.group(0).strip(), [(a, p), (b, 1 - p)]
+    if "/" not in text:
+        return None
     for rx in (_MIX_SLASH_RATIO, _MIX_RATIO_SLASH):
         m = rx.search(text)
         if not m:
             continue
         names = [n.strip() for n in m.group("names").split("/")]
-        ratio = [float(x) for x in re.split(r"\s*:\s*", m.group("r"))]
+        ratio = [float(x) for x in m.group("r").replace(" ", "").split(":")]
         if len(names) != len(ratio) or sum(ratio) <= 0:
             continue
         cleaned = [_clean_name(n) for n in names]
@@ -209,9 +291,9 @@ def _sentences(body: str) -> list[tuple[int, str]]:
     for m in _SENTENCE_END.finditer(body):
         before = body[start : m.start()]
         words = before.split()
-        last_word = words[-1].casefold() if words else ""
+        last_word = words[-1].casefold().lstrip("([") if words else ""
         if "\n\n" not in m.group(0) and (
-            last_word in _ABBREVIATIONS or re.fullmatch(r"\d+\.", last_word)
+            last_word in _ABBREVIATIONS or _NUMBERED.fullmatch(last_word)
         ):
             continue
         out.append((start, before))
@@ -224,7 +306,7 @@ def _parts(content: str, offset: int) -> list[tuple[str, int]]:
     """Split bracket content at ';' and ', ' (a comma with a space), keeping offsets."""
     out = []
     pos = 0
-    for m in re.finditer(r";|,(?=\s)", content + ";"):
+    for m in _PART_SEP.finditer(content + ";"):
         piece = content[pos : m.start()]
         lead = len(piece) - len(piece.lstrip())
         if piece.strip():
@@ -267,7 +349,7 @@ def _read_group(content: str, offset: int, name: str | None, mixture) -> list[_G
             groups[-1].solvent = _clean_name(m.group("solv"))
             groups[-1].texts.append(part)
             continue
-        if _PERCENT_ONLY.match(norm) or re.fullmatch(r"[\d.,:\s]+", norm):
+        if _PERCENT_ONLY.match(norm) or _BARE_NUMBERS.fullmatch(norm):
             continue  # a yield, a purity or a bare ratio
         mix = _mixture_before(norm)
         if mix is not None:
@@ -278,8 +360,9 @@ def _read_group(content: str, offset: int, name: str | None, mixture) -> list[_G
             continue
         if groups[-1].name is None and not groups[-1].amounts:
             groups[-1].name = cleaned  # "(Na2SO4, 5 g)" after "dried"
-        else:
-            groups.append(_Group(cleaned))
+        elif groups[-1].amounts:
+            groups.append(_Group(cleaned))  # "(SiO2, 35 g; DCM, 250 mL)": the next material
+        # else a description of the material before the bracket: "Carbon dioxide (dry ice, …)"
     return [g for g in groups if g.amounts and g.name]
 
 
@@ -335,16 +418,20 @@ def _lines_for(group: _Group, operation: str, stage: Stage, evidence: str) -> li
 def extract(body: str) -> list[MaterialLine]:
     """Every material with an amount in ``body``; the product comes back with role 'product'."""
     lines: list[MaterialLine] = []
-    for start, sentence in _sentences(body):
-        if sentence.lstrip().startswith("|") or _CHARACTERISATION.search(sentence):
-            continue  # a table row (read by the readers) or characterisation data
-        product_at = _PRODUCT_WORDS.search(sentence)
+    for start, text in _sentences(body):
+        if "(" not in text or text.lstrip().startswith("|"):
+            continue  # nothing in brackets, or a table row (read by the readers)
+        if any(h in text for h in _CHAR_HINTS) and _CHARACTERISATION.search(text):
+            continue  # characterisation data
+        sentence = _Sentence(text)
         product_taken = False
-        for m in _GROUP.finditer(sentence):
+        for m in _GROUP.finditer(text):
             content = m.group(1)
-            before = sentence[: m.start()]
-            evidence = " ".join(sentence.split())[:300]
-            if product_at and m.start() > product_at.start():
+            if not any(c.isdigit() for c in content):
+                continue
+            before = text[: m.start()]
+            evidence = " ".join(text.split())[:300]
+            if sentence.product_at is not None and m.start() > sentence.product_at:
                 if product_taken:
                     continue
                 mass = _first_mass(content, start + m.start(1))
@@ -352,7 +439,7 @@ def extract(body: str) -> list[MaterialLine]:
                     product_taken = True
                     lines.append(
                         MaterialLine(
-                            name=_name_before(before[product_at.end() :]) or "product",
+                            name=_name_before(before[sentence.product_at :]) or "product",
                             role="product",
                             stated=mass.text,
                             amounts=[mass],
@@ -363,7 +450,7 @@ def extract(body: str) -> list[MaterialLine]:
                 continue
             mixture = _mixture_before(before)
             name = mixture[0] if mixture else _name_before(before)
-            operation, stage = _operation(sentence, m.start())
+            operation, stage = sentence.operation(m.start())
             for group in _read_group(content, start + m.start(1), name, mixture):
                 lines.extend(_lines_for(group, operation, stage, evidence))
     return lines
