@@ -370,7 +370,12 @@ class Notebook:
         )
 
     def _solvent_proxy(self, line: MaterialLine, info: MaterialInfo | None) -> MaterialInfo | None:
-        """A solution whose own density is unknown is weighed with its solvent's density."""
+        """A solution is weighed with its own density where known, else with its solvent's."""
+        conc = next((a for a in line.amounts if a.kind == "concentration"), None)
+        if conc is not None:
+            own = self.resolve(f"{line.name} {conc.value:g} M in {line.solvent}")
+            if own is not None and own.density_g_ml:
+                return own
         solvent = self.resolve(line.solvent or "")
         if solvent is None or not solvent.density_g_ml:
             return info

@@ -138,8 +138,18 @@ def _number(raw: str, whole: str) -> float:
     return float(raw)
 
 
+_PLAIN = re.compile(r"(\d+(?:\.\d+)?) ?([A-Za-z]+\.?)")
+
+
 def parse_amount(text: str, span: tuple[int, int] | None = None) -> AmountMention:
     """Parse one amount such as ``3.12 g``, ``ca. 5 g``, ``3 × 40 mL`` or ``10–15 mL``."""
+    m = _PLAIN.fullmatch(text)
+    if m and m.group(2) in _UNITS:
+        # the common case, "2.76 g": plain ASCII, nothing to normalise or strip
+        pint_unit, kind = _UNITS[m.group(2)]
+        value = float(m.group(1)) * _factor(pint_unit, kind)
+        if value > 0:
+            return AmountMention(value=value, unit=CANONICAL[kind], kind=kind, text=text, span=span)
     original = text
     s = normalise(text)
     if not s:

@@ -32,6 +32,7 @@ The extractor works sentence by sentence, in this order:
 from __future__ import annotations
 
 import contextlib
+import functools
 import re
 
 from capture.config import LabConfig
@@ -70,9 +71,6 @@ _OPERATION_STEMS: dict[str, tuple[str, Stage]] = {
     "basif": ("extraction", "workup"),
     "neutrali": ("extraction", "workup"),
 }
-_STEMS_BY_HEAD: dict[str, list[tuple[str, tuple[str, Stage]]]] = {}
-for _stem, _op in _OPERATION_STEMS.items():
-    _STEMS_BY_HEAD.setdefault(_stem[:4], []).append((_stem, _op))
 
 # words that introduce the product: the mention after them is an output, not an input
 _PRODUCT_WORDS = {"give", "gave", "giving", "afford", "afforded", "affording", "provide",
@@ -80,6 +78,7 @@ _PRODUCT_WORDS = {"give", "gave", "giving", "afford", "afforded", "affording", "
                   "yielding", "obtained", "leaving", "left"}  # fmt: skip
 _CHAR_HINTS = ("NMR", "δ", "m/z", "HRMS", "LRMS", "ESI", "IR", "cm", "mp", "m.p", "Rf", "RF",
                "b.p", "bp", "[α]")  # fmt: skip
+_CHAR_HINT = re.compile("|".join(map(re.escape, _CHAR_HINTS)))
 _CHARACTERISATION = re.compile(
     r"\b(1H|13C|19F|31P|11B)\s*NMR\b|\bNMR\s*\(|δ|\bm/z\b|\bHRMS\b|\bLRMS\b|\bESI\b|^\s*IR\b|"
     r"cm[-−]1|\bm\.?p\.?\s*\d|\bmp\b|\bR[fF]\s*[=\d(]|\bb\.?p\.?\s*\d|\[α\]",
@@ -144,6 +143,9 @@ _FRACTION_PART = re.compile(
     re.I,
 )
 _LETTER = re.compile(r"[A-Za-z]")
+_DIGIT = re.compile(r"\d")
+# what an amount can start with: a digit, a qualifier (ca., approx., ~, ≈) or a decimal point
+_AMOUNT_START = re.compile(r"[\d.,~≈∼<>]|(?:ca|c\.|approx|about|circa)", re.I)
 _NUMBERED = re.compile(r"\d+\.")
 _PART_SEP = re.compile(r";|,(?=\s)")
 _BARE_NUMBERS = re.compile(r"[\d.,:\s]+")
@@ -167,21 +169,28 @@ _AQUEOUS_SOLUTION = re.compile(
 _PUNCT = "()[]{},;:.!?\"'"
 
 
+# one regular expression over the lower-cased sentence finds the operation and product words
+_KEYWORDS = re.compile(
+    r"(?<![\w-])(?:(?P<op>" + "|".join(sorted(_OPERATION_STEMS, key=len, reverse=True)) + r")"
+    r"|(?P<product>" + "|".join(sorted(_PRODUCT_WORDS, key=len, reverse=True)) + r")(?!\w))"
+)
+
+
 class _Sentence:
-    """One sentence cut into words once: operation words and the product word found."""
+    """One sentence read once: where its operation words and its product word are."""
 
     def __init__(self, text: str) -> None:
         self.text = text
+        self.evidence = " ".join(text.split())[:300]
         self.operations: list[tuple[int, str, Stage]] = []
         self.product_at: int | None = None
-        for m in _WORD.finditer(text):
-            word = m.group(0).strip(_PUNCT).lower()
-            if self.product_at is None and word in _PRODUCT_WORDS:
-                self.product_at = m.start()
-            for stem, op in _STEMS_BY_HEAD.get(word[:4], ()):
-                if word.startswith(stem):
-                    self.operations.append((m.start(), *op))
-                    break
+        self.product_end = 0
+        for m in _KEYWORDS.finditer(text.lower()):
+            stem = m.group("op")
+            if stem is not None:
+                self.operations.append((m.start(), *_OPERATION_STEMS[stem]))
+            elif self.product_at is None:
+                self.product_at, self.product_end = m.start(), m.end()
 
     def operation(self, pos: int) -> tuple[str, Stage]:
         """The operation of a mention at ``pos``: the nearest word before it, else after it."""
@@ -197,7 +206,9 @@ class _Sentence:
         return (hit[1], hit[2]) if hit else ("reaction", "reaction")
 
 
+@functools.lru_cache(maxsize=8192)
 def _clean_name(name: str) -> str | None:
+    """The material name in ``name``, without grades and descriptions; None if it is none."""
     name = name.strip(" ,;:")
     while True:
         stripped = _LEADING.sub("", name)
@@ -330,12 +341,13 @@ def _read_group(content: str, offset: int, name: str | None, mixture) -> list[_G
     groups = [_Group(name, mixture)]
     for part, start in _parts(content, offset):
         span = (start, start + len(part))
-        try:
-            groups[-1].amounts.append(parse_amount(part, span))
-            groups[-1].texts.append(part)
-            continue
-        except AmountError:
-            pass
+        if _AMOUNT_START.match(part):
+            try:
+                groups[-1].amounts.append(parse_amount(part, span))
+                groups[-1].texts.append(part)
+                continue
+            except AmountError:
+                pass
         norm = normalise(part)
         m = _SOLUTION_PART.match(norm)
         if m:
@@ -421,16 +433,16 @@ def extract(body: str) -> list[MaterialLine]:
     for start, text in _sentences(body):
         if "(" not in text or text.lstrip().startswith("|"):
             continue  # nothing in brackets, or a table row (read by the readers)
-        if any(h in text for h in _CHAR_HINTS) and _CHARACTERISATION.search(text):
+        if _CHAR_HINT.search(text) and _CHARACTERISATION.search(text):
             continue  # characterisation data
         sentence = _Sentence(text)
         product_taken = False
         for m in _GROUP.finditer(text):
             content = m.group(1)
-            if not any(c.isdigit() for c in content):
+            if not _DIGIT.search(content):
                 continue
             before = text[: m.start()]
-            evidence = " ".join(text.split())[:300]
+            evidence = sentence.evidence
             if sentence.product_at is not None and m.start() > sentence.product_at:
                 if product_taken:
                     continue
@@ -439,7 +451,7 @@ def extract(body: str) -> list[MaterialLine]:
                     product_taken = True
                     lines.append(
                         MaterialLine(
-                            name=_name_before(before[sentence.product_at :]) or "product",
+                            name=_name_before(before[sentence.product_end :]) or "product",
                             role="product",
                             stated=mass.text,
                             amounts=[mass],

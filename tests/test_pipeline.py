@@ -261,3 +261,111 @@ def test_a_link_out_of_the_notebook_is_refused_not_followed(notebook, tmp_path):
     assert by_path["linked.md"].status == "error"
     assert "not a regular file" in by_path["linked.md"].error.message
     assert outside.read_text() == GOOD
+
+
+# ---------------------------------------------------------------- prose and structure together
+def test_product_mass_from_the_text_when_the_front_matter_has_none(notebook):
+    notebook.write(
+        "e.md",
+        entry_md(
+            "product: {name: amide}",
+            "The acid (2.00 g) was stirred in DCM (10 mL). Evaporation gave the amide (1.50 g, 88%).",
+        ),
+    )
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    assert side["product"]["mass_g"] == 1.5
+    assert side["product"]["basis"].startswith("1.50 g as reported in the text")
+    assert [m["name"] for m in side["materials"]] == ["acid", "DCM"]  # the product is no input
+    assert side["metrics"]["e_factor"] == pytest.approx((2.0 + 10 * 1.3266 - 1.5) / 1.5, abs=1e-4)
+
+
+def test_conflicting_product_mass_is_a_minor_gap_and_the_front_matter_wins(notebook):
+    notebook.write(
+        "e.md",
+        entry_md(
+            "product: {name: amide, mass: 1.45 g}",
+            "The acid (2.00 g) was used. Evaporation gave the amide (1.50 g, 88%).",
+        ),
+    )
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    assert side["product"]["mass_g"] == 1.45
+    (gap,) = [g for g in side["gaps"] if g["kind"] == "conflicting_product_mass"]
+    assert gap["severity"] == "minor" and "1.45 g" in gap["message"] and "1.50 g" in gap["message"]
+
+
+def test_conflicting_amounts_at_one_step_count_once(notebook):
+    notebook.write(
+        "e.md",
+        entry_md(
+            """
+        product: {name: p, mass: 1 g}
+        materials: [{name: THF, amount: 20 mL, role: solvent}]
+        """,
+            "The ketone (2.0 g) was dissolved in THF (25 mL).",
+        ),
+    )
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    thf = [m for m in side["materials"] if m["resolved"] == "tetrahydrofuran"]
+    assert [(m["origin"], m["stated"]) for m in thf] == [("front-matter", "20 mL")]
+    (gap,) = [g for g in side["gaps"] if g["kind"] == "conflicting_amounts"]
+    assert "'20 mL'" in gap["message"] and "'25 mL'" in gap["message"]
+
+
+def test_solutions_and_mixtures_are_weighed_with_their_basis(notebook):
+    notebook.write(
+        "e.md",
+        entry_md(
+            "product: {name: p, mass: 1 g}",
+            """
+        3-Bromoanisole (1.87 g, 10.0 mmol) in THF (20 mL) was treated with i-PrMgCl
+        (2.0 M in 2-MeTHF, 5.5 mL, 11 mmol). The residue was purified by flash
+        chromatography (SiO2, 40 g; 20% acetone in heptane, 500 mL).
+        """,
+        ),
+    )
+    notebook.scan()
+    mats = {m["name"]: m for m in notebook.sidecar("e.md")["materials"]}
+    # i-PrMgCl solution: no density of its own in the data → the solvent's (2-MeTHF, 0.854)
+    grignard = mats["i-PrMgCl"]
+    assert grignard["mass_g"] == pytest.approx(5.5 * 0.854, abs=1e-4)
+    assert "density of the solvent, 2-methyltetrahydrofuran" in grignard["basis"]
+    assert grignard["moles_mmol"] == 11.0
+    # 20% acetone in heptane (500 mL): 100 mL acetone × 0.7899 + 400 mL heptane × 0.684
+    assert mats["acetone"]["mass_g"] == pytest.approx(100 * 0.7899, abs=1e-3)
+    assert mats["heptane"]["mass_g"] == pytest.approx(400 * 0.684, abs=1e-3)
+    assert "ideal mixing assumed" in mats["heptane"]["basis"]
+    assert mats["SiO2"]["stage"] == "purification" and mats["SiO2"]["mass_g"] == 40
+
+
+def test_equivalents_in_prose_use_the_first_substrate_in_mmol(notebook):
+    notebook.write(
+        "e.md",
+        entry_md(
+            "product: {name: p, mass: 1 g}",
+            """
+        The amine (10.0 mmol) in DCM (20 mL) was treated with Et3N (1.5 equiv).
+        """,
+        ),
+    )
+    notebook.scan()
+    mats = {m["name"]: m for m in notebook.sidecar("e.md")["materials"]}
+    # 1.5 × 10.0 mmol × 101.19 g/mol (triethylamine, IUPAC weights)
+    assert mats["Et3N"]["mass_g"] == pytest.approx(1.5 * 10 * 101.193 / 1000, rel=1e-4)
+    assert "(amine, limiting)" in mats["Et3N"]["basis"]
+
+
+def test_a_known_commercial_solution_uses_its_own_density(notebook):
+    notebook.write(
+        "e.md",
+        entry_md(
+            "product: {name: p, mass: 1 g}", "n-BuLi (2.5 M in hexanes, 8.8 mL, 22 mmol) was added."
+        ),
+    )
+    notebook.scan()
+    (line,) = notebook.sidecar("e.md")["materials"]
+    # 0.693 g/mL: supplier value for 2.5 M n-BuLi in hexanes (FIELD.md, from memory)
+    assert line["mass_g"] == pytest.approx(8.8 * 0.693, abs=1e-4)
+    assert "n-BuLi 2.5 M in hexanes" in line["basis"] and line["moles_mmol"] == 22.0

@@ -67,7 +67,9 @@ def _close(a: Mention, b: Mention, with_name: bool) -> bool:
     return same_amount and (not with_name or a[0] == b[0])
 
 
-def _matches(got: list[Mention], want: list[Mention], with_name: bool) -> list[tuple[Mention, Mention]]:
+def _matches(
+    got: list[Mention], want: list[Mention], with_name: bool
+) -> list[tuple[Mention, Mention]]:
     pairs, left = [], list(want)
     for g in got:
         for w in left:
@@ -122,7 +124,9 @@ def score(items: list[Item] | None = None) -> Score:
         s.attributed += len(attributed)
         s.operation_right += sum(1 for g, w in attributed if g[4] == w[4])
         if len(attributed) != len(item.expected) or len(got) != len(item.expected):
-            s.misses.append(f"{item.text}\n    want {sorted(item.expected)}\n    got  {sorted(got)}")
+            s.misses.append(
+                f"{item.text}\n    want {sorted(item.expected)}\n    got  {sorted(got)}"
+            )
         else:
             s.misses.extend(
                 f"{item.text}\n    operation: want {w[4]} got {g[4]} for {w[0]}"
