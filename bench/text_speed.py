@@ -107,7 +107,7 @@ def model_floor(lines) -> None:
                 high=a.high,
                 text=a.text,
                 span=a.span,
-            )  # fmt: skip
+            )
             for a in line.amounts
         ]
         MaterialLine(name=line.name, operation=line.operation, stage=line.stage,

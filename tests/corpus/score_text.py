@@ -7,7 +7,6 @@ The tests (tests/test_text_corpus.py) hold the thresholds.
 from __future__ import annotations
 
 import sys
-from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
 
