@@ -29,9 +29,12 @@ def fmt(x: float) -> str:
     return s
 
 
-def _amount_words(a: AmountMention) -> str:
-    """'3 × 40 mL', 'ca. 5 g', '12.5 mL (midpoint of 10–15 mL)'."""
-    plain = a.multiplier == 1 and a.low is None and not a.approximate
+def _amount_words(a: AmountMention, derived: bool = False) -> str:
+    """'3 × 40 mL', 'ca. 5 g', '12.5 mL (midpoint of 10–15 mL)'.
+
+    ``derived``: the value is not the text's (a mixture component's share), so say the value.
+    """
+    plain = a.multiplier == 1 and a.low is None and not a.approximate and not derived
     core = " ".join(a.text.split()) if plain else f"{fmt(a.value)} {a.unit}"
     if a.multiplier > 1:
         core = f"{a.multiplier} × {core}"
@@ -95,7 +98,7 @@ def weigh_line(
                 problem_kind="no_density",
             )
         grams = volume.total * info.density_g_ml
-        basis = f"{_amount_words(volume)} × {_density_words(info)}"
+        basis = f"{_amount_words(volume, bool(line.note))} × {_density_words(info)}"
         if line.note:
             basis += f"; {line.note}"
         return MassAssignment(mass_g=grams, moles_mmol=_moles(line, info, grams), basis=basis)

@@ -416,7 +416,7 @@ def _lines_for(group: _Group, operation: str, stage: Stage, evidence: str) -> li
                 name=comp,
                 operation=operation,
                 stage=stage,
-                stated=stated,
+                stated=f"{written}, {stated}",
                 amounts=scaled,
                 origin="text",
                 evidence=evidence,

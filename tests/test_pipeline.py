@@ -42,7 +42,7 @@ def test_example_notebook_end_to_end(examples):
     }
     report = examples.scan()
     r = _by_id(report)
-    assert len(report.results) == 8 and not report.errors
+    assert len(report.results) == 9 and not report.errors
 
     # FW-0412: every input weighed by hand from the densities in the data file:
     # 1.90 + 1.18 + 2.30 + 1.62 + 40 mL DCM × 1.3266 + 40 mL 1 M HCl × 1.016
@@ -71,6 +71,17 @@ def test_example_notebook_end_to_end(examples):
     pilot = r["ARN7-S2-R03"]
     assert pilot.totals.recovered_g == pytest.approx(4.8 * 1000 * 0.852, abs=0.01)
     assert pilot.metrics.e_factor == pytest.approx((15999.8 - 1270 - 4089.6) / 1270, abs=1e-3)
+
+    # prose only (teaching lab, group 5): every amount and the product mass come from the text.
+    # 1.36 + 1.1 × 10 mmol × 107.156 g/mol benzylamine + 20 mL MeOH × 0.7914 + 0.42 + 15 mL water
+    # × 0.9982 + 60 mL EtOAc × 0.9003 + 20 mL brine × 1.198 + 4 + 50 g SiO2
+    # + 600 mL 5% MeOH in DCM (30 mL × 0.7914 + 570 mL × 1.3266) = 945.64 g; product 1.89 g
+    ra = r["group5-reductive-amination"]
+    assert {m.origin for m in ra.materials} == {"text"}
+    assert ra.product.mass_g == 1.89
+    assert ra.totals.inputs_g == pytest.approx(945.64, abs=0.01)
+    assert ra.metrics.e_factor == pytest.approx((945.64 - 1.89) / 1.89, abs=0.01)
+    assert ra.breakdown.by_stage["purification"] == pytest.approx(50 + 23.742 + 756.162, abs=0.01)
 
     # no product mass: blocking gap, no figures
     boc = r["FW-0427"]
@@ -115,7 +126,7 @@ def test_sidecars_validate_against_the_committed_schema(examples):
     examples.write("broken.md", "no front matter")
     examples.scan()
     sidecars = list(examples.root.rglob("*.waste.json"))
-    assert len(sidecars) == 9
+    assert len(sidecars) == 10
     for path in sidecars:
         jsonschema.validate(json.loads(path.read_text()), schema)
 
