@@ -181,7 +181,7 @@ class _Sentence:
 
     def __init__(self, text: str) -> None:
         self.text = text
-        self.evidence = " ".join(text.split())[:300]
+        self._evidence: str | None = None
         self.operations: list[tuple[int, str, Stage]] = []
         self.product_at: int | None = None
         self.product_end = 0
@@ -191,6 +191,13 @@ class _Sentence:
                 self.operations.append((m.start(), *_OPERATION_STEMS[stem]))
             elif self.product_at is None:
                 self.product_at, self.product_end = m.start(), m.end()
+
+    @property
+    def evidence(self) -> str:
+        """The sentence with its white space folded, as evidence for its mentions."""
+        if self._evidence is None:
+            self._evidence = " ".join(self.text.split())[:300]
+        return self._evidence
 
     def operation(self, pos: int) -> tuple[str, Stage]:
         """The operation of a mention at ``pos``: the nearest word before it, else after it."""
@@ -337,7 +344,31 @@ class _Group:
         self.texts: list[str] = []
 
 
+_PLAIN_AMOUNT = re.compile(r"(\d+(?:\.\d+)?) ?([A-Za-z]+)(?:[,;] |$)")
+
+
+def _plain_group(content: str, offset: int, name: str) -> _Group | None:
+    """The commonest bracket, "(2.76 g, 20.0 mmol)": plain amounts only, read in one pass."""
+    group = _Group(name)
+    pos = 0
+    for m in _PLAIN_AMOUNT.finditer(content):
+        if m.start() != pos:
+            return None
+        text = content[m.start(1) : m.end(2)]
+        try:
+            group.amounts.append(parse_amount(text, (offset + m.start(1), offset + m.end(2))))
+        except AmountError:
+            return None
+        group.texts.append(text)
+        pos = m.end()
+    return group if pos == len(content) and group.amounts else None
+
+
 def _read_group(content: str, offset: int, name: str | None, mixture) -> list[_Group]:
+    if name is not None and mixture is None:
+        plain = _plain_group(content, offset, name)
+        if plain is not None:
+            return [plain]
     groups = [_Group(name, mixture)]
     for part, start in _parts(content, offset):
         span = (start, start + len(part))
