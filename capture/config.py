@@ -51,6 +51,42 @@ class ScanSettings(_Section):
     max_entry_mb: float = Field(5.0, gt=0, description="entries larger than this are not read")
 
 
+class GapSettings(_Section):
+    major_fraction: float = Field(
+        0.05,
+        gt=0,
+        lt=1,
+        description="a gap is major when its allowance exceeds this fraction of the recorded waste",
+    )
+    aspirator_water: bool = Field(True, description="flag water used by water aspirators")
+
+
+class AllowanceSettings(_Section):
+    """Overrides for the allowance table (plugins/data/allowances.toml); None keeps the default."""
+
+    filter_paper_diameter_mm: float | None = Field(None, gt=0)
+    filter_paper_grammage_g_m2: float | None = Field(None, gt=0)
+    cotton_plug_g: float | None = Field(None, ge=0)
+    syringe_filter_g: float | None = Field(None, ge=0)
+    filter_pad_g: float | None = Field(None, ge=0)
+    pad_rinse_ml: float | None = Field(None, ge=0)
+    drying_agent_g_per_100_ml: float | None = Field(None, ge=0)
+    organic_phase_ml: float | None = Field(None, gt=0)
+    liquid_ml: float | None = Field(None, gt=0)
+    silica_g_per_g_crude: float | None = Field(None, gt=0)
+    eluent_ml_per_g_silica: float | None = Field(None, gt=0)
+    eluent_density_g_ml: float | None = Field(None, gt=0)
+    recrystallisation_ml_per_g: float | None = Field(None, gt=0)
+    aspirator_l_per_min: float | None = Field(None, ge=0)
+    aspirator_minutes: float | None = Field(None, ge=0)
+    drop_ml: float | None = Field(None, gt=0)
+    spatula_tip_g: float | None = Field(None, gt=0)
+    crystal_g: float | None = Field(None, gt=0)
+    catalytic_amount_g: float | None = Field(None, gt=0)
+    assumed_density_g_ml: float | None = Field(None, gt=0)
+    assumed_molar_mass_g_mol: float | None = Field(None, gt=0)
+
+
 class PluginSettings(_Section):
     block: list[str] = Field(default_factory=list, description="plugin names not to load")
 
@@ -66,6 +102,8 @@ class LabConfig(_Section):
     output: OutputSettings = Field(default_factory=OutputSettings)
     scan: ScanSettings = Field(default_factory=ScanSettings)
     plugins: PluginSettings = Field(default_factory=PluginSettings)
+    gaps: GapSettings = Field(default_factory=GapSettings)
+    allowances: AllowanceSettings = Field(default_factory=AllowanceSettings)
     source: str | None = Field(None, exclude=True, description="the file this was read from")
 
 

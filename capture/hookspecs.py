@@ -15,6 +15,7 @@ g/mL, molar masses in g/mol.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -31,6 +32,7 @@ if TYPE_CHECKING:
         MaterialLine,
         MetricsReport,
         ProductOut,
+        RecordCheck,
         Result,
     )
 
@@ -143,6 +145,30 @@ def masstrail_assign_mass(
 
 
 @hookspec
+def masstrail_check_records(
+    entry: Entry,
+    materials: list[MaterialLine],
+    product: ProductOut,
+    resolve: Callable[[str], MaterialInfo | None],
+    config: LabConfig,
+) -> list[RecordCheck]:
+    """Find the operations in an entry that consume material, and check their records.
+
+    Called once per entry, after every material has a mass or a problem, before
+    ``masstrail_find_gaps``. Each check says whether the record the operation
+    needs (drying agent mass, wash volume, filter paper, …) is anywhere in the
+    entry; an unrecorded one carries its gap, with an allowance.
+
+    :param entry: the entry, with ``body`` holding the procedure text.
+    :param materials: its material lines, weighed.
+    :param product: the product with its mass.
+    :param resolve: the material knowledge (name → properties, or None).
+    :param config: the lab configuration (``[gaps]`` and ``[allowances]``).
+    :returns: the checks, recorded or not; all answers are combined.
+    """
+
+
+@hookspec
 def masstrail_find_gaps(
     entry: Entry, materials: list[MaterialLine], product: ProductOut, config: LabConfig
 ) -> list[Gap]:
@@ -156,6 +182,29 @@ def masstrail_find_gaps(
     :param config: the lab configuration.
     :returns: gaps, each with a severity and an actionable message; all
         answers are combined.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_grade_gaps(
+    entry: Entry,
+    gaps: list[Gap],
+    materials: list[MaterialLine],
+    product: ProductOut,
+    config: LabConfig,
+) -> list[Gap] | None:
+    """Give every gap its severity, from the estimate of the missing mass.
+
+    Called once per entry, after all gaps (from checks and rules) are known.
+
+    :param entry: the entry.
+    :param gaps: every gap found, with allowances in g where they could be estimated.
+    :param materials: its material lines, weighed.
+    :param product: the product with its mass.
+    :param config: the lab configuration (``[gaps] major_fraction``).
+    :returns: the gaps with their final severity, or None to keep them as they are.
+
+    Stops at first non-None result.
     """
 
 

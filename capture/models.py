@@ -245,6 +245,23 @@ class Gap(_Model):
     allowance_g: float | None = Field(
         None, description="estimated mass of the missing record, in g (assumed, not recorded)"
     )
+    allowance_basis: str | None = Field(None, description="how allowance_g was estimated")
+    in_estimate: bool = Field(
+        True, description="whether allowance_g is added to e_factor_estimated and completeness"
+    )
+
+
+class RecordCheck(_Model):
+    """One operation found in the entry and whether the record it needs is there."""
+
+    operation: str = Field(description="filtration, drying, wash, chromatography, …")
+    needs: str = Field(description="the record the operation needs, e.g. 'drying agent mass'")
+    item: str = Field(description="the material or consumable concerned")
+    recorded: bool
+    evidence: str | None = Field(None, description="the sentence that shows the operation")
+    gap: Gap | None = Field(
+        None, exclude=True, description="the gap, when the record is missing (listed in gaps)"
+    )
 
 
 class Metrics(_Model):
@@ -259,6 +276,9 @@ class Metrics(_Model):
     atom_economy: float | None = None
     yield_: float | None = Field(None, alias="yield", serialization_alias="yield")
     rme: float | None = Field(None, description="reaction mass efficiency")
+    completeness: float | None = Field(
+        None, description="recorded input mass ÷ (recorded + allowance mass), 0–1"
+    )
 
 
 class Totals(_Model):
@@ -283,6 +303,7 @@ class ProductOut(_Model):
     name: str | None
     mass_g: float | None
     basis: str | None = None
+    molar_mass: float | None = Field(None, description="g/mol, from product.formula")
 
 
 class EntryRef(_Model):
@@ -315,6 +336,9 @@ class Result(_Model):
         default_factory=list, description="credited as recovered, not counted as waste"
     )
     gaps: list[Gap] = Field(default_factory=list)
+    checks: list[RecordCheck] = Field(
+        default_factory=list, description="operations found and whether their records are there"
+    )
     metrics: Metrics = Field(default_factory=Metrics)
     totals: Totals | None = None
     breakdown: Breakdown | None = None

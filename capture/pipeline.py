@@ -307,11 +307,21 @@ class Notebook:
             self._weigh(line, info, ctx)
             recovered.append(line)
 
+        checks = _flatten(
+            self.pm.hook.masstrail_check_records(
+                entry=entry,
+                materials=materials,
+                product=product,
+                resolve=self.resolve,
+                config=self.config,
+            )
+        )
         gaps: list[Gap] = _flatten(
             self.pm.hook.masstrail_find_gaps(
                 entry=entry, materials=materials, product=product, config=self.config
             )
         )
+        gaps += [c.gap for c in checks if c.gap is not None]
         for line in recovered:
             if line.mass_g is None:
                 gaps.append(
@@ -324,6 +334,10 @@ class Notebook:
                     )
                 )
         gaps += merge_gaps
+        graded = self.pm.hook.masstrail_grade_gaps(
+            entry=entry, gaps=gaps, materials=materials, product=product, config=self.config
+        )
+        gaps = graded if graded is not None else gaps
         gaps.sort(key=lambda g: _SEVERITY_ORDER[g.severity])
 
         metrics: dict[str, float | None] = {}
@@ -362,6 +376,7 @@ class Notebook:
             materials=materials,
             recovered=recovered,
             gaps=gaps,
+            checks=checks,
             metrics=Metrics.model_validate(metrics),
             totals=totals,
             breakdown=breakdown,
@@ -404,7 +419,13 @@ class Notebook:
             if text_mass is None:
                 return ProductOut(name=p.name, mass_g=None), None
             basis = f"{text_mass.text} as reported in the text: {from_text.evidence}"
-            return ProductOut(name=p.name, mass_g=round(text_mass.total, 4), basis=basis), None
+            mm = _from_formula(p.name or "product", p.formula) if p.formula else None
+            return ProductOut(
+                name=p.name,
+                mass_g=round(text_mass.total, 4),
+                basis=basis,
+                molar_mass=mm.molar_mass if mm else None,
+            ), None
         info = _from_formula(p.name or "product", p.formula) if p.formula else None
         if info is None and p.name:
             info = self.resolve(p.name)
@@ -412,7 +433,12 @@ class Notebook:
             StructuredMaterial(name=p.name or "product", amount=p.mass), "front-matter", "product"
         )
         self._weigh(line, info, MassContext())
-        out = ProductOut(name=p.name, mass_g=line.mass_g, basis=line.basis or line.problem)
+        out = ProductOut(
+            name=p.name,
+            mass_g=line.mass_g,
+            basis=line.basis or line.problem,
+            molar_mass=info.molar_mass if info and p.formula else None,
+        )
         gap = None
         if (
             text_mass is not None

@@ -133,6 +133,20 @@ def resolve_builtin(name: str, config: LabConfig) -> MaterialInfo | None:
     return _apply_override(data.info(rec), name, config)
 
 
+# Words for a class of compounds, which a name database would resolve to one member
+# ("alcohol" → ethanol, "aldehyde" → acetaldehyde, "salt" → sodium chloride).
+GENERIC_CLASS_NAMES = {
+    "alcohol", "aldehyde", "ketone", "amine", "acid", "base", "ester", "salt", "bromide",
+    "chloride", "iodide", "fluoride", "halide", "alkene", "alkyne", "olefin", "arene", "diol",
+    "substrate", "catalyst", "ligand", "reagent", "solvent", "product", "starting material",
+    "intermediate", "nitrile", "amide", "carbamate", "enolate", "ylide", "anion", "cation",
+    "oxide", "hydride", "boronic acid", "acid chloride", "anhydride", "gas", "nitro compound",
+    "alkoxide", "phenoxide", "carboxylic acid", "acetal", "ketal", "epoxide", "azide", "imine",
+    "lactone", "lactam", "peptide", "polymer", "resin", "dye", "sugar", "protein", "nitroarene",
+    "aryl bromide", "aryl halide", "alkyl halide", "sulfonate", "mesylate", "tosylate", "ether",
+}  # fmt: skip
+
+
 @functools.lru_cache(maxsize=1024)
 def _chemicals_lookup(name: str) -> tuple[str, str, float] | None:
     try:
@@ -153,6 +167,8 @@ def resolve_with_chemicals(name: str, config: LabConfig) -> MaterialInfo | None:
     """The `chemicals` library's offline name database, if installed."""
     if sum(c.isalpha() for c in name) < 3:
         return None  # "3" is lithium to a name database; a real name has letters
+    if material_key(name) in GENERIC_CLASS_NAMES:
+        return None  # "the alcohol" is a class, not ethanol; "salt" is not NaCl
     hit = _chemicals_lookup(name.strip())
     if hit is None:
         return None

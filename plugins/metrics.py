@@ -74,7 +74,7 @@ def mass_metrics(
     water = sum(m.water_g or 0.0 for m in weighed)
     credit = sum(r.mass_g for r in recovered if r.mass_g is not None)
     p = product.mass_g
-    allowance = sum(g.allowance_g for g in gaps if g.allowance_g)
+    allowance = sum(g.allowance_g for g in gaps if g.allowance_g and g.in_estimate)
 
     by_category: dict[str, float] = {}
     by_stage: dict[str, float] = {}
@@ -95,6 +95,7 @@ def mass_metrics(
         "e_factor_simple": None,
         "e_factor_estimated": None,
         "pmi": None,
+        "completeness": round(inputs / (inputs + allowance), 4) if inputs + allowance > 0 else None,
     }
     context: dict[str, str] = {}
     waste = None

@@ -92,6 +92,8 @@ _ABBREVIATIONS = {"sat.", "satd.", "aq.", "ca.", "approx.", "conc.", "dil.", "e.
 # a bracket group, allowing one level of nested brackets inside
 _GROUP = re.compile(r"\(((?:[^()]|\([^()]*\))*)\)")
 _WORD = re.compile(r"\S+")
+# "… and the product was recrystallised": an operation after this belongs to another clause
+_NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
 # a name ends at the word after one of these (or after a word ending in , ; :)
 _BOUNDARY_WORDS = {"with", "in", "over", "of", "and", "to", "from", "using", "by", "into", "onto",
                    "added", "then", "was", "were", "is", "are", "through", "on", "at", "for",
@@ -200,13 +202,16 @@ class _Sentence:
         return self._evidence
 
     def operation(self, pos: int) -> tuple[str, Stage]:
-        """The operation of a mention at ``pos``: the nearest word before it, else after it."""
+        """The operation of a mention at ``pos``: the nearest word before it, else the first
+        after it in the same clause ("Methanol (5 mL) was used to rinse the flask", but not
+        "heated in ethanol (20 mL) and the product was recrystallised")."""
         hit = None
         for op in self.operations:
             if op[0] < pos:
                 hit = op
             elif hit is None:
-                hit = op
+                if not _NEW_CLAUSE.search(self.text, pos, op[0]):
+                    hit = op
                 break
             else:
                 break

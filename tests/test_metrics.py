@@ -86,7 +86,8 @@ def test_allowances_only_raise_the_estimate():
 
 def test_no_product_mass_no_figures():
     r = _run([_line("A", 3.0)], product=None)
-    assert all(v is None for v in r.metrics.values())
+    assert all(v is None for k, v in r.metrics.items() if k != "completeness")
+    assert r.metrics["completeness"] == 1.0  # nothing estimated as missing
     assert r.totals.inputs_g == 3.0 and r.totals.waste_g is None
 
 

@@ -1,0 +1,27 @@
+"""Record gaps: what the waste figure needs but the entry lacks, and how much it may weigh.
+
+The built-in rules run in this order:
+
+1. ``operations`` (``masstrail_check_records``): the operations in the procedure
+   text that consume material (filtration, drying, washes, extractions, quenches,
+   chromatography, recrystallisation, trituration, aspirators, unmeasured
+   additions), each checked against the entry's records;
+2. ``records`` (``masstrail_find_gaps``): the product mass, every material without
+   a mass, a product heavier than its inputs, a yield above 100 %;
+3. ``grading`` (``masstrail_grade_gaps``): each gap's severity from its allowance.
+
+Allowances come from ``allowances`` and ``data/allowances.toml``; a lab overrides
+them in ``masstrail.toml``.
+"""
+
+from masstrail_plugins.gaps.grading import grade_by_estimate
+from masstrail_plugins.gaps.operations import check_operations
+from masstrail_plugins.gaps.records import product_mass_gaps, product_sanity_gaps, weighing_gaps
+
+__all__ = [
+    "check_operations",
+    "grade_by_estimate",
+    "product_mass_gaps",
+    "product_sanity_gaps",
+    "weighing_gaps",
+]

@@ -1,0 +1,173 @@
+"""Gaps in the records the core itself needs: the product and each material's mass.
+
+- ``product_mass_gaps``: no product mass (blocking), or one that cannot be read;
+- ``weighing_gaps``: a material with no amount, an amount that cannot be read, a
+  volume with no density, moles or equivalents with no molar mass, equivalents
+  with no limiting reagent; each with an allowance where one can be estimated;
+- ``product_sanity_gaps``: a product heavier than all recorded inputs together
+  (blocking: a record is wrong), a yield above 100 % (major).
+"""
+
+from __future__ import annotations
+
+import re
+
+from capture.config import LabConfig
+from capture.hookspecs import hookimpl
+from capture.models import Entry, Gap, MaterialLine, ProductOut
+from capture.pipeline import choose_limiting
+from masstrail_plugins.gaps import allowances as al
+
+
+@hookimpl(specname="masstrail_find_gaps")
+def product_mass_gaps(entry: Entry, product: ProductOut) -> list[Gap]:
+    """No product mass: no E-factor and no PMI."""
+    if product.mass_g is not None:
+        return []
+    stated = entry.product.mass
+    if stated:
+        return [
+            Gap(
+                kind="product_mass_unreadable",
+                item=product.name or "product",
+                severity="blocking",
+                evidence=f"product.mass: {stated}",
+                message=f"the product mass {stated!r} could not be read ({product.basis}); "
+                "write it as e.g. '3.21 g'",
+            )
+        ]
+    return [
+        Gap(
+            kind="product_mass_missing",
+            item=product.name or "product",
+            severity="blocking",
+            evidence="product.mass is not recorded",
+            message="no product mass is recorded, so there is no E-factor or PMI; weigh the "
+            "dried product and add it as product: {mass: '… g'}",
+        )
+    ]
+
+
+_DROPS = re.compile(r"(\d+|a few|few|several|a|one)?\s*drops?\b", re.I)
+
+
+def _volume(line: MaterialLine) -> float | None:
+    vol = next((a for a in line.amounts if a.kind == "volume"), None)
+    return vol.total if vol else None
+
+
+def _allowance(
+    line: MaterialLine, scale: al.Scale, config: LabConfig
+) -> tuple[float | None, str | None]:
+    """An estimate of the mass a line is missing, with its basis; (None, None) if there is none."""
+    kind = line.problem_kind
+    if kind in {"no_density", "unknown_material"}:
+        ml = _volume(line)
+        if ml:
+            d, basis = al.value("assumed_density_g_ml", config)
+            return ml * d, f"{ml:g} mL × assumed {d:g} g/mL ({basis})"
+    if kind == "no_molar_mass" and line.moles_mmol:
+        mw, basis = al.value("assumed_molar_mass_g_mol", config)
+        return (
+            line.moles_mmol * mw / 1000,
+            f"{line.moles_mmol:g} mmol × assumed {mw:g} g/mol ({basis})",
+        )
+    stated = line.stated or ""
+    if kind == "unreadable_amount" and _DROPS.search(stated):
+        m = _DROPS.search(stated)
+        n = int(m.group(1)) if m.group(1) and m.group(1).isdigit() else 3
+        ml, basis = al.value("drop_ml", config)
+        return n * ml, f"{n} drop(s) × {ml:g} mL × 1 g/mL ({basis})"
+    if line.stated is None:  # listed with no amount at all
+        if line.category in {"solvent", "water", "aqueous"}:
+            ml = scale.reaction_solvent_ml
+            if ml:
+                return ml, f"{ml:g} mL, the entry's other solvent volume, × 1 g/mL (assumed)"
+            ml, basis = al.value("liquid_ml", config)
+            return ml, f"{ml:g} mL × 1 g/mL ({basis})"
+        if line.category == "drying agent":
+            per100, basis = al.value("drying_agent_g_per_100_ml", config)
+            ml = scale.organic_ml or al.value("organic_phase_ml", config)[0]
+            return per100 * ml / 100, f"{per100:g} g per 100 mL × {ml:g} mL ({basis})"
+        if line.category == "filter medium":
+            return al.filter_paper_g(config)
+        if line.category == "catalyst" or (line.role or "").lower() == "catalyst":
+            return al.value("catalytic_amount_g", config)
+        if scale.reagent_g:
+            return (
+                scale.reagent_g,
+                f"{scale.reagent_g:g} g, the entry's median recorded reagent mass",
+            )
+    return None, None
+
+
+@hookimpl(specname="masstrail_find_gaps")
+def weighing_gaps(
+    materials: list[MaterialLine], product: ProductOut, config: LabConfig
+) -> list[Gap]:
+    """Inputs that have no mass: no amount, an unreadable amount, no density, no molar mass."""
+    scale = al.Scale.of(materials, product)
+    gaps = []
+    for line in materials:
+        if line.mass_g is not None:
+            continue
+        where = line.evidence or f"{line.origin}: {line.name}: {line.stated or '(no amount)'}"
+        if line.stated is None:
+            kind = "no_amount"
+            message = f"{line.name} is listed with no amount; record the mass or volume used"
+        else:
+            kind = line.problem_kind or "unweighed"
+            message = line.problem or f"{line.name}: no mass could be worked out"
+        grams, basis = _allowance(line, scale, config)
+        gaps.append(
+            Gap(
+                kind=kind,
+                item=line.name,
+                severity="major",
+                evidence=where,
+                message=message,
+                allowance_g=None if grams is None else round(grams, 4),
+                allowance_basis=basis,
+            )
+        )
+    return gaps
+
+
+@hookimpl(specname="masstrail_find_gaps")
+def product_sanity_gaps(materials: list[MaterialLine], product: ProductOut) -> list[Gap]:
+    """A product heavier than every recorded input together, or a yield above 100 %."""
+    if product.mass_g is None:
+        return []
+    weighed = [m for m in materials if m.mass_g is not None]
+    inputs = sum(m.mass_g for m in weighed)
+    gaps = []
+    if weighed and product.mass_g > inputs:
+        gaps.append(
+            Gap(
+                kind="product_heavier_than_inputs",
+                item=product.name or "product",
+                severity="blocking",
+                evidence=f"product {product.mass_g:g} g; all recorded inputs {inputs:.4g} g",
+                message="the product weighs more than all recorded inputs together; a mass is "
+                "wrong (g for mg?) or an input is missing. Check the records before using the "
+                "E-factor",
+            )
+        )
+    limiting = choose_limiting(materials)
+    if limiting is not None and product.molar_mass:
+        product_mmol = product.mass_g / product.molar_mass * 1000
+        y = product_mmol / limiting.moles_mmol
+        if y > 1.0:
+            gaps.append(
+                Gap(
+                    kind="yield_above_100",
+                    item=product.name or "product",
+                    severity="major",
+                    evidence=f"{product_mmol:.4g} mmol of product from "
+                    f"{limiting.moles_mmol:g} mmol "
+                    f"of {limiting.name} (1:1 assumed)",
+                    message=f"the yield works out at {y:.0%}; the product may be wet or impure, "
+                    "or a mass is wrong. Dry to constant mass and weigh again",
+                )
+            )
+    return gaps

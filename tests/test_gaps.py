@@ -1,0 +1,202 @@
+"""Gap rules, allowances and grading, one by one (the corpus measures them together)."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from capture.config import LabConfig
+from capture.models import Gap, MaterialLine, ProductOut
+from masstrail_plugins.gaps import allowances as al
+from masstrail_plugins.gaps.grading import grade_by_estimate
+from masstrail_plugins.gaps.operations import Context, check_operations, drying, filtration
+from masstrail_plugins.materials import resolve_builtin
+
+from helpers import entry_md
+
+CFG = LabConfig()
+
+
+def _ctx(materials=(), product_g=1.0):
+    return Context(list(materials), ProductOut(name="p", mass_g=product_g),
+                   lambda n: resolve_builtin(n, CFG), CFG)  # fmt: skip
+
+
+def test_filter_paper_allowance_matches_the_circle_formula():
+    # FIELD.md [D]: a 90 mm circle at 88 g/m² weighs π(0.045 m)² × 88 g/m² = 0.56 g
+    grams, basis = al.filter_paper_g(CFG)
+    assert grams == pytest.approx(math.pi * 0.045**2 * 88) == pytest.approx(0.5598, abs=1e-4)
+    assert "90 mm" in basis and "88 g/m²" in basis
+    cfg = LabConfig.model_validate({"allowances": {"filter_paper_diameter_mm": 125}})
+    # 125 mm at 88 g/m² = 1.08 g (FIELD.md)
+    assert al.filter_paper_g(cfg)[0] == pytest.approx(1.08, abs=0.005)
+
+
+def test_every_allowance_has_a_basis():
+    for key, (value, basis) in al.table().items():
+        assert value >= 0 and basis, key
+        assert hasattr(CFG.allowances, key), f"{key} cannot be overridden in masstrail.toml"
+
+
+def test_drying_agent_allowance_scales_with_the_organic_phase():
+    ethyl = MaterialLine(name="EtOAc", category="solvent", stage="workup", origin="text",
+                         amounts=[], mass_g=90.0)  # fmt: skip
+    from capture.quantities import parse_amounts
+
+    ethyl.amounts = parse_amounts("3 × 50 mL")
+    (check,) = drying(_ctx([ethyl]), "The extracts were dried over MgSO4 and filtered.")
+    # 3 g per 100 mL (common practice, data/allowances.toml) × 150 mL of EtOAc
+    assert check.gap.allowance_g == pytest.approx(4.5)
+    assert "150 mL organic phase" in check.gap.allowance_basis
+
+
+@pytest.mark.parametrize(
+    "text",
+    [
+        "The solid was dried under high vacuum.",
+        "The solid was dried in a desiccator over P2O5.",
+        "An oven-dried flask was used.",
+        "The product was air-dried on the filter.",
+        "It was dissolved in dry DCM.",
+        "The salt was dried overnight at 50 °C.",
+    ],
+)
+def test_drying_that_uses_no_agent_is_no_gap(text):
+    assert drying(_ctx(), text) == []
+
+
+def test_filtration_through_a_sinter_needs_nothing_and_a_recorded_paper_is_enough():
+    assert filtration(_ctx(), "The solid was filtered off through a sinter.") == []
+    paper = MaterialLine(name="filter paper", category="filter medium", origin="front-matter",
+                         mass_g=0.56, amounts=[])  # fmt: skip
+    (check,) = filtration(_ctx([paper]), "The solid was collected by suction filtration.")
+    assert check.recorded and check.gap is None
+
+
+def test_grading_by_the_allowance_against_the_recorded_waste():
+    lines = [MaterialLine(name="A", mass_g=101.0, origin="front-matter")]
+    product = ProductOut(name="p", mass_g=1.0)  # recorded waste 100 g: 5 % is 5 g
+
+    def g(kind, allowance):
+        return Gap(kind=kind, item="x", severity="major", message="m", allowance_g=allowance)
+
+    graded = grade_by_estimate(
+        gaps=[
+            g("filter_medium", 0.56),
+            g("drying_agent_mass", 6.0),
+            g("liquid_volume", None),
+            g("product_mass_missing", None),
+            g("conflicting_amounts", 50.0),
+        ],
+        materials=lines,
+        product=product,
+        config=CFG,
+    )
+    assert [x.severity for x in graded] == ["minor", "major", "major", "blocking", "minor"]
+    strict = LabConfig.model_validate({"gaps": {"major_fraction": 0.001}})
+    assert grade_by_estimate(gaps=[g("filter_medium", 0.56)], materials=lines, product=product,
+                             config=strict)[0].severity == "major"  # fmt: skip
+
+
+def test_checks_list_recorded_and_missing_records_in_the_sidecar(notebook):
+    notebook.write(
+        "e.md",
+        entry_md(
+            "product: {name: p, mass: 1.00 g}",
+            """
+        The acid (5.00 g) in EtOAc (50 mL) was washed with brine (20 mL), dried over MgSO4
+        and filtered. The solvent was evaporated.
+        """,
+        ),
+    )
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    checks = {(c["needs"], c["item"]): c["recorded"] for c in side["checks"]}
+    assert checks == {("liquid volume", "brine"): True, ("drying agent mass", "MgSO4"): False,
+                      ("filter medium", "filter paper"): False}  # fmt: skip
+    gaps = {g["kind"]: g for g in side["gaps"]}
+    assert gaps["drying_agent_mass"]["allowance_g"] == pytest.approx(1.5)  # 3 g/100 mL × 50 mL
+    # estimated E-factor and completeness include both allowances (1.5 + 0.5598 g)
+    inputs = 5.0 + 50 * 0.9003 + 20 * 1.198
+    allow = 1.5 + 0.5598
+    m = side["metrics"]
+    assert m["e_factor_estimated"] == pytest.approx(m["e_factor"] + allow, abs=1e-3)
+    assert m["completeness"] == pytest.approx(inputs / (inputs + allow), abs=1e-4)
+
+
+def test_aspirator_water_is_reported_but_not_in_the_estimate(notebook):
+    notebook.write(
+        "e.md",
+        entry_md(
+            "product: {name: p, mass: 1.00 g}",
+            "The acid (5.00 g) was collected on a water aspirator.",
+        ),
+    )
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    (gap,) = [g for g in side["gaps"] if g["kind"] == "aspirator_water"]
+    assert gap["severity"] == "minor" and gap["in_estimate"] is False
+    assert gap["allowance_g"] == pytest.approx(2 * 5 * 1000 * 0.9982)
+    notebook.write("masstrail.toml", "[gaps]\naspirator_water = false\n")
+    notebook.scan()
+    assert not [g for g in notebook.sidecar("e.md")["gaps"] if g["kind"] == "aspirator_water"]
+
+
+def test_product_heavier_than_inputs_blocks_and_a_yield_over_100_is_major(notebook):
+    notebook.write(
+        "e.md",
+        entry_md("""
+        product: {name: ester, mass: 3.00 g, formula: C8H8O2}
+        materials: [{name: acid, amount: "2.44 g, 20.0 mmol", role: limiting reagent}]
+        """),
+    )
+    notebook.scan()
+    kinds = {g["kind"]: g["severity"] for g in notebook.sidecar("e.md")["gaps"]}
+    assert kinds["product_heavier_than_inputs"] == "blocking"
+    # methyl benzoate C8H8O2, 136.15 g/mol: 3.00 g = 22.0 mmol from 20.0 mmol → 110 %
+    assert kinds["yield_above_100"] == "major"
+
+
+def test_check_operations_hook_runs_all_rules_once_per_item():
+    from capture.models import Entry
+
+    entry = Entry(id="x", path="x.md", sha256="0" * 64, format="markdown",
+                  body="Washed with brine. Washed again with brine. Dried over MgSO4.")  # fmt: skip
+    checks = check_operations(entry=entry, materials=[], product=ProductOut(name="p", mass_g=1.0),
+                              resolve=lambda n: resolve_builtin(n, CFG), config=CFG)  # fmt: skip
+    gaps = [(c.gap.kind, c.item) for c in checks if c.gap]
+    assert gaps == [("liquid_volume", "brine"), ("drying_agent_mass", "MgSO4")]
+
+
+def test_a_lab_plugin_adds_its_own_check_and_grades_gaps_its_own_way(notebook):
+    """masstrail_check_records and masstrail_grade_gaps are open to a lab's plugin."""
+    from capture.hookspecs import hookimpl
+    from capture.models import RecordCheck
+    from capture.pipeline import Notebook, scan
+
+    class GloveboxRules:
+        @hookimpl
+        def masstrail_check_records(self, entry):
+            if "glovebox" not in entry.body:
+                return []
+            gap = Gap(kind="glovebox_gloves", item="gloves", severity="minor",
+                      message="count the gloves", allowance_g=40.0)  # fmt: skip
+            return [RecordCheck(operation="glovebox work", needs="gloves", item="gloves",
+                                recorded=False, gap=gap)]  # fmt: skip
+
+        @hookimpl
+        def masstrail_grade_gaps(self, gaps):
+            return [g.model_copy(update={"severity": "minor"}) for g in gaps]
+
+    notebook.write(
+        "e.md",
+        entry_md(
+            "product: {name: p, mass: 1.00 g}", "The acid (5.00 g) was weighed in the glovebox."
+        ),
+    )
+    nb = Notebook.open(notebook.root)
+    nb.pm.register(GloveboxRules(), name="glovebox")
+    (result,) = scan(nb).results
+    assert [(g.kind, g.severity) for g in result.gaps] == [("glovebox_gloves", "minor")]
+    assert result.metrics.e_factor_estimated == pytest.approx(4.0 + 40.0)
