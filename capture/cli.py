@@ -227,13 +227,15 @@ def show(entry: Path, as_json: bool) -> None:
         colour = {"blocking": "red", "major": "yellow", "minor": "dim"}
         for g in r.gaps:
             c = colour[g.severity]
-            console.print(f"  [{c}]{g.severity}[/{c}] {_e(g.item)}: {_e(g.message)}")
+            size = f" [dim](about {_num(g.allowance_g)} g, assumed)[/dim]" if g.allowance_g else ""
+            console.print(f"  [{c}]{g.severity}[/{c}] {_e(g.item)}: {_e(g.message)}{size}")
     else:
         console.print("No record gaps found.")
     m = r.metrics
     console.print(
         f"E-factor {_num(m.e_factor)} (simple {_num(m.e_factor_simple)}, with allowances "
-        f"{_num(m.e_factor_estimated)}), PMI {_num(m.pmi)}"
+        f"{_num(m.e_factor_estimated)}), PMI {_num(m.pmi)}, completeness "
+        f"{_num(m.completeness * 100 if m.completeness is not None else None, '.1f')}%"
     )
     if r.totals:
         console.print(
@@ -284,6 +286,154 @@ def schema() -> None:
     from capture.schema import result_schema_text
 
     click.echo(result_schema_text(), nl=False)
+
+
+def _date(value: str | None, option: str):
+    import datetime as dt
+
+    if value is None:
+        return None
+    try:
+        return dt.date.fromisoformat(value)
+    except ValueError:
+        raise click.BadParameter(
+            f"{value!r} is not a date; write YYYY-MM-DD", param_hint=option
+        ) from None
+
+
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.option("--author", help="Only entries by this author.")
+@click.option("--group", "group_", help="Only entries of this group.")
+@click.option("--project", help="Only entries of this project.")
+@click.option("--since", help="Only entries dated on or after YYYY-MM-DD.")
+@click.option("--until", help="Only entries dated on or before YYYY-MM-DD.")
+@click.option(
+    "--severity",
+    type=click.Choice(["blocking", "major", "minor"]),
+    default="minor",
+    show_default=True,
+    help="Show gaps of this severity or worse.",
+)
+@click.option(
+    "--by",
+    type=click.Choice(["author", "group", "project"]),
+    help="Count gaps per author, group or project.",
+)
+@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
+@click.option(
+    "--csv",
+    "csv_file",
+    type=click.Path(dir_okay=False, allow_dash=True),
+    help="Write the gaps as CSV to FILE ('-' for standard output).",
+)
+def gaps(path, author, group_, project, since, until, severity, by, as_json, csv_file):
+    """List the entries under PATH that lack records, with what is missing.
+
+    Exits 1 when any blocking gap is listed, so a scheduled job can alert.
+    Nothing is written next to the entries.
+    """
+    from capture.pipeline import CAUTION
+    from capture.pipeline import scan as run_scan
+    from capture.reports import GapFilter, gap_rows, rows_to_csv, summarise
+
+    flt = GapFilter(author=author, group=group_, project=project, severity=severity,
+                    since=_date(since, "--since"), until=_date(until, "--until"))  # fmt: skip
+    nb = _open_notebook(path)
+    results = run_scan(nb, write=False).results
+    rows = gap_rows(results, flt)
+    if csv_file:
+        text = rows_to_csv(rows)
+        if csv_file == "-":
+            click.echo(text, nl=False)
+        else:
+            Path(csv_file).write_text(text, encoding="utf-8")
+    if by:
+        summary = summarise(results, flt, by)
+        if as_json:
+            click.echo(json.dumps([s.model_dump() for s in summary], indent=2))
+        elif csv_file != "-":
+            from rich.table import Table
+
+            t = Table(title=f"record gaps by {by}", title_justify="left")
+            for col in (by, "entries", "with gaps", "blocking", "major", "minor", "allowance g"):
+                t.add_column(col, justify="left" if col == by else "right")
+            for s in summary:
+                t.add_row(_e(s.key), str(s.entries), str(s.entries_with_gaps), str(s.blocking),
+                          str(s.major), str(s.minor), _num(s.allowance_g, ".4g"))  # fmt: skip
+            _console().print(t)
+    elif as_json:
+        click.echo(json.dumps([r.model_dump() for r in rows], indent=2))
+    elif csv_file != "-":
+        from rich.table import Table
+
+        t = Table(title=f"record gaps under {path}", title_justify="left")
+        for col in ("entry", "author", "severity", "missing", "about", "what to do"):
+            t.add_column(col, overflow="fold", justify="right" if col == "about" else "left")
+        for r in rows:
+            t.add_row(_e(r.entry), _e(r.author or "—"), r.severity, _e(f"{r.item} ({r.kind})"),
+                      f"{_num(r.allowance_g, '.3g')} g" if r.allowance_g else "?",
+                      _e(r.message))  # fmt: skip
+        console = _console()
+        console.print(t)
+        entries = len({r.entry for r in rows})
+        console.print(f"{len(rows)} gap(s) in {entries} entr{'y' if entries == 1 else 'ies'}. "
+                      "'about' is an estimate of the missing mass, not a record.")  # fmt: skip
+        console.print(f"[dim]{_e(CAUTION)}[/dim]")
+    if any(r.severity == "blocking" for r in rows):
+        sys.exit(EXIT_FINDINGS)
+
+
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.option("--group", "group_", required=True, help="The group (front-matter 'group') to audit.")
+@click.option(
+    "--markdown",
+    "markdown_file",
+    type=click.Path(dir_okay=False),
+    help="Also write the audit as a Markdown handout to FILE.",
+)
+def audit(path, group_, markdown_file):
+    """Audit the records of one group: a checklist per entry, completeness, what to record next.
+
+    For teaching labs: each entry shows the operations found with ✓ recorded or
+    ✗ missing, its completeness (recorded mass ÷ recorded + estimated missing
+    mass), and the three records most worth taking next time.
+    """
+    from capture.pipeline import CAUTION
+    from capture.pipeline import scan as run_scan
+    from capture.reports import audit as make_audit
+    from capture.reports import audit_markdown
+
+    nb = _open_notebook(path)
+    report = make_audit(run_scan(nb, write=False).results, group_)
+    if not report.entries:
+        _fail(f"no entries of group {group_!r} under {path}")
+    console = _console()
+    med = report.median_completeness
+    pct = _num(med * 100 if med is not None else None, ".1f")
+    console.print(
+        f"[bold]Record audit: {_e(report.group)}[/bold] — {len(report.entries)} entries, "
+        f"median completeness {pct}%"
+    )
+    for e in report.entries:
+        comp = _num(e.completeness * 100 if e.completeness is not None else None, ".1f")
+        console.print(
+            f"\n[bold]{_e(e.title or e.entry)}[/bold] ({_e(e.entry)}), completeness {comp}%"
+        )
+        for c in e.checklist:
+            mark = "[green]✓[/green]" if c.recorded else "[red]✗[/red]"
+            console.print(f"  {mark} {_e(c.operation)}: {_e(c.needs)} — {_e(c.item)}")
+        for n, line in enumerate(e.next_time, 1):
+            console.print(f"  next time {n}. {_e(line)}")
+    if report.most_missed:
+        console.print(
+            "\nMost often missing: " + "; ".join(f"{_e(w)} ({n})" for w, n in report.most_missed)
+        )
+    if markdown_file:
+        Path(markdown_file).write_text(audit_markdown(report, CAUTION), encoding="utf-8")
+        console.print(f"Markdown handout written to {_e(markdown_file)}")
+    console.print(f"[dim]{_e(CAUTION)}[/dim]")
 
 
 def main() -> None:

@@ -321,7 +321,11 @@ class Notebook:
                 entry=entry, materials=materials, product=product, config=self.config
             )
         )
-        gaps += [c.gap for c in checks if c.gap is not None]
+        from_checks = [c.gap for c in checks if c.gap is not None]
+        # "a crystal of DMAP" says more than "DMAP has no amount": keep the specific gap
+        specific = {material_key(g.item) for g in from_checks}
+        gaps = [g for g in gaps if not (g.kind == "no_amount" and material_key(g.item) in specific)]
+        gaps += from_checks
         for line in recovered:
             if line.mass_g is None:
                 gaps.append(

@@ -86,6 +86,16 @@ def test_example_notebook_end_to_end(examples):
     assert ra.metrics.e_factor == pytest.approx((945.64 - 1.89) / 1.89, abs=0.01)
     assert ra.breakdown.by_stage["purification"] == pytest.approx(50 + 23.742 + 756.162, abs=0.01)
 
+    # gaps carry allowances, and the estimated E-factor adds them: the Knoevenagel entry's
+    # "2 drops" of piperidine (0.05 mL each) and one 90 mm filter paper (0.56 g)
+    kn = r["group7-knoevenagel"]
+    assert {(g.kind, g.allowance_g) for g in kn.gaps} == {("unreadable_amount", 0.1),
+                                                          ("filter_medium", 0.5598)}  # fmt: skip
+    assert kn.metrics.e_factor_estimated == pytest.approx(
+        kn.metrics.e_factor + (0.1 + 0.5598) / 1.71, abs=1e-3
+    )
+    assert 0.97 < kn.metrics.completeness < 1.0
+
     # no product mass: blocking gap, no figures
     boc = r["FW-0427"]
     assert [g.kind for g in boc.gaps if g.severity == "blocking"] == ["product_mass_missing"]

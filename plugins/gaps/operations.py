@@ -458,7 +458,8 @@ def unquantified(ctx: Context, text: str) -> list[RecordCheck]:
         grams, basis = _quantity_allowance(q, name, ctx)
         checks.append(_check("addition", "amount", name, text, _gap(
             "unquantified_addition", name, text,
-            f"'{q} {name}' is not a measured amount; weigh or measure it (a drop is about "
+            f"'{' '.join(m.group(0).split())}' is not a measured amount; weigh or measure it "
+            "(a drop is about "
             "0.05 mL), or note it in mg or µL", grams, basis)))  # fmt: skip
     return checks
 
