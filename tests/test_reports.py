@@ -7,11 +7,12 @@ import io
 import json
 
 from click.testing import CliRunner
-from helpers import entry_md
 
 from capture.cli import cli
 from capture.pipeline import Notebook, scan
 from capture.reports import GapFilter, audit, gap_rows, rows_to_csv, summarise
+
+from helpers import entry_md
 
 
 def _lab(notebook):
