@@ -458,9 +458,10 @@ def unquantified(ctx: Context, text: str) -> list[RecordCheck]:
         grams, basis = _quantity_allowance(q, name, ctx)
         checks.append(_check("addition", "amount", name, text, _gap(
             "unquantified_addition", name, text,
-            f"'{' '.join(m.group(0).split())}' is not a measured amount; weigh or measure it "
-            "(a drop is about "
-            "0.05 mL), or note it in mg or µL", grams, basis)))  # fmt: skip
+            f"'{' '.join(m.group(0).split())}' is not a measured amount; "
+            + ("measure it by volume (a drop is about 0.05 mL) and note it in µL"
+               if "drop" in q.lower() else "weigh it and note the mass in mg"),
+            grams, basis)))  # fmt: skip
     return checks
 
 
