@@ -138,6 +138,19 @@ def _number(raw: str, whole: str) -> float:
     return float(raw)
 
 
+def plain_amount(
+    number: str, unit: str, text: str, span: tuple[int, int] | None
+) -> AmountMention | None:
+    """A plain ``2.76 g`` already split into number and unit; None if it is not one we read."""
+    known = _UNITS.get(unit)
+    if known is None:
+        return None
+    value = float(number) * _factor(*known)
+    if value <= 0:
+        return None
+    return AmountMention(value=value, unit=CANONICAL[known[1]], kind=known[1], text=text, span=span)
+
+
 _PLAIN = re.compile(r"(\d+(?:\.\d+)?) ?([A-Za-z]+\.?)")
 
 

@@ -38,7 +38,7 @@ import re
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import AmountMention, Entry, MaterialLine, Stage
-from capture.quantities import AmountError, normalise, parse_amount
+from capture.quantities import AmountError, normalise, parse_amount, plain_amount
 
 # The hot path works on words, not on large case-insensitive regular expressions:
 # a sentence is cut into words once, and each word is looked up in small tables.
@@ -313,7 +313,7 @@ def _sentences(body: str) -> list[tuple[int, str]]:
     out, start = [], 0
     for m in _SENTENCE_END.finditer(body):
         before = body[start : m.start()]
-        words = before.split()
+        words = before[-16:].split()
         last_word = words[-1].casefold().lstrip("([") if words else ""
         if "\n\n" not in m.group(0) and (
             last_word in _ABBREVIATIONS or _NUMBERED.fullmatch(last_word)
@@ -360,10 +360,12 @@ def _plain_group(content: str, offset: int, name: str) -> _Group | None:
         if m.start() != pos:
             return None
         text = content[m.start(1) : m.end(2)]
-        try:
-            group.amounts.append(parse_amount(text, (offset + m.start(1), offset + m.end(2))))
-        except AmountError:
+        amount = plain_amount(
+            m.group(1), m.group(2), text, (offset + m.start(1), offset + m.end(2))
+        )
+        if amount is None:
             return None
+        group.amounts.append(amount)
         group.texts.append(text)
         pos = m.end()
     return group if pos == len(content) and group.amounts else None
