@@ -87,6 +87,28 @@ class AllowanceSettings(_Section):
     assumed_molar_mass_g_mol: float | None = Field(None, gt=0)
 
 
+class BalanceLayout(_Section):
+    """How the lab's balance writes its CSV export; anything left out is detected."""
+
+    delimiter: str | None = Field(None, description="',', ';' or 'tab'")
+    decimal: str | None = Field(None, description="'.' or ','")
+    encoding: str | None = Field(None, description="e.g. 'utf-8', 'utf-16', 'cp1252'")
+    header_line: int | None = Field(None, ge=1, description="1-based line of the column names")
+    label_column: str | None = None
+    net_column: str | None = None
+    gross_column: str | None = None
+    tare_column: str | None = None
+    unit_column: str | None = None
+    unit: str | None = Field(None, description="the unit when the file names none, e.g. 'g'")
+    date_column: str | None = None
+    time_column: str | None = None
+    stable_column: str | None = None
+    date_order: str | None = Field(None, description="'dmy', 'mdy' or 'ymd' for ambiguous dates")
+    max_days_from_entry: float = Field(
+        2, ge=0, description="readings further than this from the entry's date are flagged"
+    )
+
+
 class PluginSettings(_Section):
     block: list[str] = Field(default_factory=list, description="plugin names not to load")
 
@@ -104,6 +126,7 @@ class LabConfig(_Section):
     plugins: PluginSettings = Field(default_factory=PluginSettings)
     gaps: GapSettings = Field(default_factory=GapSettings)
     allowances: AllowanceSettings = Field(default_factory=AllowanceSettings)
+    balance_layout: BalanceLayout = Field(default_factory=BalanceLayout)
     source: str | None = Field(None, exclude=True, description="the file this was read from")
 
 

@@ -24,6 +24,7 @@ import pluggy
 if TYPE_CHECKING:
     from capture.config import LabConfig
     from capture.models import (
+        BalanceReading,
         Entry,
         Gap,
         MassAssignment,
@@ -71,6 +72,29 @@ def masstrail_read_entry(path: Path, data: bytes, relpath: str, config: LabConfi
     :param relpath: the path relative to the notebook root, with ``/``.
     :param config: the lab configuration.
     :returns: the entry, or None when the file is not this reader's type.
+
+    Stops at first non-None result.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_read_balance_log(
+    path: Path, data: bytes, relpath: str, config: LabConfig
+) -> list[BalanceReading] | None:
+    """Read a balance's CSV export into readings.
+
+    Called once per file named in an entry's ``balance_log``, after the path was
+    checked to lie inside the notebook root and its bytes were read
+    (size-capped). A lab adds a plugin for its own balance's format here. A
+    reader raises :class:`capture.safeio.InputError` (with the line) for a file
+    it knows but cannot read.
+
+    :param path: the log on disk.
+    :param data: its bytes.
+    :param relpath: the path relative to the notebook root, with ``/``.
+    :param config: the lab configuration (``[balance_layout]``).
+    :returns: the readings in file order, or None when the file is not this
+        reader's format.
 
     Stops at first non-None result.
     """

@@ -234,6 +234,19 @@ class MaterialLine(_Model):
     )
 
 
+class BalanceReading(_Model):
+    """One reading from a balance's CSV export."""
+
+    file: str = Field(description="the log, relative to the notebook root")
+    line: int = Field(description="1-based line in the file")
+    label: str
+    mass_g: float | None = Field(description="net mass in g; None if it could not be read")
+    as_written: str = Field(description="the value (and unit) as the balance wrote it")
+    stable: bool | None = Field(None, description="the balance's stability flag, if it gives one")
+    timestamp: str | None = Field(None, description="ISO date and time of the reading, if known")
+    assigned_to: str | None = Field(None, description="the material or product it was used for")
+
+
 class Gap(_Model):
     """A record the waste figure needs but the entry lacks, or a record that is wrong."""
 
@@ -336,6 +349,9 @@ class Result(_Model):
         default_factory=list, description="credited as recovered, not counted as waste"
     )
     gaps: list[Gap] = Field(default_factory=list)
+    readings: list[BalanceReading] = Field(
+        default_factory=list, description="balance readings from the entry's balance_log files"
+    )
     checks: list[RecordCheck] = Field(
         default_factory=list, description="operations found and whether their records are there"
     )

@@ -21,6 +21,7 @@ from capture.chem import material_key, molar_mass
 from capture.config import CONFIG_NAME, LabConfig, load_config
 from capture.models import (
     AmountMention,
+    BalanceReading,
     Breakdown,
     Entry,
     EntryError,
@@ -37,6 +38,9 @@ from capture.models import (
 )
 from capture.paths import is_ignored, is_own_output, is_temp_file, sidecar_path
 from capture.quantities import AmountError, parse_amounts
+from capture.readings import as_amount as balance_amount
+from capture.readings import assign as assign_readings
+from capture.readings import safe_log_path
 from capture.safeio import InputError, read_bounded
 
 GENERATOR = f"masstrail {__version__}"
@@ -281,6 +285,24 @@ class Notebook:
                 )
             )
 
+        # balance readings win over typed amounts for the same material
+        readings, log_gaps = self._read_logs(entry)
+        by_line, product_reading, reading_gaps = assign_readings(
+            readings,
+            materials,
+            entry.product.name,
+            self.resolve,
+            entry.date,
+            self.config.balance_layout.max_days_from_entry,
+        )
+        merge_gaps += log_gaps + reading_gaps
+        for line in materials:
+            a = by_line.get(id(line))
+            if a is not None:
+                line.amounts = [balance_amount(a)]
+                line.problem = line.problem_kind = None
+                line.origin = "balance"
+
         # weigh everything that does not need the limiting reagent, then the rest
         ctx = MassContext()
         by_equiv = [m for m in materials if _needs_limiting(m)]
@@ -292,9 +314,20 @@ class Notebook:
             ctx = MassContext(limiting_name=limiting.name, limiting_mmol=limiting.moles_mmol)
         for line in by_equiv:
             self._weigh(line, infos[id(line)], ctx)
+        for line in materials:
+            if id(line) in by_line:
+                line.basis = by_line[id(line)].basis
 
         product, product_gap = self._product(entry, text_product)
-        if product_gap:
+        if product_reading is not None:
+            typed = f"; the front matter says {entry.product.mass}" if entry.product.mass else ""
+            product = product.model_copy(
+                update={
+                    "mass_g": round(product_reading.mass_g, 4),
+                    "basis": product_reading.basis + typed,
+                }
+            )
+        elif product_gap:
             merge_gaps.append(product_gap)
         recovered = []
         for item in entry.recovered:
@@ -380,6 +413,7 @@ class Notebook:
             materials=materials,
             recovered=recovered,
             gaps=gaps,
+            readings=readings,
             checks=checks,
             metrics=Metrics.model_validate(metrics),
             totals=totals,
@@ -387,6 +421,36 @@ class Notebook:
             context=context,
             caution=CAUTION,
         )
+
+    def _read_logs(self, entry: Entry) -> tuple[list[BalanceReading], list[Gap]]:
+        """Every reading of the entry's balance logs; a gap for each log that cannot be used."""
+        readings: list[BalanceReading] = []
+        gaps: list[Gap] = []
+        entry_dir = (self.root / entry.path).parent
+        for ref in entry.balance_log:
+            try:
+                path = safe_log_path(self.root, entry_dir, str(ref))
+                rel = path.relative_to(self.root).as_posix()
+                data = read_bounded(path, int(self.config.scan.max_entry_mb * 1024 * 1024))
+                got = self.pm.hook.masstrail_read_balance_log(
+                    path=path, data=data, relpath=rel, config=self.config
+                )
+                if got is None:
+                    raise InputError("no balance reader knows this file's format")
+                readings += got
+            except InputError as exc:
+                where = f" ({exc.location})" if exc.location else ""
+                refused = "outside the notebook" in exc.message or "network path" in exc.message
+                gaps.append(
+                    Gap(
+                        kind="balance_log_refused" if refused else "balance_log_unreadable",
+                        item=str(ref),
+                        severity="major",
+                        evidence=f"balance_log: {ref}{where}",
+                        message=f"the balance log {ref}{where} cannot be used: {exc.message}",
+                    )
+                )
+        return readings, gaps
 
     def _solvent_proxy(self, line: MaterialLine, info: MaterialInfo | None) -> MaterialInfo | None:
         """A solution is weighed with its own density where known, else with its solvent's."""

@@ -22,6 +22,7 @@ ENTRY_POINT_GROUP = "masstrail"
 # The built-ins, by entry-point name, in the order of the pipeline.
 DEFAULT_PLUGINS: tuple[str, ...] = (
     "readers",
+    "balance",
     "text",
     "materials",
     "masses",

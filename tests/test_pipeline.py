@@ -58,16 +58,28 @@ def test_example_notebook_end_to_end(examples):
     ]
     assert {m.origin for m in fw.materials} == {"front-matter"}  # the text restates them
 
-    # Suzuki (table + text): 24.4265 g from the table, 96.409 g from the workup text
+    # Suzuki (table + text + balance log): K2CO3 4.1502 g, Pd(PPh3)4 by difference
+    # 2.4518 − 2.3361 = 0.1157 g, MgSO4 2.61 g and the product 1.4230 g come from the balance:
+    # 1.87 + 1.46 + 4.1502 + 0.1157 + 15 mL EtOH × 0.7893 + 5 mL water × 0.9982 (table)
+    # + 20 mL water × 0.9982 + 45 mL EtOAc × 0.9003 + 20 mL brine × 1.198 + 2.61
+    # + 12 mL EtOH × 0.7893 (text) = 120.9455 g
     sz = r["group3-suzuki"]
-    assert sz.totals.inputs_g == pytest.approx(120.8356, abs=1e-3)
-    assert sz.metrics.e_factor == pytest.approx(119.4156 / 1.42, abs=1e-3)
-    assert {m.origin for m in sz.materials} == {"table", "text"}
+    assert sz.totals.inputs_g == pytest.approx(120.9455, abs=1e-3)
+    assert sz.product.mass_g == 1.423 and "group3-balance.tsv line 6" in sz.product.basis
+    assert sz.metrics.e_factor == pytest.approx((120.9455 - 1.423) / 1.423, abs=1e-3)
+    assert {m.origin for m in sz.materials} == {"table", "text", "balance"}
+    pd = next(m for m in sz.materials if m.name == "Pd(PPh3)4")
+    assert pd.mass_g == 0.1157 and pd.basis.startswith("weighed by difference: 2.4518 g − 2.3361 g")
+    assert [g.kind for g in sz.gaps if g.item == "MgSO4"] == ["unstable_reading"]
 
-    # NaBH4 0.5 equiv of 2.68 g 4-methylacetophenone (C9H10O, 134.18 g/mol), NaBH4 37.83 g/mol
+    # FW-0419 takes its masses from the balance log (German layout, decimal comma): NaBH4 was
+    # typed as 0.5 equiv, the balance says 0.3790 g, and the balance wins
     red = r["FW-0419"]
     nabh4 = next(m for m in red.materials if m.name == "NaBH4")
-    assert nabh4.mass_g == pytest.approx(0.5 * 2.68 / 134.178 * 37.8325, rel=1e-4)
+    assert (nabh4.mass_g, nabh4.origin, nabh4.stated) == (0.379, "balance", "0.5 equiv")
+    assert "FW-0419-balance.csv line 6, 2026-11-06T10:44:52" in nabh4.basis
+    assert red.product.mass_g == 2.5093
+    assert [(g.kind, g.item) for g in red.gaps] == [("unassigned_reading", "weighing boat")]
     assert red.totals.recovered_g == pytest.approx(60 * 0.7405, abs=1e-3)
 
     # pilot bay: kg and L, 2-MeTHF density overridden by the lab (0.852), 4.8 L recovered

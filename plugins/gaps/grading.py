@@ -16,8 +16,10 @@ from capture.models import Gap, MaterialLine, ProductOut
 
 BLOCKING = {"product_mass_missing", "product_mass_unreadable", "product_heavier_than_inputs"}
 ALWAYS_MINOR = {"conflicting_amounts", "conflicting_product_mass", "eluent_composition",
-                "aspirator_water"}  # fmt: skip
-ALWAYS_MAJOR = {"yield_above_100"}
+                "aspirator_water", "unassigned_reading", "unstable_reading",
+                "balance_reading_date", "balance_row_unreadable"}  # fmt: skip
+ALWAYS_MAJOR = {"yield_above_100", "balance_log_refused", "balance_log_unreadable",
+                "balance_difference_not_positive"}  # fmt: skip
 
 
 @hookimpl(trylast=True, specname="masstrail_grade_gaps")
