@@ -34,7 +34,7 @@ _VESSEL_PLUS = re.compile(r"^(?P<vessel>.+?)\s*\+\s*(?P<name>.+)$")
 
 
 def safe_log_path(root: Path, entry_dir: Path, ref: str) -> Path:
-    """The log ``ref`` (relative to the entry) if it is inside the notebook root, else InputError."""
+    """The log ``ref`` (relative to the entry) if inside the notebook root, else InputError."""
     if not ref or not ref.strip():
         raise InputError("an empty balance_log path")
     if PureWindowsPath(ref).drive or ref.startswith(("\\\\", "//")):
