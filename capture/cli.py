@@ -243,6 +243,25 @@ def show(entry: Path, as_json: bool) -> None:
             f"recovered {_num(r.totals.recovered_g, '.4g')} g, "
             f"waste {_num(r.totals.waste_g, '.4g')} g"
         )
+    if m.atom_economy is not None or m.yield_ is not None:
+        console.print(
+            f"Atom economy {_num(m.atom_economy)}, yield {_num(m.yield_)} (theoretical "
+            f"{_num(m.theoretical_yield_g, '.4g')} g), RME {_num(m.rme)}, carbon efficiency "
+            f"{_num(m.carbon_efficiency)}"
+        )
+    for key in ("equation", "rme_factors"):
+        if key in r.context:
+            console.print(f"[dim]{_e(r.context[key])}[/dim]")
+    if r.waste and r.waste.streams:
+        streams = ", ".join(f"{k} {_num(v, '.4g')} g" for k, v in r.waste.streams.items() if v)
+        console.print(f"Waste by stream: {_e(streams)}")
+        if r.waste.summary:
+            console.print(f"Solvent ranks: {_e(r.waste.summary)}")
+        if m.hazard_weighted_e is not None:
+            console.print(
+                f"Hazard-weighted E-factor {_num(m.hazard_weighted_e)} [dim](rank weights are "
+                "masstrail's convention; a screening aid, not a risk assessment)[/dim]"
+            )
     if "lower_bound" in r.context:
         console.print(f"[yellow]{_e(r.context['lower_bound'])}[/yellow]")
     if r.breakdown and r.breakdown.largest:
@@ -433,6 +452,50 @@ def audit(path, group_, markdown_file):
     if markdown_file:
         Path(markdown_file).write_text(audit_markdown(report, CAUTION), encoding="utf-8")
         console.print(f"Markdown handout written to {_e(markdown_file)}")
+    console.print(f"[dim]{_e(CAUTION)}[/dim]")
+
+
+@cli.command()
+@click.argument("entry", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@click.option("--json", "as_json", is_flag=True, help="Print the route as JSON.")
+def route(entry: Path, as_json: bool) -> None:
+    """The cumulative PMI and E-factor of the route that ends in ENTRY.
+
+    Steps are the entries ENTRY uses (front matter 'uses', or a material named like
+    another entry's product), linear or convergent, each weighted by the mass of its
+    product needed per gram of the final product. Nothing is written.
+    """
+    from rich.table import Table
+
+    from capture.pipeline import CAUTION
+    from capture.pipeline import scan as run_scan
+    from capture.routes import RouteError, build_route
+
+    nb = _open_notebook(_find_root(entry.resolve()))
+    results = run_scan(nb, write=False).results
+    rel = nb.relpath(entry.resolve())
+    final = next((r for r in results if r.entry.path == rel), None)
+    if final is None or final.status != "ok":
+        _fail(f"{entry} could not be read")
+    try:
+        rt = build_route(results, final.entry.id)
+    except RouteError as exc:
+        _fail(str(exc))
+    if as_json:
+        click.echo(rt.model_dump_json(indent=2))
+        return
+    t = Table(title=f"route to {final.entry.id}" + (" (convergent)" if rt.convergent else ""),
+              title_justify="left")  # fmt: skip
+    for col in ("step", "uses", "product g", "PMI", "E", "g per g final", "PMI share", "E share"):
+        t.add_column(col, justify="left" if col in {"step", "uses"} else "right")
+    for s in rt.steps:
+        t.add_row(_e(s.id), _e(", ".join(s.uses) or "—"), _num(s.product_g, ".4g"), _num(s.pmi),
+                  _num(s.e_factor), _num(s.scale, ".4g"), _num(s.pmi_contribution),
+                  _num(s.e_contribution))  # fmt: skip
+    console = _console()
+    console.print(t)
+    console.print(f"Route PMI {_num(rt.pmi)}, E-factor {_num(rt.e_factor)} (step figures added, "
+                  "weighted by the mass each step's product contributes).")  # fmt: skip
     console.print(f"[dim]{_e(CAUTION)}[/dim]")
 
 

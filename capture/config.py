@@ -109,6 +109,54 @@ class BalanceLayout(_Section):
     )
 
 
+STREAMS = ("reactive", "metal-bearing", "halogenated organic", "non-halogenated organic",
+           "aqueous", "solid")  # fmt: skip
+
+
+class WasteStreamSettings(_Section):
+    metals: list[str] = Field(
+        default_factory=lambda: [
+            "Pd",
+            "Pt",
+            "Rh",
+            "Ru",
+            "Ir",
+            "Os",
+            "Ni",
+            "Cu",
+            "Co",
+            "Cr",
+            "Hg",
+            "Sn",
+            "Ag",
+            "Au",
+            "Cd",
+            "Pb",
+            "Zn",
+            "Mn",
+        ],
+        description="elements that make a waste metal-bearing",
+    )
+    assign: dict[str, str] = Field(
+        default_factory=dict, description="material name → stream, overriding the rule"
+    )
+
+    def model_post_init(self, _context) -> None:
+        for name, stream in self.assign.items():
+            if stream not in STREAMS:
+                raise ValueError(f"waste stream {stream!r} for {name!r} is not one of {STREAMS}")
+
+
+class HazardWeights(_Section):
+    """Weights per CHEM21 rank for the hazard-weighted E-factor (this tool's convention)."""
+
+    recommended: float = Field(1.0, ge=0)
+    problematic: float = Field(2.0, ge=0)
+    hazardous: float = Field(5.0, ge=0)
+    highly_hazardous: float = Field(10.0, ge=0)
+    other: float = Field(1.0, ge=0, description="waste that is not a ranked solvent")
+
+
 class PluginSettings(_Section):
     block: list[str] = Field(default_factory=list, description="plugin names not to load")
 
@@ -127,6 +175,8 @@ class LabConfig(_Section):
     gaps: GapSettings = Field(default_factory=GapSettings)
     allowances: AllowanceSettings = Field(default_factory=AllowanceSettings)
     balance_layout: BalanceLayout = Field(default_factory=BalanceLayout)
+    waste_streams: WasteStreamSettings = Field(default_factory=WasteStreamSettings)
+    hazard_weights: HazardWeights = Field(default_factory=HazardWeights)
     source: str | None = Field(None, exclude=True, description="the file this was read from")
 
 

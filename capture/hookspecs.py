@@ -194,7 +194,11 @@ def masstrail_check_records(
 
 @hookspec
 def masstrail_find_gaps(
-    entry: Entry, materials: list[MaterialLine], product: ProductOut, config: LabConfig
+    entry: Entry,
+    materials: list[MaterialLine],
+    product: ProductOut,
+    resolve: Callable[[str], MaterialInfo | None],
+    config: LabConfig,
 ) -> list[Gap]:
     """Find the records that the waste figure needs but the entry lacks.
 
@@ -203,6 +207,7 @@ def masstrail_find_gaps(
     :param entry: the entry.
     :param materials: its material lines, weighed.
     :param product: the product with its mass (None when not recorded).
+    :param resolve: the material knowledge (name → properties, or None).
     :param config: the lab configuration.
     :returns: gaps, each with a severity and an actionable message; all
         answers are combined.
@@ -244,6 +249,7 @@ def masstrail_compute_metrics(
     product: ProductOut,
     recovered: list[MaterialLine],
     gaps: list[Gap],
+    resolve: Callable[[str], MaterialInfo | None],
     config: LabConfig,
 ) -> MetricsReport | None:
     """Compute figures for one entry.
@@ -255,6 +261,7 @@ def masstrail_compute_metrics(
     :param product: the product with its mass.
     :param recovered: what the entry credits as recovered, weighed.
     :param gaps: every gap found.
+    :param resolve: the material knowledge (name → properties, or None).
     :param config: the lab configuration.
     :returns: metrics (plain numbers, fractions 0–1, None where not
         computable) and, optionally, totals, breakdown and context; answers

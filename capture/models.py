@@ -149,6 +149,9 @@ class Entry(BaseModel):
     date: dt.date | None = None
     product: Product = Field(default_factory=Product)
     equation: str | None = None
+    uses: list[str] = Field(
+        default_factory=list, description="ids of entries whose product this one uses"
+    )
     balance_log: list[str] = Field(default_factory=list)
     materials: list[StructuredMaterial] = Field(default_factory=list)
     table_materials: list[StructuredMaterial] = Field(default_factory=list)
@@ -160,7 +163,7 @@ class Entry(BaseModel):
         _nullish
     )
 
-    @field_validator("balance_log", mode="before")
+    @field_validator("balance_log", "uses", mode="before")
     @classmethod
     def _one_or_many(cls, value: Any) -> Any:
         value = _nullish(value)
@@ -200,6 +203,8 @@ class MaterialInfo(_Model):
     water_fraction: float | None = Field(
         None, description="mass fraction of water, for water and aqueous solutions"
     )
+    chem21: str | None = Field(None, description="CHEM21 solvent rank (Prat et al. 2016)")
+    reactive: bool = Field(False, description="reactive or pyrophoric: quench before disposal")
     source: str = Field(description="where this record comes from")
 
 
@@ -224,6 +229,10 @@ class MaterialLine(_Model):
     problem: str | None = Field(None, description="why no mass could be given, if none")
     problem_kind: str | None = Field(None, description="the gap kind of that problem")
     water_g: float | None = Field(None, description="water contained in this mass, in g")
+    formula: str | None = Field(None, description="molecular formula, if known")
+    halogenated: bool | None = None
+    chem21: str | None = Field(None, description="CHEM21 solvent rank, for solvents")
+    reactive: bool | None = Field(None, description="reactive or pyrophoric")
     solvent: str | None = Field(
         None,
         description="for a solution: its solvent, whose density stands in when the "
@@ -292,6 +301,19 @@ class Metrics(_Model):
     completeness: float | None = Field(
         None, description="recorded input mass ÷ (recorded + allowance mass), 0–1"
     )
+    theoretical_yield_g: float | None = Field(None, description="from the limiting reagent")
+    stoichiometric_factor: float | None = Field(
+        None, description="SF: reactants used ÷ stoichiometric reactants (Andraos 2005)"
+    )
+    mrp: float | None = Field(None, description="materials recovery parameter (Andraos 2005)")
+    rme_global: float | None = Field(
+        None, description="yield × AE × (1/SF) × MRP: RME with all auxiliaries (Andraos 2005)"
+    )
+    carbon_efficiency: float | None = None
+    mass_intensity: float | None = Field(None, description="total mass without water ÷ product")
+    hazard_weighted_e: float | None = Field(
+        None, description="Σ waste × rank weight ÷ product, in the spirit of Sheldon's EQ"
+    )
 
 
 class Totals(_Model):
@@ -317,6 +339,7 @@ class ProductOut(_Model):
     mass_g: float | None
     basis: str | None = None
     molar_mass: float | None = Field(None, description="g/mol, from product.formula")
+    formula: str | None = None
 
 
 class EntryRef(_Model):
@@ -343,6 +366,7 @@ class Result(_Model):
     meta: dict[str, str | None] = Field(
         default_factory=dict, description="title, author, group, project, date"
     )
+    uses: list[str] = Field(default_factory=list, description="entries whose product this one uses")
     product: ProductOut
     materials: list[MaterialLine] = Field(default_factory=list)
     recovered: list[MaterialLine] = Field(
@@ -358,6 +382,7 @@ class Result(_Model):
     metrics: Metrics = Field(default_factory=Metrics)
     totals: Totals | None = None
     breakdown: Breakdown | None = None
+    waste: WasteProfile | None = None
     context: dict[str, str] = Field(default_factory=dict)
     caution: str
 
@@ -383,10 +408,22 @@ class MassAssignment(_Model):
     problem_kind: str | None = Field(None, description="gap kind for the problem")
 
 
+class WasteProfile(_Model):
+    """What the waste is: by stream and, for solvents, by CHEM21 rank (masses in g)."""
+
+    streams: dict[str, float] = Field(default_factory=dict)
+    solvent_ranks: dict[str, float] = Field(
+        default_factory=dict, description="solvent waste by CHEM21 rank (Prat et al. 2016)"
+    )
+    summary: str | None = None
+    rule: str = Field(description="how each mass was assigned to a stream")
+
+
 class MetricsReport(_Model):
     """One metrics plugin's answer, merged into the result."""
 
     metrics: dict[str, float | None] = Field(default_factory=dict)
+    waste: WasteProfile | None = None
     totals: Totals | None = None
     breakdown: Breakdown | None = None
     context: dict[str, str] = Field(default_factory=dict)

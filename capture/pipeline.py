@@ -252,6 +252,8 @@ class Notebook:
             infos[id(line)] = info
             if info is not None:
                 line.resolved, line.category = info.name, info.category
+                line.formula, line.halogenated = info.formula, info.halogenated
+                line.chem21, line.reactive = info.chem21, info.reactive
             line.stage = line.stage or stage_for(line.role, line.category)
 
         def key(line: MaterialLine) -> str:
@@ -351,7 +353,11 @@ class Notebook:
         )
         gaps: list[Gap] = _flatten(
             self.pm.hook.masstrail_find_gaps(
-                entry=entry, materials=materials, product=product, config=self.config
+                entry=entry,
+                materials=materials,
+                product=product,
+                resolve=self.resolve,
+                config=self.config,
             )
         )
         from_checks = [c.gap for c in checks if c.gap is not None]
@@ -380,6 +386,7 @@ class Notebook:
         metrics: dict[str, float | None] = {}
         totals: Totals | None = None
         breakdown: Breakdown | None = None
+        waste = None
         context: dict[str, str] = {}
         for report in self.pm.hook.masstrail_compute_metrics(
             entry=entry,
@@ -387,6 +394,7 @@ class Notebook:
             product=product,
             recovered=recovered,
             gaps=gaps,
+            resolve=self.resolve,
             config=self.config,
         ):
             if report is None:
@@ -396,6 +404,7 @@ class Notebook:
                     metrics[name] = value
             totals = report.totals or totals
             breakdown = report.breakdown or breakdown
+            waste = report.waste or waste
             context.update(report.context)
 
         return Result(
@@ -409,6 +418,7 @@ class Notebook:
                 "project": entry.project,
                 "date": entry.date.isoformat() if entry.date else None,
             },
+            uses=entry.uses,
             product=product,
             materials=materials,
             recovered=recovered,
@@ -418,6 +428,7 @@ class Notebook:
             metrics=Metrics.model_validate(metrics),
             totals=totals,
             breakdown=breakdown,
+            waste=waste,
             context=context,
             caution=CAUTION,
         )
@@ -485,11 +496,12 @@ class Notebook:
             text_mass = from_text.amounts[0]
         if not p.mass:
             if text_mass is None:
-                return ProductOut(name=p.name, mass_g=None), None
+                return ProductOut(name=p.name, mass_g=None, formula=p.formula), None
             basis = f"{text_mass.text} as reported in the text: {from_text.evidence}"
             mm = _from_formula(p.name or "product", p.formula) if p.formula else None
             return ProductOut(
                 name=p.name,
+                formula=p.formula,
                 mass_g=round(text_mass.total, 4),
                 basis=basis,
                 molar_mass=mm.molar_mass if mm else None,
@@ -503,6 +515,7 @@ class Notebook:
         self._weigh(line, info, MassContext())
         out = ProductOut(
             name=p.name,
+            formula=p.formula,
             mass_g=line.mass_g,
             basis=line.basis or line.problem,
             molar_mass=info.molar_mass if info and p.formula else None,

@@ -28,6 +28,8 @@ DEFAULT_PLUGINS: tuple[str, ...] = (
     "masses",
     "gaps",
     "metrics",
+    "reaction",
+    "waste",
     "sidecar",
 )
 

@@ -63,6 +63,8 @@ class MaterialData:
             category=rec.get("category", "reagent"),
             halogenated=bool(rec.get("halogenated", False)),
             water_fraction=rec.get("water_fraction"),
+            chem21=rec.get("chem21"),
+            reactive=bool(rec.get("reactive", False)),
             source=BUILTIN_SOURCE,
         )
 

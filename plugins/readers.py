@@ -28,6 +28,7 @@ KNOWN_KEYS = {
     "product",
     "equation",
     "balance_log",
+    "uses",
     "materials",
     "recovered",
 }

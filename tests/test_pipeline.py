@@ -42,7 +42,7 @@ def test_example_notebook_end_to_end(examples):
     }
     report = examples.scan()
     r = _by_id(report)
-    assert len(report.results) == 9 and not report.errors
+    assert len(report.results) == 10 and not report.errors
 
     # FW-0412: every input weighed by hand from the densities in the data file:
     # 1.90 + 1.18 + 2.30 + 1.62 + 40 mL DCM × 1.3266 + 40 mL 1 M HCl × 1.016
@@ -108,6 +108,22 @@ def test_example_notebook_end_to_end(examples):
     )
     assert 0.97 < kn.metrics.completeness < 1.0
 
+    # reaction metrics from the equation (FW-0425: C7H5NO4 + CH4O -> C8H7NO4 + H2O); the
+    # methanol is both reactant and solvent, so the stoichiometric factor is large
+    fe = r["FW-0425"]
+    ae = 181.1455 / (167.1189 + 32.0419)  # IUPAC weights: ester / (acid + methanol)
+    assert fe.metrics.atom_economy == pytest.approx(ae, abs=1e-4)
+    assert fe.metrics.yield_ == pytest.approx(7.86 / (50.0 * 181.1455 / 1000), abs=1e-4)
+    sf = (8.35 + 50 * 0.7914) / (50.0 / 1000 * (167.1189 + 32.0419))
+    assert fe.metrics.stoichiometric_factor == pytest.approx(sf, abs=1e-3)
+    assert "1/SF (excess reagent), costs the most" in fe.context["rme_factors"]
+    # every entry shows its waste by stream and by solvent rank
+    for res in report.results:
+        if res.materials:
+            assert res.waste is not None and res.waste.streams, res.entry.path
+    assert r["FW-0412"].waste.streams["halogenated organic"] > 50  # the DCM
+    assert r["ARN7-S3-R01"].waste.streams["metal-bearing"] == pytest.approx(24.0)  # 10% Pd/C
+
     # no product mass: blocking gap, no figures
     boc = r["FW-0427"]
     assert [g.kind for g in boc.gaps if g.severity == "blocking"] == ["product_mass_missing"]
@@ -151,7 +167,7 @@ def test_sidecars_validate_against_the_committed_schema(examples):
     examples.write("broken.md", "no front matter")
     examples.scan()
     sidecars = list(examples.root.rglob("*.waste.json"))
-    assert len(sidecars) == 10
+    assert len(sidecars) == 11
     for path in sidecars:
         jsonschema.validate(json.loads(path.read_text()), schema)
 

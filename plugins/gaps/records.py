@@ -13,6 +13,7 @@ from __future__ import annotations
 import re
 
 from capture.config import LabConfig
+from capture.equation import reaction_figures
 from capture.hookspecs import hookimpl
 from capture.models import Entry, Gap, MaterialLine, ProductOut
 from capture.pipeline import choose_limiting
@@ -134,7 +135,9 @@ def weighing_gaps(
 
 
 @hookimpl(specname="masstrail_find_gaps")
-def product_sanity_gaps(materials: list[MaterialLine], product: ProductOut) -> list[Gap]:
+def product_sanity_gaps(
+    entry: Entry, materials: list[MaterialLine], product: ProductOut, resolve
+) -> list[Gap]:
     """A product heavier than every recorded input together, or a yield above 100 %."""
     if product.mass_g is None:
         return []
@@ -153,21 +156,32 @@ def product_sanity_gaps(materials: list[MaterialLine], product: ProductOut) -> l
                 "E-factor",
             )
         )
-    limiting = choose_limiting(materials)
-    if limiting is not None and product.molar_mass:
-        product_mmol = product.mass_g / product.molar_mass * 1000
-        y = product_mmol / limiting.moles_mmol
-        if y > 1.0:
-            gaps.append(
-                Gap(
-                    kind="yield_above_100",
-                    item=product.name or "product",
-                    severity="major",
-                    evidence=f"{product_mmol:.4g} mmol of product from "
-                    f"{limiting.moles_mmol:g} mmol "
-                    f"of {limiting.name} (1:1 assumed)",
-                    message=f"the yield works out at {y:.0%}; the product may be wet or impure, "
-                    "or a mass is wrong. Dry to constant mass and weigh again",
-                )
+    y, basis = None, ""
+    if entry.equation:
+        try:
+            fig = reaction_figures(entry.equation, materials, product, resolve)
+        except ValueError:
+            fig = None  # the reaction metrics say why
+        if fig is not None and fig.yield_ is not None:
+            y = fig.yield_
+            basis = (f"{product.mass_g:g} g of product against {fig.theoretical_yield_g:.4g} g "
+                     f"theoretical from {fig.limiting} (the entry's equation)")  # fmt: skip
+    else:
+        limiting = choose_limiting(materials)
+        if limiting is not None and product.molar_mass:
+            product_mmol = product.mass_g / product.molar_mass * 1000
+            y = product_mmol / limiting.moles_mmol
+            basis = (f"{product_mmol:.4g} mmol of product from {limiting.moles_mmol:g} mmol of "
+                     f"{limiting.name} (1:1 assumed: the entry gives no equation)")  # fmt: skip
+    if y is not None and y > 1.0:
+        gaps.append(
+            Gap(
+                kind="yield_above_100",
+                item=product.name or "product",
+                severity="major",
+                evidence=basis,
+                message=f"the yield works out at {y:.0%}; the product may be wet or impure, "
+                "or a mass is wrong. Dry to constant mass and weigh again",
             )
+        )
     return gaps
