@@ -116,7 +116,7 @@ def test_example_notebook_end_to_end(examples):
     assert fe.metrics.yield_ == pytest.approx(7.86 / (50.0 * 181.1455 / 1000), abs=1e-4)
     sf = (8.35 + 50 * 0.7914) / (50.0 / 1000 * (167.1189 + 32.0419))
     assert fe.metrics.stoichiometric_factor == pytest.approx(sf, abs=1e-3)
-    assert "1/SF (excess reagent), costs the most" in fe.context["rme_factors"]
+    assert "MRP (solvents, workup), costs the most" in fe.context["rme_factors"]
     # every entry shows its waste by stream and by solvent rank
     for res in report.results:
         if res.materials:
