@@ -81,8 +81,14 @@ def waste_profile(
         return None
     waste = {id(m): m.mass_g for m in weighed}
     # the product leaves the reactants; recovered material leaves its own lines
-    reactants = [m for m in weighed if m.stage == "reaction" and m.category not in
-                 {"solvent", "water", "aqueous"}]  # fmt: skip
+    # the catalyst is not consumed: the product comes out of the other reaction inputs
+    reactants = [
+        m
+        for m in weighed
+        if m.stage == "reaction"
+        and m.category not in {"solvent", "water", "aqueous", "catalyst"}
+        and (m.role or "").casefold() != "catalyst"
+    ]
     if product.mass_g and reactants:
         total = sum(m.mass_g for m in reactants)
         for m in reactants:
