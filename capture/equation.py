@@ -3,7 +3,8 @@
 An ``equation:`` is written with formulas or names and optional coefficients,
 ``3 C9H10O + 2 CrO3 + 3 H2SO4 -> 3 C8H8O + Cr2(SO4)3 + 6 H2O`` or
 ``4-bromoanisole + phenylboronic acid -> 4-methoxybiphenyl``; the arrow may be
-``->``, ``→``, ``=>`` or ``=``. A term that reads as a formula is one; any other
+``->``, ``→``, ``=>`` or `` = `` (with spaces). SMILES terms are read through
+RDKit when it is installed. A term that reads as a formula is one; any other
 term is a name, resolved to a formula through the material knowledge. The
 desired product is the right-hand term that matches the entry's product (by name
 or formula), else the first.
@@ -31,9 +32,24 @@ from dataclasses import dataclass
 
 from capture.chem import material_key, molar_mass
 
-_ARROW = re.compile(r"\s*(?:->|→|=>|⟶|=)\s*")
+_ARROW = re.compile(r"\s*(?:->|→|=>|⟶)\s*|\s+=\s+")  # a bare "=" only with spaces: SMILES use it
 _TERM = re.compile(r"^\s*(?:(?P<coef>\d+(?:\.\d+)?|½|1/2)\s+)?(?P<what>.+?)\s*$")
 _FORMULA_LIKE = re.compile(r"^(?:[A-Z][a-z]?\d*|\(|\)\d*|\[|\]\d*|[·.]\d*)+$")
+
+
+_SMILES_LIKE = re.compile(r"[=#@\\/]|c1|n1|\(=O\)|^[BCNOPSFIcnops\[][\w\[\]()=#@+\-\\/]*$")
+
+
+def formula_from_smiles(smiles: str) -> str | None:
+    """The molecular formula of a SMILES string, through RDKit when it is installed."""
+    try:
+        from rdkit import Chem, RDLogger
+        from rdkit.Chem.rdMolDescriptors import CalcMolFormula
+    except ImportError:
+        return None
+    RDLogger.DisableLog("rdApp.*")
+    mol = Chem.MolFromSmiles(smiles)
+    return CalcMolFormula(mol) if mol is not None else None
 
 
 class EquationError(ValueError):
@@ -69,6 +85,8 @@ def _term(text: str, resolve: Callable[[str], object]) -> Term:
             formula = what
         except ValueError:
             formula = None
+    if formula is None and _SMILES_LIKE.search(what):
+        formula = formula_from_smiles(what)
     if formula is None:
         info = resolve(what)
         formula = getattr(info, "formula", None)

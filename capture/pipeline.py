@@ -491,6 +491,10 @@ class Notebook:
     ) -> tuple[ProductOut, Gap | None]:
         """The product and its mass: the front matter's, else the one the text reports."""
         p = entry.product
+        if not p.formula and p.smiles:
+            from capture.equation import formula_from_smiles
+
+            p = p.model_copy(update={"formula": formula_from_smiles(p.smiles)})
         text_mass = None
         if from_text is not None and from_text.amounts:
             text_mass = from_text.amounts[0]

@@ -120,3 +120,15 @@ def test_an_unbalanced_equation_shows_the_imbalance_not_a_figure(notebook):
     side = notebook.sidecar("e.md")
     assert side["metrics"]["atom_economy"] is None
     assert "2 H more on the left, 1 O more on the left" in side["context"]["equation"]
+
+
+def test_smiles_in_equations_through_rdkit():
+    pytest.importorskip("rdkit")
+    # ibuprofen from SMILES: C13H18O2 (RDKit, a general-purpose chemistry library from PyPI)
+    eq = Equation.parse("CC(C)Cc1ccccc1 + CC(=O)OC(C)=O + H2 + [C-]#[O+] -> "
+                        "CC(C)Cc1ccc(cc1)C(C)C(=O)O + CC(=O)O", _resolve)  # fmt: skip
+    assert [t.formula for t in eq.reactants] == ["C10H14", "C4H6O3", "H2", "CO"]
+    assert eq.imbalance() == {}
+    d = eq.desired(None, "C13H18O2")
+    ae = atom_economy(d.molar_mass, [(t.coefficient, t.molar_mass) for t in eq.reactants])
+    assert ae == pytest.approx(0.774, abs=0.002)  # Cann & Connelly (ACS 2000), as above
