@@ -48,7 +48,9 @@ def stream_of(line: MaterialLine, config: LabConfig) -> str:
     for name, stream in config.waste_streams.assign.items():
         if material_key(name) in {material_key(line.name), material_key(line.resolved or "")}:
             return stream
-    elements = set(_ELEMENT.findall(line.formula or ""))
+    # the chloride of a hydrochloride salt (EDC·HCl) is ionic: not a halogenated organic
+    formula = re.sub(r"[.·]H(?:Cl|Br|I)$", "", line.formula or "")
+    elements = set(_ELEMENT.findall(formula))
     if line.reactive:
         return "reactive"
     if elements & set(config.waste_streams.metals) or _SUPPORTED_METAL.search(

@@ -132,3 +132,36 @@ def test_smiles_in_equations_through_rdkit():
     d = eq.desired(None, "C13H18O2")
     ae = atom_economy(d.molar_mass, [(t.coefficient, t.molar_mass) for t in eq.reactants])
     assert ae == pytest.approx(0.774, abs=0.002)  # Cann & Connelly (ACS 2000), as above
+
+
+@pytest.mark.parametrize(
+    ("line", "stream"),
+    [
+        (
+            dict(name="DCM", category="solvent", formula="CH2Cl2", halogenated=True),
+            "halogenated organic",
+        ),
+        (dict(name="EtOAc", category="solvent", formula="C4H8O2"), "non-halogenated organic"),
+        (dict(name="brine", category="aqueous"), "aqueous"),
+        (dict(name="K2CO3", category="reagent", formula="K2CO3"), "aqueous"),
+        (
+            dict(name="EDC·HCl", category="reagent", formula="C8H17N3.HCl"),
+            "non-halogenated organic",
+        ),
+        (dict(name="MgSO4", category="drying agent", formula="MgSO4"), "solid"),
+        (dict(name="silica", category="sorbent", formula="SiO2"), "solid"),
+        (dict(name="Pd(OAc)2", category="catalyst", formula="C4H6O4Pd"), "metal-bearing"),
+        (dict(name="10% Pd/C", category="catalyst"), "metal-bearing"),
+        (dict(name="NaH", category="reagent", formula="NaH", reactive=True), "reactive"),
+    ],
+    ids=lambda v: v["name"] if isinstance(v, dict) else v,
+)
+def test_waste_stream_rule(line, stream):
+    # Prudent Practices in the Laboratory (NRC 2011, ch. 8): halogenated apart from other
+    # organics, aqueous apart, metals apart, contaminated solids labelled; reactive flagged
+    from capture.models import MaterialLine
+    from masstrail_plugins.waste import stream_of
+
+    assert stream_of(MaterialLine(origin="front-matter", **line), LabConfig()) == stream
+    cfg = LabConfig.model_validate({"waste_streams": {"assign": {line["name"]: "solid"}}})
+    assert stream_of(MaterialLine(origin="front-matter", **line), cfg) == "solid"
