@@ -61,7 +61,9 @@ def stream_of(line: MaterialLine, config: LabConfig) -> str:
         return "solid"
     if line.halogenated or ("C" in elements and elements & {"F", "Cl", "Br", "I"}):
         return "halogenated organic"
-    if line.category in {"water", "aqueous"} or (line.formula and "C" not in elements):
+    # carbonates and bicarbonates carry carbon but are inorganic salts
+    organic_c = "C" in set(_ELEMENT.findall(re.sub(r"H?CO3", "", formula)))
+    if line.category in {"water", "aqueous"} or (line.formula and not organic_c):
         return "aqueous"
     return "non-halogenated organic"
 
