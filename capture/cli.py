@@ -499,6 +499,47 @@ def route(entry: Path, as_json: bool) -> None:
     console.print(f"[dim]{_e(CAUTION)}[/dim]")
 
 
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.option(
+    "--poll", is_flag=True, help="Poll the folder instead of using file events (network shares)."
+)
+@click.option(
+    "--settle",
+    type=float,
+    default=0.05,
+    show_default=True,
+    help="Seconds without a new event before an entry is read.",
+)
+@click.option(
+    "--rescan",
+    type=float,
+    default=60.0,
+    show_default=True,
+    help="Seconds between full rescans that catch lost events.",
+)
+def watch(path: Path, poll: bool, settle: float, rescan: float) -> None:
+    """Keep every entry's results under PATH current while chemists type.
+
+    Catches up first (entries changed since the last run, by content hash), then
+    follows file events; prints a line per recomputation and every new major or
+    blocking gap. One watcher per notebook; Ctrl-C stops it.
+    """
+    from capture.watch import WatchError
+    from capture.watch import watch as run_watch
+
+    nb_root = path.resolve()
+    _open_notebook(nb_root)  # configuration errors exit 2 before anything starts
+
+    def echo(line: str) -> None:
+        click.echo(line)
+
+    try:
+        run_watch(nb_root, settle=settle, rescan=rescan, poll=poll, echo=echo)
+    except WatchError as exc:
+        _fail(str(exc))
+
+
 def main() -> None:
     """Entry point of the ``masstrail`` command."""
     cli()

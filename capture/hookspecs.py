@@ -276,6 +276,21 @@ def masstrail_compute_metrics(
 
 
 @hookspec
+def masstrail_notify(result: Result, gaps: list[Gap], config: LabConfig) -> None:
+    """Tell someone that an entry has a new major or blocking gap.
+
+    Called by the watcher after a recomputation opened such gaps (not for gaps
+    that were already there). The built-in prints; a lab can add a
+    desktop-notification or chat plugin.
+
+    :param result: the entry's new result.
+    :param gaps: the newly opened major and blocking gaps.
+    :param config: the lab configuration.
+    :returns: nothing; every plugin is called.
+    """
+
+
+@hookspec
 def masstrail_write_result(result: Result, entry_path: Path, config: LabConfig) -> list[Path]:
     """Write one entry's result somewhere: a sidecar, a card, a store.
 

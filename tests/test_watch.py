@@ -1,0 +1,223 @@
+"""The watcher, as a real process on a real folder (events, settling, locks, signals)."""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import threading
+import time
+from pathlib import Path
+
+import pytest
+
+from helpers import entry_md
+
+ENTRY = entry_md("""
+    title: watched
+    product: {name: p, mass: 1.00 g}
+    materials: [{name: A, amount: 3.00 g}]
+    """)
+
+
+class WatcherProcess:
+    """``masstrail watch`` in a child process, its output collected line by line."""
+
+    def __init__(self, root: Path, *args: str) -> None:
+        cmd = [sys.executable, "-c", "from capture.cli import main; main()", "watch", str(root),
+               "--settle", "0.05", "--rescan", "30", *args]  # fmt: skip
+        self.proc = subprocess.Popen(
+            cmd, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True
+        )
+        self.lines: list[str] = []
+        self._reader = threading.Thread(target=self._read, daemon=True)
+        self._reader.start()
+
+    def _read(self) -> None:
+        for line in self.proc.stdout:
+            self.lines.append(line.rstrip("\n"))
+
+    def wait_for(self, predicate, timeout: float = 15.0, what: str = "condition") -> None:
+        end = time.monotonic() + timeout
+        while time.monotonic() < end:
+            if predicate():
+                return
+            if self.proc.poll() is not None and not predicate():
+                break
+            time.sleep(0.05)
+        raise AssertionError(f"timed out waiting for {what}; output:\n" + "\n".join(self.lines))
+
+    def ready(self) -> None:
+        self.wait_for(
+            lambda: any(line.startswith("watching ") for line in self.lines), what="start"
+        )
+
+    def count(self, text: str) -> int:
+        return sum(1 for line in self.lines if text in line)
+
+    def stop(self) -> int:
+        if self.proc.poll() is None:
+            self.proc.send_signal(signal.SIGTERM)
+            try:
+                self.proc.wait(timeout=10)
+            except subprocess.TimeoutExpired:
+                self.proc.kill()
+        return self.proc.returncode
+
+
+@pytest.fixture
+def watched(notebook):
+    procs = []
+
+    def start(*args):
+        w = WatcherProcess(notebook.root, *args)
+        procs.append(w)
+        w.ready()
+        return w
+
+    yield start
+    for w in procs:
+        w.stop()
+
+
+def _side(path: Path) -> dict | None:
+    side = path.with_name(path.name.rsplit(".", 1)[0] + ".waste.json")
+    try:
+        return json.loads(side.read_text())
+    except (OSError, ValueError):
+        return None
+
+
+def _mass(path: Path) -> float | None:
+    s = _side(path)
+    return s["product"]["mass_g"] if s else None
+
+
+def test_editor_save_patterns_update_the_sidecar(notebook, watched):
+    entry = notebook.write("e.md", ENTRY)
+    w = watched()
+    assert _mass(entry) == 1.0  # caught up at start
+    # 1. in place (VS Code)
+    entry.write_text(ENTRY.replace("1.00 g", "1.10 g"))
+    w.wait_for(lambda: _mass(entry) == 1.1, what="in-place save")
+    # 2. temp file renamed over the entry (gedit, JetBrains)
+    tmp = notebook.root / ".goutputstream-XYZ1"
+    tmp.write_text(ENTRY.replace("1.00 g", "1.20 g"))
+    os.replace(tmp, entry)
+    w.wait_for(lambda: _mass(entry) == 1.2, what="temp + rename")
+    # 3. vim: swap file, entry moved to a backup, a new entry written, backup deleted
+    swap = notebook.root / ".e.md.swp"
+    swap.write_text("swap")
+    os.rename(entry, notebook.root / "e.md~")
+    entry.write_text(ENTRY.replace("1.00 g", "1.30 g"))
+    (notebook.root / "e.md~").unlink()
+    swap.unlink()
+    w.wait_for(lambda: _mass(entry) == 1.3, what="backup + rename")
+    assert sorted(p.name for p in notebook.root.iterdir() if "waste" in p.name) == ["e.waste.json"]
+
+
+def test_a_burst_of_saves_is_one_settled_computation(notebook, watched):
+    entry = notebook.write("e.md", ENTRY)
+    w = watched("--settle", "0.4")
+    for i in range(100):  # 100 saves within about a second
+        entry.write_text(ENTRY.replace("1.00 g", f"{1 + i / 100:.2f} g"))
+        time.sleep(0.005)
+    w.wait_for(lambda: _mass(entry) == 1.99, what="the final content")
+    time.sleep(0.6)
+    assert w.count("e.md: E-factor") == 2  # the catch-up, then one settled computation
+    assert (
+        _side(entry)["entry"]["sha256"]
+        == __import__("hashlib").sha256(entry.read_bytes()).hexdigest()
+    )
+
+
+def test_deletes_moves_new_folders_and_balance_logs(notebook, watched):
+    a = notebook.write("a.md", ENTRY)
+    notebook.write("logs/bal.csv", "ID,Net,Unit\nA,2.50,g\n")
+    b = notebook.write("b.md", entry_md("balance_log: logs/bal.csv\n" + ENTRY.split("---\n")[1]))
+    w = watched()
+    assert _side(b)["materials"][0]["mass_g"] == 2.5
+    a.unlink()
+    w.wait_for(lambda: not (notebook.root / "a.waste.json").exists(), what="delete")
+    os.rename(b, notebook.root / "moved.md")
+    w.wait_for(lambda: _side(notebook.root / "moved.md") is not None
+               and not (notebook.root / "b.waste.json").exists(), what="move")  # fmt: skip
+    deep = notebook.root / "new" / "deeper"
+    deep.mkdir(parents=True)
+    (deep / "c.md").write_text(ENTRY)
+    w.wait_for(lambda: _side(deep / "c.md") is not None, what="entry in a new folder")
+    (notebook.root / "logs" / "bal.csv").write_text("ID,Net,Unit\nA,2.75,g\n")
+    w.wait_for(lambda: _side(notebook.root / "moved.md")["materials"][0]["mass_g"] == 2.75,
+               what="balance log change")  # fmt: skip
+
+
+def test_one_watcher_per_notebook_and_a_stale_lock_is_recovered(notebook, watched):
+    notebook.write("e.md", ENTRY)
+    w = watched()
+    second = subprocess.run(
+        [sys.executable, "-c", "from capture.cli import main; main()", "watch", str(notebook.root)],
+        capture_output=True,
+        text=True,
+        timeout=30,
+    )
+    assert second.returncode == 2 and "already watching" in second.stderr
+    w.proc.kill()  # kill -9: the lock stays behind
+    w.proc.wait()
+    lock = notebook.root / ".masstrail" / "watch.lock"
+    assert lock.exists()
+    entry = notebook.root / "e.md"
+    entry.write_text(ENTRY.replace("1.00 g", "1.50 g"))  # changed while no watcher runs
+    w2 = watched()
+    assert _mass(entry) == 1.5  # caught up at restart
+    assert json.loads(lock.read_text())["pid"] == w2.proc.pid
+    assert w2.stop() == 0 and not lock.exists() and "watcher stopped" in w2.lines[-1]
+
+
+def test_polling_mode_and_an_idle_notebook_stays_idle(notebook, watched):
+    entry = notebook.write("e.md", ENTRY)
+    w = watched("--poll", "--rescan", "0.3")
+    side = notebook.root / "e.waste.json"
+    before = side.stat().st_mtime_ns
+    time.sleep(1.5)  # several rescans and polls with nothing changed
+    assert side.stat().st_mtime_ns == before and w.count("e.md: E-factor") == 1
+    entry.write_text(ENTRY.replace("1.00 g", "1.40 g"))
+    w.wait_for(lambda: _mass(entry) == 1.4, what="a change seen by polling")
+
+
+def test_kill_9_at_random_moments_leaves_every_sidecar_whole(notebook):
+    """Crash harness: kill the watcher mid-work; every sidecar parses; a restart reconciles."""
+    import random
+
+    rng = random.Random(7)
+    entries = [notebook.write(f"e{i}.md", ENTRY) for i in range(8)]
+    for round_ in range(4):
+        w = WatcherProcess(notebook.root)
+        w.ready()
+        for i, e in enumerate(entries):
+            e.write_text(ENTRY.replace("1.00 g", f"1.{round_}{i} g"))
+        time.sleep(rng.uniform(0.0, 0.3))
+        w.proc.kill()
+        w.proc.wait()
+        for e in entries:
+            side = e.with_name(e.stem + ".waste.json")
+            json.loads(side.read_text())  # old or new, never partial
+    w = WatcherProcess(notebook.root)
+    w.ready()
+    assert [_mass(e) for e in entries] == [float(f"1.3{i}") for i in range(8)]
+    # temp files a killed write left behind are cleaned up at start
+    assert [p.name for p in notebook.root.iterdir() if p.name.endswith(".tmp")] == []
+    w.stop()
+
+
+def test_a_new_blocking_gap_is_announced(notebook, watched):
+    """masstrail_notify: the built-in prints each newly opened major or blocking gap."""
+    entry = notebook.write("e.md", ENTRY)
+    w = watched()
+    assert w.count("! e.md") == 0
+    entry.write_text(ENTRY.replace("product: {name: p, mass: 1.00 g}", "product: {name: p}"))
+    w.wait_for(lambda: w.count("! e.md: blocking gap — p: no product mass") == 1, what="the notice")
+    entry.write_text(ENTRY.replace("1.00 g", "1.01 g"))
+    w.wait_for(lambda: _mass(entry) == 1.01, what="the fix")
+    assert w.count("! e.md") == 1  # closing a gap is reported on the line, not notified
