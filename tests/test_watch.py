@@ -221,3 +221,33 @@ def test_a_new_blocking_gap_is_announced(notebook, watched):
     entry.write_text(ENTRY.replace("1.00 g", "1.01 g"))
     w.wait_for(lambda: _mass(entry) == 1.01, what="the fix")
     assert w.count("! e.md") == 1  # closing a gap is reported on the line, not notified
+
+
+def test_falls_back_to_polling_when_native_watching_cannot_start(notebook, monkeypatch):
+    """inotify's watch limit makes Observer.start() raise OSError(ENOSPC): poll instead."""
+    import errno
+
+    import watchdog.observers
+
+    from capture.pipeline import Notebook
+    from capture.watch import Watcher
+
+    class NoInotify:
+        def schedule(self, *a, **k):
+            pass
+
+        def start(self):
+            raise OSError(errno.ENOSPC, "inotify watch limit reached")
+
+    monkeypatch.setattr(watchdog.observers, "Observer", NoInotify)
+    said = []
+    w = Watcher(Notebook.open(notebook.root), echo=said.append)
+    w._start_observer()
+    try:
+        from watchdog.observers.polling import PollingObserver
+
+        assert isinstance(w.observer, PollingObserver)
+        assert "watching by polling instead" in said[0] and "max_user_watches" in said[0]
+    finally:
+        w.observer.stop()
+        w.observer.join()
