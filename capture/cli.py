@@ -540,6 +540,86 @@ def watch(path: Path, poll: bool, settle: float, rescan: float) -> None:
         _fail(str(exc))
 
 
+def _store(path: Path):
+    from capture.store import connect, store_path
+
+    nb = _open_notebook(path)
+    db, message = store_path(nb.root, nb.config.store.path)
+    if message:
+        click.echo(f"masstrail: {message}", err=True)
+    return nb, connect(db), db
+
+
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+def rebuild(path: Path) -> None:
+    """Recreate the store's current tables from the entries under PATH.
+
+    The notebook is the source of truth for current results; the history is kept
+    and only grows. Sidecars are written as by scan.
+    """
+    from capture.pipeline import scan as run_scan
+    from capture.store import rebuild as do_rebuild
+
+    nb, conn, db = _store(path)
+    nb.pm.set_blocked("store")  # the rebuild writes the store itself, in one transaction
+    report = run_scan(nb)
+    added = do_rebuild(conn, report.results)
+    click.echo(f"rebuilt {db}: {len(report.results)} entries; {added} new history row(s)")
+
+
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.argument("file", type=click.Path(dir_okay=False, path_type=Path))
+def backup(path: Path, file: Path) -> None:
+    """Copy the store of PATH, history included, to FILE (safe while a watcher runs)."""
+    from capture.store import StoreError
+    from capture.store import backup as do_backup
+
+    _nb, conn, db = _store(path)
+    try:
+        do_backup(conn, file)
+    except StoreError as exc:
+        _fail(str(exc))
+    click.echo(f"copied {db} to {file}")
+
+
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.option(
+    "--format", "fmt", type=click.Choice(["csv", "json"]), default="csv", show_default=True
+)
+@click.option(
+    "-o",
+    "--output",
+    type=click.Path(path_type=Path),
+    help="A folder for CSV (one file per table), a file for JSON "
+    "(default: standard output for JSON, ./masstrail-export for CSV).",
+)
+def export(path: Path, fmt: str, output: Path | None) -> None:
+    """Export entries, materials, gaps and metrics under PATH as tables (CSV or JSON).
+
+    The entries are scanned first, so the export is current. CSV cells that a
+    spreadsheet would run as formulas are neutralised.
+    """
+    from capture.exports import TABLES, export_csv, export_json
+    from capture.pipeline import scan as run_scan
+
+    nb, conn, _db = _store(path)
+    run_scan(nb)  # bring the store up to date (the store plugin writes each result)
+    if fmt == "json":
+        text = export_json(conn)
+        if output:
+            output.write_text(text, encoding="utf-8")
+            click.echo(f"wrote {output}", err=True)
+        else:
+            click.echo(text, nl=False)
+        return
+    folder = output or Path("masstrail-export")
+    written = export_csv(conn, folder)
+    click.echo(f"wrote {', '.join(str(p) for p in written)} ({', '.join(TABLES)})")
+
+
 def main() -> None:
     """Entry point of the ``masstrail`` command."""
     cli()

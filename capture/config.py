@@ -157,6 +157,18 @@ class HazardWeights(_Section):
     other: float = Field(1.0, ge=0, description="waste that is not a ranked solvent")
 
 
+class StoreSettings(_Section):
+    enabled: bool = Field(True, description="keep results and their history in SQLite")
+    path: str | None = Field(
+        None,
+        description="database file; default .masstrail/records.db (local data folder on "
+        "network shares)",
+    )
+    late_record_days: float = Field(
+        7, ge=0, description="flag amounts first recorded this many days after the experiment"
+    )
+
+
 class PluginSettings(_Section):
     block: list[str] = Field(default_factory=list, description="plugin names not to load")
 
@@ -177,6 +189,7 @@ class LabConfig(_Section):
     balance_layout: BalanceLayout = Field(default_factory=BalanceLayout)
     waste_streams: WasteStreamSettings = Field(default_factory=WasteStreamSettings)
     hazard_weights: HazardWeights = Field(default_factory=HazardWeights)
+    store: StoreSettings = Field(default_factory=StoreSettings)
     source: str | None = Field(None, exclude=True, description="the file this was read from")
 
 

@@ -291,7 +291,9 @@ def masstrail_notify(result: Result, gaps: list[Gap], config: LabConfig) -> None
 
 
 @hookspec
-def masstrail_write_result(result: Result, entry_path: Path, config: LabConfig) -> list[Path]:
+def masstrail_write_result(
+    result: Result, entry_path: Path, root: Path, config: LabConfig
+) -> list[Path]:
     """Write one entry's result somewhere: a sidecar, a card, a store.
 
     Called once per entry, last, also for entries that could not be read
@@ -299,7 +301,24 @@ def masstrail_write_result(result: Result, entry_path: Path, config: LabConfig) 
 
     :param result: the complete result.
     :param entry_path: the entry file on disk.
+    :param root: the notebook root.
     :param config: the lab configuration.
     :returns: the paths written (unchanged files are not rewritten and not
         listed); all answers are combined.
+    """
+
+
+@hookspec
+def masstrail_remove_result(entry_path: Path, relpath: str, root: Path, config: LabConfig) -> None:
+    """Forget the results of an entry that was deleted (or moved away).
+
+    Called by the watcher when an entry file disappears. The sidecar writer removes
+    ``NAME.waste.json`` and the card; the store drops the entry's current rows and
+    keeps its history.
+
+    :param entry_path: where the entry was on disk.
+    :param relpath: that path relative to the notebook root, with ``/``.
+    :param root: the notebook root.
+    :param config: the lab configuration.
+    :returns: nothing; every plugin is called.
     """

@@ -185,7 +185,9 @@ class Notebook:
     def write(self, result: Result, path: Path) -> list[Path]:
         """Hand a result to every writer plugin."""
         return _flatten(
-            self.pm.hook.masstrail_write_result(result=result, entry_path=path, config=self.config)
+            self.pm.hook.masstrail_write_result(
+                result=result, entry_path=path, root=self.root, config=self.config
+            )
         )
 
     def _line(self, item: StructuredMaterial, origin: str, role: str | None = None) -> MaterialLine:

@@ -31,6 +31,7 @@ DEFAULT_PLUGINS: tuple[str, ...] = (
     "reaction",
     "waste",
     "sidecar",
+    "store",
     "notify",
 )
 

@@ -38,13 +38,7 @@ from collections.abc import Callable
 from pathlib import Path
 
 from capture.models import Result
-from capture.paths import (
-    STATE_DIR,
-    card_path,
-    is_own_output,
-    is_temp_file,
-    sidecar_path,
-)
+from capture.paths import STATE_DIR, is_own_output, is_temp_file, sidecar_path
 from capture.pipeline import Notebook
 
 LOCK_NAME = "watch.lock"
@@ -193,9 +187,9 @@ class Watcher:
             return
         self.known.pop(path, None)
         self.last.pop(path, None)
-        for out in (sidecar_path(path), card_path(path)):
-            with contextlib.suppress(FileNotFoundError):
-                out.unlink()
+        self.nb.pm.hook.masstrail_remove_result(
+            entry_path=path, relpath=self.nb.relpath(path), root=self.root, config=self.nb.config
+        )
         self.echo(
             f"{time.strftime('%H:%M:%S')} {self.nb.relpath(path)}: deleted; its results removed"
         )

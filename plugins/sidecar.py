@@ -36,6 +36,16 @@ def render_card(result: Result) -> str:
     return _card_template().render(r=result)
 
 
+@hookimpl(specname="masstrail_remove_result")
+def remove_sidecar(entry_path: Path) -> None:
+    """A deleted entry's sidecar and card go with it."""
+    import contextlib
+
+    for out in (sidecar_path(entry_path), card_path(entry_path)):
+        with contextlib.suppress(FileNotFoundError):
+            out.unlink()
+
+
 @hookimpl(specname="masstrail_write_result")
 def write_sidecar(result: Result, entry_path: Path, config: LabConfig) -> list[Path]:
     """Write ``NAME.waste.json`` (always) and ``NAME.waste.md`` (with ``[output] card = true``)."""

@@ -1,0 +1,176 @@
+"""The lab's SQLite store: round trip, append-only history, rebuild, backup, readers, exports."""
+
+from __future__ import annotations
+
+import csv
+import json
+import sqlite3
+import threading
+
+import pytest
+from click.testing import CliRunner
+
+from capture.cli import cli
+from capture.pipeline import Notebook, scan
+from capture.store import (
+    connect,
+    current_tables,
+    filesystem_type,
+    history_for,
+    rebuild,
+    store_path,
+)
+
+from helpers import entry_md
+
+ENTRY = entry_md(
+    """
+    author: "=cmd|' /C calc'!A0"
+    group: Alder
+    product: {name: p, mass: 1.00 g}
+    materials: [{name: DCM, amount: 10 mL}, {name: A, amount: 3.00 g}]
+    """,
+    "Washed with brine and dried over MgSO4.",
+)
+
+
+def _db(notebook):
+    return connect(notebook.root / ".masstrail" / "records.db")
+
+
+def test_round_trip_of_current_results(notebook):
+    notebook.write("e.md", ENTRY)
+    notebook.scan()
+    conn = _db(notebook)
+    (entry,) = conn.execute("SELECT path, grp, product_g, status FROM entries").fetchall()
+    assert entry == ("e.md", "Alder", 1.0, "ok")
+    mats = conn.execute("SELECT name, mass_g, stream FROM materials ORDER BY id").fetchall()
+    assert mats == [("DCM", 13.266, "halogenated organic"), ("A", 3.0, "non-halogenated organic")]
+    (e,) = conn.execute("SELECT e_factor FROM metrics").fetchone()
+    assert e == pytest.approx(15.266)
+    kinds = {k for (k,) in conn.execute("SELECT kind FROM gaps")}
+    assert kinds == {"liquid_volume", "drying_agent_mass"}
+    view = conn.execute("SELECT major + minor FROM entry_gaps WHERE path = 'e.md'").fetchone()
+    assert view == (2,)
+
+
+def test_history_is_append_only_and_counts_versions(notebook):
+    path = notebook.write("e.md", ENTRY)
+    notebook.scan()
+    notebook.scan()  # unchanged: no new history row
+    conn = _db(notebook)
+    assert conn.execute("SELECT COUNT(*) FROM history").fetchone() == (1,)
+    path.write_text(ENTRY.replace("3.00 g", "3.50 g"))
+    notebook.scan()
+    hist = history_for(conn, "e.md")
+    assert len(hist) == 2
+    assert [h["result"]["materials"][1]["mass_g"] for h in hist] == [3.0, 3.5]
+    with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+        conn.execute("UPDATE history SET sha256 = 'x'")
+    with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+        conn.execute("DELETE FROM history")
+
+
+def test_rebuild_equals_incremental_and_keeps_history(notebook):
+    a = notebook.write("a.md", ENTRY)
+    notebook.write("b.md", ENTRY.replace("Alder", "Birch"))
+    notebook.scan()
+    a.write_text(ENTRY.replace("10 mL", "12 mL"))
+    notebook.scan()
+    conn = _db(notebook)
+    incremental = current_tables(conn)
+    hist = conn.execute("SELECT COUNT(*) FROM history").fetchone()[0]
+    res = CliRunner().invoke(cli, ["rebuild", str(notebook.root)])
+    assert res.exit_code == 0, res.output
+    assert current_tables(conn) == incremental
+    assert conn.execute("SELECT COUNT(*) FROM history").fetchone()[0] == hist == 3
+    again = rebuild(conn, scan(Notebook.open(notebook.root), write=False).results)
+    assert again == 0
+
+
+def test_a_reader_during_writes_does_not_break(notebook):
+    for i in range(20):
+        notebook.write(f"e{i}.md", ENTRY)
+    notebook.scan()
+    db = notebook.root / ".masstrail" / "records.db"
+    errors, reads = [], []
+    stop = threading.Event()
+
+    def reader():
+        conn = sqlite3.connect(db, timeout=10)
+        while not stop.is_set():
+            try:
+                reads.append(conn.execute("SELECT COUNT(*) FROM materials").fetchone()[0])
+            except sqlite3.Error as exc:
+                errors.append(exc)
+
+    t = threading.Thread(target=reader)
+    t.start()
+    for n in range(5):
+        for i in range(20):
+            notebook.write(f"e{i}.md", ENTRY.replace("3.00 g", f"3.{n}{i} g"))
+        notebook.scan()
+    stop.set()
+    t.join()
+    assert errors == [] and len(reads) > 10
+    assert set(reads) <= {40}  # a reader sees whole transactions: 20 entries × 2 materials
+
+
+def test_backup_copies_history(notebook, tmp_path):
+    notebook.write("e.md", ENTRY)
+    notebook.scan()
+    target = tmp_path / "copy.db"
+    res = CliRunner().invoke(cli, ["backup", str(notebook.root), str(target)])
+    assert res.exit_code == 0, res.output
+    copy = sqlite3.connect(target)
+    assert copy.execute("SELECT COUNT(*) FROM history").fetchone() == (1,)
+    res = CliRunner().invoke(cli, ["backup", str(notebook.root), str(target)])
+    assert res.exit_code == 2 and "exists already" in res.output
+
+
+def test_export_csv_neutralises_formulas_and_json_has_every_table(notebook, tmp_path):
+    notebook.write("e.md", ENTRY)
+    out = tmp_path / "x"
+    res = CliRunner().invoke(cli, ["export", str(notebook.root), "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    rows = list(csv.DictReader((out / "entries.csv").open()))
+    # OWASP / CWE-1236: a cell starting with = is prefixed with '
+    assert rows[0]["author"] == "'=cmd|' /C calc'!A0"
+    res = CliRunner().invoke(cli, ["export", str(notebook.root), "--format", "json"])
+    data = json.loads(res.output)
+    assert set(data) == {"entries", "materials", "gaps", "metrics"}
+    assert data["entries"][0]["author"] == "=cmd|' /C calc'!A0"  # JSON keeps the text as is
+
+
+def test_the_store_moves_off_a_network_share(tmp_path, monkeypatch):
+    monkeypatch.setenv("XDG_DATA_HOME", str(tmp_path / "data"))
+    root = tmp_path / "nb"
+    root.mkdir()
+    mounts = f"server:/export {tmp_path} nfs4 rw 0 0\n/dev/sda1 / ext4 rw 0 0\n"
+    assert filesystem_type(root, mounts) == "nfs4"
+    db, message = store_path(root, None, mounts)
+    assert db.is_relative_to(tmp_path / "data" / "masstrail") and "network file system" in message
+    local = "/dev/sda1 / ext4 rw 0 0\n"
+    assert store_path(root, None, local) == (root / ".masstrail" / "records.db", None)
+
+
+def test_the_store_can_be_switched_off(notebook):
+    notebook.write("masstrail.toml", "[store]\nenabled = false\n")
+    notebook.write("e.md", ENTRY)
+    notebook.scan()
+    assert not (notebook.root / ".masstrail" / "records.db").exists()
+
+
+def test_a_deleted_entry_leaves_the_current_tables_but_not_the_history(notebook):
+    """masstrail_remove_result: called by the watcher when an entry disappears."""
+    path = notebook.write("e.md", ENTRY)
+    notebook.scan()
+    nb = Notebook.open(notebook.root)
+    nb.pm.hook.masstrail_remove_result(
+        entry_path=path, relpath="e.md", root=nb.root, config=nb.config
+    )
+    conn = _db(notebook)
+    assert conn.execute("SELECT COUNT(*) FROM entries").fetchone() == (0,)
+    assert conn.execute("SELECT COUNT(*) FROM materials").fetchone() == (0,)
+    assert conn.execute("SELECT COUNT(*) FROM history").fetchone() == (1,)
+    assert not (notebook.root / "e.waste.json").exists()
