@@ -620,6 +620,40 @@ def export(path: Path, fmt: str, output: Path | None) -> None:
     click.echo(f"wrote {', '.join(str(p) for p in written)} ({', '.join(TABLES)})")
 
 
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.option(
+    "-o",
+    "--output",
+    type=click.Path(dir_okay=False, path_type=Path),
+    required=True,
+    help="The HTML file to write.",
+)
+@click.option("--author", help="Only entries by this author.")
+@click.option("--group", "group_", help="Only entries of this group.")
+@click.option("--project", help="Only entries of this project.")
+@click.option("--since", help="Only entries dated on or after YYYY-MM-DD.")
+@click.option("--until", help="Only entries dated on or before YYYY-MM-DD.")
+def report(path, output, author, group_, project, since, until):
+    """Write the lab's report for PATH as one self-contained HTML file.
+
+    The lab overview (median E-factor and PMI by group, project and month; waste
+    by stream; the largest contributors), gaps by author and group, and a card
+    per entry with its waste breakdown. Opens in a browser with no network.
+    """
+    from capture.pipeline import CAUTION
+    from capture.pipeline import scan as run_scan
+    from capture.report import build
+    from capture.reports import GapFilter
+
+    flt = GapFilter(author=author, group=group_, project=project,
+                    since=_date(since, "--since"), until=_date(until, "--until"))  # fmt: skip
+    nb = _open_notebook(path)
+    results = run_scan(nb).results
+    output.write_text(build(results, flt, CAUTION, f"masstrail report: {path}"), encoding="utf-8")
+    click.echo(f"wrote {output} ({len(results)} entries)")
+
+
 def main() -> None:
     """Entry point of the ``masstrail`` command."""
     cli()

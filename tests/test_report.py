@@ -1,0 +1,85 @@
+"""The HTML report: self-contained, and its figures agree with the store."""
+
+from __future__ import annotations
+
+import re
+import shutil
+import sqlite3
+import statistics
+from html.parser import HTMLParser
+
+import pytest
+from click.testing import CliRunner
+from conftest import EXAMPLES
+
+from capture.cli import cli
+
+
+class _Text(HTMLParser):
+    def __init__(self):
+        super().__init__()
+        self.ids: dict[str, str] = {}
+        self._id = None
+        self.tags: list[str] = []
+        self.srcs: list[str] = []
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        self.tags.append(tag)
+        if "id" in a:
+            self._id = a["id"]
+        for key in ("src", "href"):
+            if key in a and tag in {"script", "link", "img", "iframe"}:
+                self.srcs.append(a[key])
+
+    def handle_data(self, data):
+        if self._id and data.strip():
+            self.ids.setdefault(self._id, data.strip())
+            self._id = None
+
+
+@pytest.fixture
+def lab(tmp_path):
+    root = tmp_path / "lab"
+    shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.*"))
+    return root
+
+
+def test_report_is_self_contained_and_agrees_with_the_store(lab, tmp_path):
+    out = tmp_path / "report.html"
+    res = CliRunner().invoke(cli, ["report", str(lab), "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    html = out.read_text()
+    page = _Text()
+    page.feed(html)
+    assert page.srcs == [] and "script" not in page.tags  # no network, no CDN, no scripts
+    assert html.count("<svg") >= 3  # matplotlib charts inlined
+    db = sqlite3.connect(lab / ".masstrail" / "records.db")
+    assert int(page.ids["n-entries"]) == db.execute("SELECT COUNT(*) FROM entries").fetchone()[0]
+    es = [e for (e,) in db.execute("SELECT e_factor FROM metrics WHERE e_factor IS NOT NULL")]
+    assert float(page.ids["median-e"]) == pytest.approx(statistics.median(es), abs=1e-3)
+    assert "not a hazard assessment" in html and "screening aid" in html
+
+
+def test_report_filters(lab, tmp_path):
+    out = tmp_path / "r.html"
+    CliRunner().invoke(cli, ["report", str(lab), "-o", str(out), "--group", "Pilot bay"])
+    page = _Text()
+    page.feed(out.read_text())
+    assert page.ids["n-entries"] == "2"
+    assert not re.search(r"entry-FW-0412", out.read_text())
+
+
+def test_report_renders_in_headless_chromium(lab, tmp_path):
+    chromium = shutil.which("chromium") or shutil.which("chromium-browser")
+    if chromium is None:
+        pytest.skip("Chromium is not installed on this machine (apt-get install chromium)")
+    import subprocess
+
+    out = tmp_path / "r.html"
+    CliRunner().invoke(cli, ["report", str(lab), "-o", str(out)])
+    shot = tmp_path / "shot.png"
+    subprocess.run([chromium, "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                    f"--screenshot={shot}", "--window-size=1200,2000", out.as_uri()],
+                   check=True, capture_output=True, timeout=120)  # fmt: skip
+    assert shot.stat().st_size > 20_000
