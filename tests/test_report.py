@@ -10,9 +10,10 @@ from html.parser import HTMLParser
 
 import pytest
 from click.testing import CliRunner
-from conftest import EXAMPLES
 
 from capture.cli import cli
+
+from conftest import EXAMPLES
 
 
 class _Text(HTMLParser):
