@@ -341,12 +341,18 @@ def _date(value: str | None, option: str):
 )
 @click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
 @click.option(
+    "--late",
+    is_flag=True,
+    help="Also flag amounts first recorded long after the experiment date "
+    "(the store's history; [store] late_record_days).",
+)
+@click.option(
     "--csv",
     "csv_file",
     type=click.Path(dir_okay=False, allow_dash=True),
     help="Write the gaps as CSV to FILE ('-' for standard output).",
 )
-def gaps(path, author, group_, project, since, until, severity, by, as_json, csv_file):
+def gaps(path, author, group_, project, since, until, severity, by, as_json, late, csv_file):
     """List the entries under PATH that lack records, with what is missing.
 
     Exits 1 when any blocking gap is listed, so a scheduled job can alert.
@@ -359,8 +365,25 @@ def gaps(path, author, group_, project, since, until, severity, by, as_json, csv
     flt = GapFilter(author=author, group=group_, project=project, severity=severity,
                     since=_date(since, "--since"), until=_date(until, "--until"))  # fmt: skip
     nb = _open_notebook(path)
-    results = run_scan(nb, write=False).results
+    results = run_scan(nb, write=not late).results  # --late reads the store's history
     rows = gap_rows(results, flt)
+    if late:
+        from capture.reports import GapRow
+        from capture.store import connect, late_records, store_path
+
+        conn = connect(store_path(nb.root, nb.config.store.path)[0])
+        kept = {r.entry.path: r for r in results if flt.keeps(r)}
+        for x in late_records(conn, nb.config.store.late_record_days):
+            r = kept.get(x["entry"])
+            if r is None:
+                continue
+            rows.append(GapRow(
+                entry=x["entry"], id=r.entry.id, author=r.meta.get("author"),
+                group=r.meta.get("group"), project=r.meta.get("project"), date=x["experiment"],
+                severity="minor", kind="late_record", item=x["what"], allowance_g=None,
+                message=f"first recorded on {x['first_recorded']}, {x['days_after']} days after "
+                "the experiment; records should be made at the time (ALCOA+)",
+            ))  # fmt: skip
     if csv_file:
         text = rows_to_csv(rows)
         if csv_file == "-":
@@ -652,6 +675,24 @@ def report(path, output, author, group_, project, since, until):
     results = run_scan(nb).results
     output.write_text(build(results, flt, CAUTION, f"masstrail report: {path}"), encoding="utf-8")
     click.echo(f"wrote {output} ({len(results)} entries)")
+
+
+@cli.command()
+@click.argument("entry", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+def history(entry: Path) -> None:
+    """The history of ENTRY from the store: when each amount first appeared, when each gap
+    opened and closed."""
+    from capture.store import connect, store_path, timeline
+
+    root = _find_root(entry.resolve())
+    nb = _open_notebook(root)
+    conn = connect(store_path(nb.root, nb.config.store.path)[0])
+    events = timeline(conn, nb.relpath(entry.resolve()))
+    if not events:
+        click.echo("no history yet: run masstrail scan or masstrail watch first")
+        return
+    for ev in events:
+        click.echo(f"{ev['at']}  {ev['event']:<11}  {ev['what']}")
 
 
 def main() -> None:

@@ -174,3 +174,31 @@ def test_a_deleted_entry_leaves_the_current_tables_but_not_the_history(notebook)
     assert conn.execute("SELECT COUNT(*) FROM materials").fetchone() == (0,)
     assert conn.execute("SELECT COUNT(*) FROM history").fetchone() == (1,)
     assert not (notebook.root / "e.waste.json").exists()
+
+
+def test_timeline_and_late_records(notebook):
+    """ALCOA+ (MHRA 2018; FDA 2018): the history shows when each amount first appeared and
+    when each gap closed; amounts recorded long after the experiment are flagged."""
+    from capture.store import late_records, timeline
+
+    path = notebook.write(
+        "e.md",
+        entry_md("""
+        date: 2026-01-05
+        product: {name: p, mass: 1.00 g}
+        materials: [{name: A, amount: 3.00 g}, {name: B}]
+        """),
+    )
+    notebook.scan()
+    path.write_text(path.read_text().replace("{name: B}", "{name: B, amount: 0.50 g}"))
+    notebook.scan()
+    conn = _db(notebook)
+    events = [(e["event"], e["what"]) for e in timeline(conn, "e.md")]
+    assert events == [("recorded", "A: 3.00 g"), ("gap opened", "B (no_amount)"),
+                      ("recorded", "B: 0.50 g"), ("gap closed", "B (no_amount)")]  # fmt: skip
+    late = late_records(conn, days=7)  # the scan ran long after 2026-01-05
+    assert {x["what"] for x in late} == {"A: 3.00 g", "B: 0.50 g"}
+    res = CliRunner().invoke(cli, ["gaps", str(notebook.root), "--late", "--json"])
+    assert [r["kind"] for r in json.loads(res.output)] == ["late_record", "late_record"]
+    res = CliRunner().invoke(cli, ["history", str(path)])
+    assert "gap closed   B (no_amount)" in res.output
