@@ -365,7 +365,7 @@ def gaps(path, author, group_, project, since, until, severity, by, as_json, lat
     flt = GapFilter(author=author, group=group_, project=project, severity=severity,
                     since=_date(since, "--since"), until=_date(until, "--until"))  # fmt: skip
     nb = _open_notebook(path)
-    results = run_scan(nb, write=not late).results  # --late reads the store's history
+    results = run_scan(nb, write=late).results  # --late brings the store's history up to date
     rows = gap_rows(results, flt)
     if late:
         from capture.reports import GapRow
