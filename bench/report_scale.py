@@ -27,8 +27,15 @@ _NUM = re.compile(r"(?<![\w.])\d+\.\d+(?![\w.])")
 def generate(target: Path, n: int, seed: int = 3) -> None:
     rng = random.Random(seed)
     src = ROOT / "example_entries"
-    files = [p for p in src.rglob("*") if p.is_file() and ".waste." not in p.name
-             and "templates" not in p.parts and p.suffix in {".md", ".yaml", ".json", ".ipynb"}]  # fmt: skip
+    kinds = {".md", ".yaml", ".json", ".ipynb"}
+    files = [
+        p
+        for p in src.rglob("*")
+        if p.is_file()
+        and ".waste." not in p.name
+        and "templates" not in p.parts
+        and p.suffix in kinds
+    ]
     shutil.copy(src / "masstrail.toml", target / "masstrail.toml")
     for logs in src.rglob("logs"):
         shutil.copytree(logs, target / logs.relative_to(src), dirs_exist_ok=True)
@@ -77,9 +84,8 @@ def main() -> int:
         print(f"entries: {len(results)} ({sum(r.status == 'error' for r in results)} unreadable)")
         print(f"scan into sidecars and store: {t_scan:.1f} s = {t_scan / t_floor:.0f} × floor "
               f"({t_floor:.2f} s: read every entry, write one JSON each)")  # fmt: skip
-        print(
-            f"report: {t_report:.1f} s, {len(html) / 1e6:.1f} MB of HTML; store {db.stat().st_size / 1e6:.1f} MB"
-        )
+        size = db.stat().st_size / 1e6
+        print(f"report: {t_report:.1f} s, {len(html) / 1e6:.1f} MB of HTML; store {size:.1f} MB")
     return 0
 
 
