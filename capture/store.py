@@ -221,12 +221,17 @@ def _now() -> str:
     return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
 
 
-def write_results(conn: sqlite3.Connection, results: list[Result]) -> int:
-    """Write results in one BEGIN IMMEDIATE transaction; return how many history rows were added."""
+def write_results(conn: sqlite3.Connection, results: list[Result], clear: bool = False) -> int:
+    """Write results in one BEGIN IMMEDIATE transaction; return how many history rows were added.
+
+    With ``clear``, the current tables are emptied first (history is never touched).
+    """
     added = 0
     now = _now()
     conn.execute("BEGIN IMMEDIATE")
     try:
+        if clear:
+            conn.execute("DELETE FROM entries")  # cascades to the current tables
         for r in results:
             added += _write(conn, r, now)
         conn.execute("COMMIT")
@@ -245,18 +250,7 @@ def remove_entry(conn: sqlite3.Connection, path: str) -> None:
 
 def rebuild(conn: sqlite3.Connection, results: list[Result]) -> int:
     """Recreate the current tables from ``results``; history rows are kept and added to."""
-    now = _now()
-    added = 0
-    conn.execute("BEGIN IMMEDIATE")
-    try:
-        conn.execute("DELETE FROM entries")  # cascades; history is untouched
-        for r in results:
-            added += _write(conn, r, now)
-        conn.execute("COMMIT")
-    except BaseException:
-        conn.execute("ROLLBACK")
-        raise
-    return added
+    return write_results(conn, results, clear=True)
 
 
 def backup(conn: sqlite3.Connection, target: Path) -> None:
