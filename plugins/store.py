@@ -28,7 +28,8 @@ def connection(root: Path, config: LabConfig) -> sqlite3.Connection:
     return _conns[key]
 
 
-@hookimpl(specname="masstrail_write_result")
+# trylast: the chemist's sidecar is written first; the store follows in the same step
+@hookimpl(trylast=True, specname="masstrail_write_result")
 def write_to_store(result: Result, root: Path, config: LabConfig) -> list[Path]:
     """Replace the entry's current rows and append to its history (if the store is on)."""
     if not config.store.enabled:
