@@ -344,24 +344,11 @@ class Notebook:
             self._weigh(line, info, ctx)
             recovered.append(line)
 
-        checks = _flatten(
-            self.pm.hook.masstrail_check_records(
-                entry=entry,
-                materials=materials,
-                product=product,
-                resolve=self.resolve,
-                config=self.config,
-            )
-        )
-        gaps: list[Gap] = _flatten(
-            self.pm.hook.masstrail_find_gaps(
-                entry=entry,
-                materials=materials,
-                product=product,
-                resolve=self.resolve,
-                config=self.config,
-            )
-        )
+        # the checks and the gap rules see the same entry, weighed
+        common = {"entry": entry, "materials": materials, "product": product,
+                  "resolve": self.resolve, "config": self.config}  # fmt: skip
+        checks = _flatten(self.pm.hook.masstrail_check_records(**common))
+        gaps: list[Gap] = _flatten(self.pm.hook.masstrail_find_gaps(**common))
         from_checks = [c.gap for c in checks if c.gap is not None]
         # "a crystal of DMAP" says more than "DMAP has no amount": keep the specific gap
         specific = {material_key(g.item) for g in from_checks}
