@@ -587,7 +587,7 @@ def rebuild(path: Path) -> None:
     nb, conn, db = _store(path)
     nb.pm.set_blocked("store")  # the rebuild writes the store itself, in one transaction
     report = run_scan(nb)
-    added = do_rebuild(conn, report.results)
+    added = do_rebuild(conn, report.results, nb.config)
     click.echo(f"rebuilt {db}: {len(report.results)} entries; {added} new history row(s)")
 
 

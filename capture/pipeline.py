@@ -157,7 +157,7 @@ class Notebook:
 
     def process(self, path: Path, write: bool = True) -> Result:
         """Compute (and by default write) one entry's result; never raises for bad input."""
-        sha = None
+        data = None
         try:
             rel = self.relpath(path)
         except ValueError:
@@ -165,7 +165,6 @@ class Notebook:
         try:
             limit = int(self.config.scan.max_entry_mb * 1024 * 1024)
             data = read_bounded(path, limit)
-            sha = hashlib.sha256(data).hexdigest()
             entry = self.pm.hook.masstrail_read_entry(
                 path=path, data=data, relpath=rel, config=self.config
             )
@@ -173,10 +172,10 @@ class Notebook:
                 raise InputError("no reader for this kind of file")
             result = self._compute(entry)
         except InputError as exc:
-            result = error_result(path, rel, sha, exc.message, exc.location)
+            result = error_result(path, rel, _sha(data), exc.message, exc.location)
         except Exception as exc:  # a plugin's bug must not stop the scan
             result = error_result(
-                path, rel, sha, f"internal error while processing this entry: {exc!r}", None
+                path, rel, _sha(data), f"internal error while processing this entry: {exc!r}", None
             )
         if write:
             self.write(result, path)
@@ -552,6 +551,11 @@ def _same_stage(a: MaterialLine, b: MaterialLine) -> bool:
     the reaction solvent.
     """
     return not (a.stage and b.stage and a.stage != b.stage)
+
+
+def _sha(data: bytes | None) -> str | None:
+    """The content hash for an error result (readers record it for entries they read)."""
+    return None if data is None else hashlib.sha256(data).hexdigest()
 
 
 def _evidence(item: StructuredMaterial, origin: str) -> str:

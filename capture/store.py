@@ -147,12 +147,12 @@ def connect(db_path: Path) -> sqlite3.Connection:
     return conn
 
 
-def _rows(result: Result) -> dict[str, list[dict]]:
+def _rows(result: Result, config) -> dict[str, list[dict]]:
     from capture.config import LabConfig
     from masstrail_plugins.waste import stream_of  # the documented rule, shared
 
     path = result.entry.path
-    cfg = LabConfig()
+    cfg = config or LabConfig()
     m = result.metrics
     return {
         "metrics": [
@@ -191,7 +191,7 @@ def _insert(conn: sqlite3.Connection, table: str, rows: list[dict]) -> None:
         sqlite_utils.Database(conn)[table].insert_all(rows)
 
 
-def _write(conn: sqlite3.Connection, result: Result, now: str) -> bool:
+def _write(conn: sqlite3.Connection, result: Result, now: str, config=None) -> bool:
     """Replace the entry's current rows and append its history row; True if history grew."""
     path = result.entry.path
     conn.execute("DELETE FROM entries WHERE path = ?", (path,))  # cascades to the rest
@@ -205,7 +205,7 @@ def _write(conn: sqlite3.Connection, result: Result, now: str) -> bool:
          result.product.mass_g, __version__, now),
     )  # fmt: skip
     if result.status == "ok":
-        for table, rows in _rows(result).items():
+        for table, rows in _rows(result, config).items():
             _insert(conn, table, rows)
     if not result.entry.sha256:
         return False
@@ -221,7 +221,9 @@ def _now() -> str:
     return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
 
 
-def write_results(conn: sqlite3.Connection, results: list[Result], clear: bool = False) -> int:
+def write_results(
+    conn: sqlite3.Connection, results: list[Result], clear: bool = False, config=None
+) -> int:
     """Write results in one BEGIN IMMEDIATE transaction; return how many history rows were added.
 
     With ``clear``, the current tables are emptied first (history is never touched).
@@ -233,7 +235,7 @@ def write_results(conn: sqlite3.Connection, results: list[Result], clear: bool =
         if clear:
             conn.execute("DELETE FROM entries")  # cascades to the current tables
         for r in results:
-            added += _write(conn, r, now)
+            added += _write(conn, r, now, config)
         conn.execute("COMMIT")
     except BaseException:
         conn.execute("ROLLBACK")
@@ -248,9 +250,9 @@ def remove_entry(conn: sqlite3.Connection, path: str) -> None:
     conn.execute("COMMIT")
 
 
-def rebuild(conn: sqlite3.Connection, results: list[Result]) -> int:
+def rebuild(conn: sqlite3.Connection, results: list[Result], config=None) -> int:
     """Recreate the current tables from ``results``; history rows are kept and added to."""
-    return write_results(conn, results, clear=True)
+    return write_results(conn, results, clear=True, config=config)
 
 
 def backup(conn: sqlite3.Connection, target: Path) -> None:

@@ -238,6 +238,7 @@ class Watcher:
         }
         done = 0
         present = set()
+        changed_logs = {log for log in self.logs if self._sha(log) != self.log_sha.get(log)}
         for path in self.nb.entry_files():
             path = path.resolve()
             present.add(path)
@@ -245,9 +246,7 @@ class Watcher:
             if sha is None:
                 continue
             logs = [log for log, entries in self.logs.items() if path in entries]
-            if self.known.get(path) == sha and all(
-                self._sha(log) == self.log_sha.get(log) for log in logs
-            ):
+            if self.known.get(path) == sha and not (changed_logs & set(logs)):
                 continue
             side = sidecar_path(path)
             recorded = None

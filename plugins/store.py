@@ -34,7 +34,7 @@ def write_to_store(result: Result, root: Path, config: LabConfig) -> list[Path]:
     """Replace the entry's current rows and append to its history (if the store is on)."""
     if not config.store.enabled:
         return []
-    write_results(connection(root, config), [result])
+    write_results(connection(root, config), [result], config=config)
     return []
 
 

@@ -202,3 +202,11 @@ def test_timeline_and_late_records(notebook):
     assert [r["kind"] for r in json.loads(res.output)] == ["late_record", "late_record"]
     res = CliRunner().invoke(cli, ["history", str(path)])
     assert "gap closed   B (no_amount)" in res.output
+
+
+def test_the_store_streams_follow_the_lab_config(notebook):
+    notebook.write("masstrail.toml", '[waste_streams]\nassign = { "A" = "solid" }\n')
+    notebook.write("e.md", ENTRY)
+    notebook.scan()
+    streams = dict(_db(notebook).execute("SELECT name, stream FROM materials").fetchall())
+    assert streams == {"DCM": "halogenated organic", "A": "solid"}
