@@ -139,16 +139,27 @@ def _number(raw: str, whole: str) -> float:
 
 
 def plain_amount(
-    number: str, unit: str, text: str, span: tuple[int, int] | None
+    number: str, unit: str, text: str, span: tuple[int, int] | None, multiplier: int = 1
 ) -> AmountMention | None:
-    """A plain ``2.76 g`` already split into number and unit; None if it is not one we read."""
-    known = _UNITS.get(unit)
+    """A plain ``2.76 g`` (or ``3 × 40 mL``, with ``multiplier``) already split into number
+    and unit; None if it is not one this fast path reads (the caller then uses
+    :func:`parse_amount`, which says what is wrong)."""
+    known = _PLAIN_UNITS.get(unit)
     if known is None:
+        if unit not in _UNITS:
+            return None
+        pint_unit, kind = _UNITS[unit]
+        known = _PLAIN_UNITS[unit] = (_factor(pint_unit, kind), CANONICAL[kind], kind)
+    value = float(number) * known[0]
+    if value <= 0 or multiplier < 1:
         return None
-    value = float(number) * _factor(*known)
-    if value <= 0:
-        return None
-    return AmountMention(value=value, unit=CANONICAL[known[1]], kind=known[1], text=text, span=span)
+    return AmountMention(
+        value=value, unit=known[1], kind=known[2], multiplier=multiplier, text=text, span=span
+    )
+
+
+# unit as written → (factor to the canonical unit, canonical unit, kind), filled on first use
+_PLAIN_UNITS: dict[str, tuple[float, str, Kind]] = {}
 
 
 _PLAIN = re.compile(r"(\d+(?:\.\d+)?) ?([A-Za-z]+\.?)")

@@ -38,7 +38,7 @@ import re
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import AmountMention, Entry, MaterialLine, Stage
-from capture.quantities import AmountError, normalise, parse_amount, plain_amount
+from capture.quantities import _UNITS, AmountError, normalise, parse_amount, plain_amount
 
 # The hot path works on words, not on large case-insensitive regular expressions:
 # a sentence is cut into words once, and each word is looked up in small tables.
@@ -83,14 +83,16 @@ _CHARACTERISATION = re.compile(
     r"\b(1H|13C|19F|31P|11B)\s*NMR\b|\bNMR\s*\(|δ|\bm/z\b|\bHRMS\b|\bLRMS\b|\bESI\b|^\s*IR\b|"
     r"cm[-−]1|\bm\.?p\.?\s*\d|\bmp\b|\bR[fF]\s*[=\d(]|\bb\.?p\.?\s*\d|\[α\]",
 )
-_SENTENCE_END = re.compile(r"(?<=[.!?])\s+(?=[A-Z0-9(\[])|\n\s*\n|\n(?=\s*(?:[-*] |\d+\.\s))")
+# a sentence ends at the space after . ! or ? before a capital, a digit or a bracket; at a
+# blank line; or before a list item ("- ", "* ", "3. ") (the group marks where the space starts)
+_SENTENCE_END = re.compile(r"[.!?](\s+)(?=[A-Z0-9(\[])|\n\s*\n|\n(?=\s*(?:[-*] |\d+\.\s))")
 # words that end in a full stop without ending the sentence
 _ABBREVIATIONS = {"sat.", "satd.", "aq.", "ca.", "approx.", "conc.", "dil.", "e.g.", "i.e.",
                   "equiv.", "eq.", "min.", "max.", "no.", "fig.", "vs.", "anh.", "abs.", "temp.",
                   "soln.", "vol.", "wt.", "c.", "resp.", "cf.", "ref.", "mp.", "bp.", "m.p.",
                   "b.p.", "rt.", "st.", "approx", "ca", "et al.", "al."}  # fmt: skip
 # a bracket group, allowing one level of nested brackets inside
-_GROUP = re.compile(r"\(((?:[^()]|\([^()]*\))*)\)")
+_GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtracking
 _WORD = re.compile(r"\S+")
 # "… and the product was recrystallised": an operation after this belongs to another clause
 _NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
@@ -198,7 +200,11 @@ class _Sentence:
     def evidence(self) -> str:
         """The sentence with its white space folded, as evidence for its mentions."""
         if self._evidence is None:
-            self._evidence = " ".join(self.text.split())[:300]
+            # fold the white space of the first 600 characters; all of it if that is too short
+            folded = " ".join(self.text[:600].split())
+            if len(folded) < 300 and len(self.text) > 600:
+                folded = " ".join(self.text.split())
+            self._evidence = folded[:300]
         return self._evidence
 
     def operation(self, pos: int) -> tuple[str, Stage]:
@@ -260,9 +266,10 @@ def _name_before(text: str) -> str | None:
     Walks back word by word to the nearest boundary: a boundary word (with, in, over, …)
     or a word that ends in a comma, semicolon or colon.
     """
-    words = text[-200:].split()
-    if len(text) > 200 and words:
-        words = words[1:]  # the first word may be cut
+    # the walk below looks at no more than the last _MAX_NAME_WORDS + 3 words
+    words = text[-200:].rsplit(None, _MAX_NAME_WORDS + 3)
+    if words and (len(text) > 200 or len(words) > _MAX_NAME_WORDS + 3):
+        words = words[1:]  # the first word may be cut, or holds all the words out of reach
     start = 0
     for i in range(len(words) - 1, -1, -1):
         w = words[i]
@@ -312,14 +319,13 @@ def _mixture_before(text: str) -> tuple[str, list[tuple[str, float]]] | None:
 def _sentences(body: str) -> list[tuple[int, str]]:
     out, start = [], 0
     for m in _SENTENCE_END.finditer(body):
-        before = body[start : m.start()]
-        words = before[-16:].split()
-        last_word = words[-1].casefold().lstrip("([") if words else ""
-        if "\n\n" not in m.group(0) and (
-            last_word in _ABBREVIATIONS or _NUMBERED.fullmatch(last_word)
-        ):
-            continue
-        out.append((start, before))
+        end = m.start(1) if m.group(1) is not None else m.start()
+        if "\n\n" not in m.group(0):
+            words = body[max(start, end - 16) : end].split()
+            last_word = words[-1].casefold().lstrip("([") if words else ""
+            if last_word in _ABBREVIATIONS or _NUMBERED.fullmatch(last_word):
+                continue
+        out.append((start, body[start:end]))
         start = m.end()
     out.append((start, body[start:]))
     return [(s, t) for s, t in out if t.strip()]
@@ -341,6 +347,8 @@ def _parts(content: str, offset: int) -> list[tuple[str, int]]:
 class _Group:
     """One material inside a bracket, as it is being read."""
 
+    __slots__ = ("amounts", "mixture", "name", "solvent", "texts")
+
     def __init__(self, name: str | None, mixture: tuple[str, list] | None = None) -> None:
         self.name = name
         self.mixture = mixture
@@ -349,26 +357,47 @@ class _Group:
         self.texts: list[str] = []
 
 
-_PLAIN_AMOUNT = re.compile(r"(\d+(?:\.\d+)?) ?([A-Za-z]+)(?:[,;] |$)")
+# "2.76 g", "3 × 40 mL" or a yield "81%", then ", " or "; " or the end of the bracket
+_PLAIN_AMOUNT = re.compile(r"(?:(\d+) ?[×xX*] ?)?(\d+(?:\.\d+)?) ?([A-Za-z]+|%)(?:[,;] |$)")
 
 
 def _plain_group(content: str, offset: int, name: str) -> _Group | None:
-    """The commonest bracket, "(2.76 g, 20.0 mmol)": plain amounts only, read in one pass."""
+    """The commonest brackets, "(2.76 g, 20.0 mmol)" and "(3 × 40 mL)": plain amounts only
+    (a percentage among them is a yield or a purity and is passed over), read in one pass.
+    None when the bracket holds anything else; :func:`_read_group` then reads it part by part.
+    """
     group = _Group(name)
     pos = 0
     for m in _PLAIN_AMOUNT.finditer(content):
         if m.start() != pos:
             return None
-        text = content[m.start(1) : m.end(2)]
+        pos = m.end()
+        unit = m.group(3)
+        if unit == "%":
+            continue
+        begin = m.start(1) if m.group(1) else m.start(2)
+        text = content[begin : m.end(3)]
         amount = plain_amount(
-            m.group(1), m.group(2), text, (offset + m.start(1), offset + m.end(2))
+            m.group(2),
+            unit,
+            text,
+            (offset + begin, offset + m.end(3)),
+            int(m.group(1)) if m.group(1) else 1,
         )
         if amount is None:
             return None
         group.amounts.append(amount)
         group.texts.append(text)
-        pos = m.end()
     return group if pos == len(content) and group.amounts else None
+
+
+# Every amount in a bracket ends a part (before ";", ", " or the bracket's end) with a number
+# and a unit, or is a solution's "1.4 M in …". An ASCII bracket with neither ("PPh3",
+# "2 h", "24 L collected for reuse") holds no amount and is passed over without reading.
+_UNIT_WORDS = "|".join(sorted((re.escape(u) for u in _UNITS if u.isascii()), key=len, reverse=True))
+_MAYBE_AMOUNT = re.compile(
+    rf"\d\s*(?:(?:{_UNIT_WORDS})\s*(?:;|,\s|$)|(?:M|mM|mol/L)\s+(?:solution\s+)?in\s)"
+)
 
 
 def _read_group(content: str, offset: int, name: str | None, mixture) -> list[_Group]:
@@ -376,6 +405,14 @@ def _read_group(content: str, offset: int, name: str | None, mixture) -> list[_G
         plain = _plain_group(content, offset, name)
         if plain is not None:
             return [plain]
+    if content.isascii() and not _MAYBE_AMOUNT.search(content):
+        return []
+    return _read_parts(content, offset, name, mixture)
+
+
+def _read_parts(content: str, offset: int, name: str | None, mixture) -> list[_Group]:
+    """Read a bracket part by part: amounts, solutions, mixtures and names (the general path,
+    which the two shortcuts in :func:`_read_group` must agree with)."""
     groups = [_Group(name, mixture)]
     for part, start in _parts(content, offset):
         span = (start, start + len(part))
@@ -416,9 +453,14 @@ def _read_group(content: str, offset: int, name: str | None, mixture) -> list[_G
     return [g for g in groups if g.amounts and g.name]
 
 
+@functools.lru_cache(maxsize=4096)
+def _aqueous(name: str | None) -> bool:
+    return bool(name and _AQUEOUS_SOLUTION.match(name))
+
+
 def _lines_for(group: _Group, operation: str, stage: Stage, evidence: str) -> list[MaterialLine]:
     stated = ", ".join(group.texts)
-    if group.solvent is None and _AQUEOUS_SOLUTION.match(group.name or ""):
+    if group.solvent is None and _aqueous(group.name):
         group.solvent = "water"  # "3 M NaOH", "10% aq. K2CO3": aqueous by convention
     if group.mixture is None:
         return [
@@ -440,12 +482,16 @@ def _lines_for(group: _Group, operation: str, stage: Stage, evidence: str) -> li
     out = []
     for comp, fraction in components:
         scaled = [
-            a.model_copy(
-                update={
-                    "value": a.value * fraction,
-                    "low": None if a.low is None else a.low * fraction,
-                    "high": None if a.high is None else a.high * fraction,
-                }
+            AmountMention(
+                value=a.value * fraction,
+                unit=a.unit,
+                kind=a.kind,
+                multiplier=a.multiplier,
+                approximate=a.approximate,
+                low=None if a.low is None else a.low * fraction,
+                high=None if a.high is None else a.high * fraction,
+                text=a.text,
+                span=a.span,
             )
             for a in volumes
         ]
@@ -471,15 +517,17 @@ def extract(body: str) -> list[MaterialLine]:
     for start, text in _sentences(body):
         if "(" not in text or text.lstrip().startswith("|"):
             continue  # nothing in brackets, or a table row (read by the readers)
-        if _CHAR_HINT.search(text) and _CHARACTERISATION.search(text):
-            continue  # characterisation data
-        sentence = _Sentence(text)
+        sentence = None
         product_taken = False
         for m in _GROUP.finditer(text):
             content = m.group(1)
             if not _DIGIT.search(content):
                 continue
-            before = text[: m.start()]
+            if sentence is None:  # the first bracket with a number in it
+                if _CHAR_HINT.search(text) and _CHARACTERISATION.search(text):
+                    break  # characterisation data
+                sentence = _Sentence(text)
+            before = text[max(0, m.start() - 240) : m.start()]
             evidence = sentence.evidence
             if sentence.product_at is not None and m.start() > sentence.product_at:
                 if product_taken:
@@ -489,7 +537,7 @@ def extract(body: str) -> list[MaterialLine]:
                     product_taken = True
                     lines.append(
                         MaterialLine(
-                            name=_name_before(before[sentence.product_end :]) or "product",
+                            name=_name_before(text[sentence.product_end : m.start()]) or "product",
                             role="product",
                             stated=mass.text,
                             amounts=[mass],

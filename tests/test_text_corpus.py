@@ -150,3 +150,67 @@ def test_generated_phrases_come_back_exactly(name, number, unit, template):
     expected = parse_amount(f"{number} {unit}")
     assert (a.value, a.unit) == (expected.value, expected.unit)
     assert text[a.span[0] : a.span[1]] == f"{number} {unit}"
+
+
+# The extractor reads most brackets through two shortcuts (plain amounts in one pass; brackets
+# with no number-and-unit passed over unread). They must give what the general part-by-part
+# reader gives, on every bracket of both corpora and on generated brackets.
+
+
+def _brackets() -> list[str]:
+    from masstrail_plugins.text import _DIGIT, _GROUP
+
+    out = []
+    for path in (CORPUS, HELD_OUT):
+        for item in load(path):
+            out += [m.group(1) for m in _GROUP.finditer(item.text) if _DIGIT.search(m.group(1))]
+    return out
+
+
+def _dump(groups) -> list:
+    return [(g.name, g.texts, [a.model_dump() for a in g.amounts]) for g in groups]
+
+
+def test_the_shortcuts_agree_with_the_part_reader_on_the_corpora():
+    from masstrail_plugins.text import _MAYBE_AMOUNT, _plain_group, _read_parts
+
+    contents = _brackets()
+    plain = skipped = 0
+    for content in contents:
+        general = _read_parts(content, 100, "toluene", None)
+        fast = _plain_group(content, 100, "toluene")
+        if fast is not None:
+            plain += 1
+            assert _dump([fast]) == _dump(general), content
+        if content.isascii() and not _MAYBE_AMOUNT.search(content):
+            skipped += 1
+            assert general == [], content
+    # both shortcuts are exercised (figures from the corpora as committed)
+    assert len(contents) > 200 and plain > 100 and skipped > 5
+
+
+_UNIT = st.sampled_from(["g", "mg", "kg", "mL", "L", "uL", "mmol", "mol", "equiv", "eq", "M", "%",
+                         "h", "min", "wt", "ppm", "gram", "cc"])  # fmt: skip
+_NUMBER = st.one_of(
+    st.integers(0, 999).map(str),
+    st.floats(0, 999, allow_nan=False).map(lambda x: f"{x:.2f}"),
+)
+_PART = st.one_of(
+    st.tuples(_NUMBER, st.sampled_from(["", " "]), _UNIT).map("".join),
+    st.tuples(st.integers(0, 12).map(str), st.sampled_from([" × ", "x", " x ", "*", "X"]),
+              _NUMBER, st.sampled_from([" ", ""]), _UNIT).map("".join),  # fmt: skip
+    st.sampled_from(["SiO2", "PPh3", "24 L collected", "1.4 M in hexane", "rt", "10% EtOAc in heptane"]),
+)
+
+
+@given(st.lists(_PART, min_size=1, max_size=4), st.sampled_from([", ", "; ", ",", " , "]))
+def test_the_shortcuts_agree_with_the_part_reader_on_generated_brackets(parts, sep):
+    from masstrail_plugins.text import _MAYBE_AMOUNT, _plain_group, _read_parts
+
+    content = sep.join(parts)
+    general = _read_parts(content, 0, "toluene", None)
+    fast = _plain_group(content, 0, "toluene")
+    if fast is not None:
+        assert _dump([fast]) == _dump(general)
+    if content.isascii() and not _MAYBE_AMOUNT.search(content):
+        assert general == []
