@@ -75,6 +75,9 @@ def cli() -> None:
     """masstrail: waste records and mass metrics (E-factor, PMI) next to each notebook entry."""
 
 
+TABLE_ROWS = 200  # above this many entries, the scan table lists only those needing action
+
+
 @cli.command()
 @click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
 @click.option(
@@ -85,11 +88,19 @@ def cli() -> None:
     type=click.Choice(["blocking", "major"]),
     help="Exit 1 when a gap of this severity (or worse) is found; for scheduled checks.",
 )
-def scan(path: Path, as_json: bool, fail_on: str | None) -> None:
-    """Process every entry under PATH once and write NAME.waste.json next to each.
+@click.option(
+    "--recompute",
+    is_flag=True,
+    help="Compute every entry again, even those unchanged since the last scan.",
+)
+def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool) -> None:
+    """Process every entry under PATH and write NAME.waste.json next to each.
 
-    Prints a summary table: product mass, E-factor, PMI and the record gaps
-    of each entry. Exits 0 when the scan completed, whatever it found.
+    Entries unchanged since the last scan (the same text, balance logs, lab
+    config and masstrail version, as the store remembers them) are not computed
+    again. Prints a summary table: product mass, E-factor, PMI and the record
+    gaps of each entry (above 200 entries, only those with a blocking gap or an
+    error). Exits 0 when the scan completed, whatever it found.
     """
     from capture.paths import sidecar_path
     from capture.pipeline import CAUTION
@@ -110,61 +121,67 @@ def scan(path: Path, as_json: bool, fail_on: str | None) -> None:
             bar.advance(task)
 
     try:
-        report = run_scan(nb, progress=progress, files=files)
+        report = run_scan(nb, progress=progress, files=files, reuse=not recompute, keep=False)
     finally:
         if bar is not None:
             bar.stop()
 
     if as_json:
-        for r in report.results:
+        for s in report.summaries:
+            side = sidecar_path(nb.root / s.path)
+            try:  # the full metrics are in the sidecar, just written or still current
+                metrics = json.loads(side.read_text(encoding="utf-8")).get("metrics")
+            except (OSError, ValueError):
+                metrics = None
             out = {
-                "entry": r.entry.path,
-                "status": r.status,
-                "error": r.error.model_dump() if r.error else None,
-                "sidecar": (sidecar_path(nb.root / r.entry.path).relative_to(nb.root).as_posix()),
-                "product_g": r.product.mass_g,
-                "metrics": r.metrics.model_dump(by_alias=True),
-                "gaps": {
-                    s: sum(g.severity == s for g in r.gaps) for s in ("blocking", "major", "minor")
-                },
+                "entry": s.path,
+                "status": s.status,
+                "error": {"message": s.error, "location": s.location} if s.error else None,
+                "sidecar": side.relative_to(nb.root).as_posix(),
+                "product_g": s.product_g,
+                "metrics": metrics,
+                "gaps": {"blocking": s.blocking, "major": s.major, "minor": s.minor},
+                "recomputed": s.recomputed,
             }
             click.echo(json.dumps(out, sort_keys=True))
     else:
         from rich.table import Table
 
         console = _console()
-        table = Table(title=f"masstrail scan of {path}", title_justify="left")
+        rows = report.summaries
+        if len(rows) > TABLE_ROWS:
+            rows = [s for s in rows if s.status == "error" or s.blocking]
+        title = f"masstrail scan of {path}"
+        if len(rows) < len(report.summaries):
+            title += f": the {len(rows)} entries with a blocking gap or an error"
+        table = Table(title=title, title_justify="left")
         table.add_column("entry", overflow="fold", min_width=min(24, max(
-            [len(r.entry.path) for r in report.results] or [5])))  # fmt: skip
+            [len(s.path) for s in rows] or [5])))  # fmt: skip
         for col in ("product g", "E-factor", "PMI"):
             table.add_column(col, justify="right", no_wrap=True)
         table.add_column("record gaps")
-        for r in report.results:
-            if r.status == "error":
-                table.add_row(_e(r.entry.path), "", "", "", "[red]could not be read[/red]")
+        for s in rows:
+            if s.status == "error":
+                table.add_row(_e(s.path), "", "", "", "[red]could not be read[/red]")
                 continue
-            counts = [
-                (s, sum(g.severity == s for g in r.gaps)) for s in ("blocking", "major", "minor")
-            ]
-            gaps = ", ".join(f"{n} {s}" for s, n in counts if n) or "none"
-            if counts[0][1]:
+            counts = [("blocking", s.blocking), ("major", s.major), ("minor", s.minor)]
+            gaps = ", ".join(f"{n} {sev}" for sev, n in counts if n) or "none"
+            if s.blocking:
                 gaps = f"[red]{gaps}[/red]"
-            table.add_row(
-                _e(r.entry.path),
-                _num(r.product.mass_g, ".4g"),
-                _num(r.metrics.e_factor),
-                _num(r.metrics.pmi),
-                gaps,
-            )
+            table.add_row(_e(s.path), _num(s.product_g, ".4g"), _num(s.e_factor), _num(s.pmi), gaps)
         console.print(table)
-        n = len(report.results)
+        n = len(report.summaries)
+        unchanged = n - report.recomputed
         console.print(
-            f"{n} entr{'y' if n == 1 else 'ies'}, {len(report.written)} result file(s) written, "
-            f"{len(report.errors)} could not be read. Details: masstrail show ENTRY."
+            f"{n} entr{'y' if n == 1 else 'ies'}"
+            + (f" ({unchanged} unchanged since the last scan)" if unchanged else "")
+            + f", {len(report.written)} result file(s) written, "
+            f"{len(report.errors)} could not be read. Details: masstrail show ENTRY"
+            + ("; every entry: masstrail report or masstrail export." if len(rows) < n else ".")
         )
-        for r in report.errors:
-            where = f" ({r.error.location})" if r.error.location else ""
-            console.print(f"[red]{_e(r.entry.path + where)}:[/red] {_e(r.error.message)}")
+        for s in report.errors[:TABLE_ROWS]:
+            where = f" ({s.location})" if s.location else ""
+            console.print(f"[red]{_e(s.path + where)}:[/red] {_e(s.error or '')}")
         console.print(f"[dim]{_e(CAUTION)}[/dim]")
 
     if fail_on:

@@ -292,7 +292,7 @@ def masstrail_notify(result: Result, gaps: list[Gap], config: LabConfig) -> None
 
 @hookspec
 def masstrail_write_result(
-    result: Result, entry_path: Path, root: Path, config: LabConfig
+    result: Result, entry_path: Path, root: Path, config: LabConfig, batch: bool
 ) -> list[Path]:
     """Write one entry's result somewhere: a sidecar, a card, a store.
 
@@ -303,8 +303,40 @@ def masstrail_write_result(
     :param entry_path: the entry file on disk.
     :param root: the notebook root.
     :param config: the lab configuration.
+    :param batch: True when a scan hands over many results in a row; a writer may
+        hold them and write them together, at the latest in ``masstrail_scan_done``.
+        False for the watcher's single results, which must be written at once.
     :returns: the paths written (unchanged files are not rewritten and not
         listed); all answers are combined.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_previous_results(root: Path, config: LabConfig) -> dict | None:
+    """What a writer remembers of the last results, so a scan can skip unchanged entries.
+
+    Called once at the start of a scan that reuses results (``masstrail scan``,
+    ``report``, ``export``). Stops at first non-None result.
+
+    :param root: the notebook root.
+    :param config: the lab configuration.
+    :returns: ``{relative entry path: capture.pipeline.PreviousResult}``, or None
+        if this writer keeps nothing (then every entry is recomputed).
+    """
+
+
+@hookspec
+def masstrail_scan_done(root: Path, config: LabConfig, present: list[str]) -> None:
+    """A scan has handed over all its results.
+
+    Called once at the end of every scan that writes. Writers that hold results
+    (``batch``) write them now, and drop what they keep of entries that are no
+    longer in the notebook.
+
+    :param root: the notebook root.
+    :param config: the lab configuration.
+    :param present: the relative paths of every entry the scan saw.
+    :returns: nothing.
     """
 
 

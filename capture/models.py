@@ -346,6 +346,16 @@ class EntryRef(_Model):
     id: str
     path: str
     sha256: str | None
+    balance_log: list[str] = Field(
+        default_factory=list, description="the balance logs the entry names, as written"
+    )
+    inputs_sha256: str | None = Field(
+        None,
+        description="fingerprint of everything this result depends on: the entry, its balance "
+        "logs, the lab configuration and the versions of masstrail, its plugins and the "
+        "libraries it reads names and SMILES with; a scan recomputes the entry only when it "
+        "changes",
+    )
 
 
 class EntryError(_Model):

@@ -8,6 +8,7 @@ scan goes on with the next one.
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import os
 from collections.abc import Callable, Iterable
@@ -102,6 +103,7 @@ class Notebook:
     config: LabConfig
     pm: pluggy.PluginManager
     _resolved: dict[str, MaterialInfo | None] = field(default_factory=dict)
+    _log_shas: dict[Path, tuple[tuple[int, int], str]] = field(default_factory=dict)
 
     @classmethod
     def open(cls, root: Path, pm: pluggy.PluginManager | None = None) -> Notebook:
@@ -177,17 +179,62 @@ class Notebook:
             result = error_result(
                 path, rel, _sha(data), f"internal error while processing this entry: {exc!r}", None
             )
+        if result.entry.sha256:
+            result.entry.inputs_sha256 = self.inputs_sha(
+                result.entry.sha256, path.parent, result.entry.balance_log
+            )
         if write:
             self.write(result, path)
         return result
 
-    def write(self, result: Result, path: Path) -> list[Path]:
-        """Hand a result to every writer plugin."""
+    def write(self, result: Result, path: Path, batch: bool = False) -> list[Path]:
+        """Hand a result to every writer plugin (``batch``: one of many, from a scan)."""
         return _flatten(
             self.pm.hook.masstrail_write_result(
-                result=result, entry_path=path, root=self.root, config=self.config
+                result=result, entry_path=path, root=self.root, config=self.config, batch=batch
             )
         )
+
+    # ------------------------------------------------------------------ fingerprints
+    @functools.cached_property
+    def base_fingerprint(self) -> str:
+        """What every result of this notebook depends on besides its entry and logs: the
+        masstrail version, the lab configuration, the plugins, and the libraries that
+        resolve names and SMILES."""
+        from importlib import metadata
+
+        h = hashlib.sha256(f"{GENERATOR}\n".encode())
+        h.update(self.config.model_dump_json().encode())
+        for name, _plugin in sorted(self.pm.list_name_plugin(), key=lambda kv: str(kv[0])):
+            h.update(f"\nplugin {name}".encode())
+        for dist in ("chemicals", "rdkit", "molmass", "pint", "pydantic"):
+            try:
+                version = metadata.version(dist)
+            except metadata.PackageNotFoundError:
+                version = "-"
+            h.update(f"\n{dist} {version}".encode())
+        return h.hexdigest()
+
+    def log_sha(self, path: Path) -> str:
+        """sha256 of a balance log, cached while its size and modification time stay."""
+        st = path.stat()
+        key = (st.st_mtime_ns, st.st_size)
+        known = self._log_shas.get(path)
+        if known is None or known[0] != key:
+            known = (key, hashlib.sha256(path.read_bytes()).hexdigest())
+            self._log_shas[path] = known
+        return known[1]
+
+    def inputs_sha(self, entry_sha: str, entry_dir: Path, logs: list[str]) -> str:
+        """The fingerprint of one entry's result (see ``EntryRef.inputs_sha256``)."""
+        h = hashlib.sha256(f"{self.base_fingerprint}\n{entry_sha}".encode())
+        for ref in logs:
+            try:
+                digest = self.log_sha(safe_log_path(self.root, entry_dir, ref))
+            except (InputError, OSError):
+                digest = "-"
+            h.update(f"\n{ref}\0{digest}".encode())
+        return h.hexdigest()
 
     def _line(self, item: StructuredMaterial, origin: str, role: str | None = None) -> MaterialLine:
         line = MaterialLine(
@@ -398,7 +445,12 @@ class Notebook:
         return Result(
             generator=GENERATOR,
             status="ok",
-            entry=EntryRef(id=entry.id, path=entry.path, sha256=entry.sha256),
+            entry=EntryRef(
+                id=entry.id,
+                path=entry.path,
+                sha256=entry.sha256,
+                balance_log=[str(ref) for ref in entry.balance_log],
+            ),
             meta={
                 "title": entry.title,
                 "author": entry.author,
@@ -607,20 +659,69 @@ def error_result(
 
 
 @dataclass
+class EntrySummary:
+    """One line of a scan: what the scan table and the exit code need, and no more (a scan
+    of 100,000 entries keeps these, not the full results)."""
+
+    path: str
+    status: str
+    product_g: float | None = None
+    e_factor: float | None = None
+    pmi: float | None = None
+    blocking: int = 0
+    major: int = 0
+    minor: int = 0
+    error: str | None = None
+    location: str | None = None
+    recomputed: bool = True
+
+    @classmethod
+    def of(cls, r: Result) -> EntrySummary:
+        counts = {"blocking": 0, "major": 0, "minor": 0}
+        for g in r.gaps:
+            counts[g.severity] = counts.get(g.severity, 0) + 1
+        return cls(
+            path=r.entry.path,
+            status=r.status,
+            product_g=r.product.mass_g,
+            e_factor=r.metrics.e_factor,
+            pmi=r.metrics.pmi,
+            error=r.error.message if r.error else None,
+            location=r.error.location if r.error else None,
+            **counts,
+        )
+
+
+@dataclass
+class PreviousResult:
+    """What the store remembers of an entry's last result: enough to tell whether it is
+    still current, and its summary."""
+
+    inputs_sha256: str
+    balance_log: list[str]
+    summary: EntrySummary
+
+
+@dataclass
 class ScanReport:
-    """The results of one scan, in the order of the entry files."""
+    """One scan: a summary per entry file, in order, and the full results if kept."""
 
     root: Path
     results: list[Result]
     written: list[Path]
+    summaries: list[EntrySummary] = field(default_factory=list)
 
     def count(self, severity: str) -> int:
         """How many gaps of ``severity`` the scan found."""
-        return sum(1 for r in self.results for g in r.gaps if g.severity == severity)
+        return sum(getattr(s, severity) for s in self.summaries)
 
     @property
-    def errors(self) -> list[Result]:
-        return [r for r in self.results if r.status == "error"]
+    def errors(self) -> list[EntrySummary]:
+        return [s for s in self.summaries if s.status == "error"]
+
+    @property
+    def recomputed(self) -> int:
+        return sum(s.recomputed for s in self.summaries)
 
 
 def scan(
@@ -628,18 +729,32 @@ def scan(
     progress: Callable[[Path], None] | None = None,
     write: bool = True,
     files: list[Path] | None = None,
+    reuse: bool = False,
+    keep: bool = True,
 ) -> ScanReport:
-    """Process every entry under the notebook root once; one result per entry file.
+    """Process every entry under the notebook root once; one summary per entry file.
 
     ``files`` is the list from :meth:`Notebook.entry_files`, if the caller already has it.
+    With ``reuse`` (and ``write``), an entry whose fingerprint (``inputs_sha256``) matches
+    what the store holds and whose sidecar exists is not recomputed. With ``keep``, every
+    recomputed entry's full :class:`Result` is kept in ``results`` (memory grows with the
+    notebook; the command-line scan keeps only the summaries).
     """
     files = notebook.entry_files() if files is None else files
     by_sidecar: dict[Path, list[Path]] = {}
     for f in files:
         by_sidecar.setdefault(sidecar_path(f), []).append(f)
-    results, written = [], []
+    previous: dict[str, PreviousResult] = {}
+    if reuse and write:
+        previous = (
+            notebook.pm.hook.masstrail_previous_results(root=notebook.root, config=notebook.config)
+            or {}
+        )
+    limit = int(notebook.config.scan.max_entry_mb * 1024 * 1024)
+    results, written, summaries, present = [], [], [], []
     for f in files:
         clash = by_sidecar[sidecar_path(f)]
+        result = summary = None
         if len(clash) > 1:
             names = ", ".join(p.name for p in clash)
             result = error_result(
@@ -651,12 +766,34 @@ def scan(
                 None,
             )
             if write and f == clash[0]:
-                written += notebook.write(result, f)
+                written += notebook.write(result, f, batch=True)
         else:
-            result = notebook.process(f, write=False)
-            if write:
-                written += notebook.write(result, f)
-        results.append(result)
+            rel = notebook.relpath(f)
+            before = previous.get(rel)
+            if before is not None and sidecar_path(f).exists():
+                try:
+                    sha = hashlib.sha256(read_bounded(f, limit)).hexdigest()
+                    if before.inputs_sha256 == notebook.inputs_sha(
+                        sha, f.parent, before.balance_log
+                    ):
+                        summary = before.summary
+                        summary.recomputed = False
+                except InputError:
+                    pass
+            if summary is None:
+                result = notebook.process(f, write=False)
+                if write:
+                    written += notebook.write(result, f, batch=True)
+        if summary is None:
+            summary = EntrySummary.of(result)
+            if keep:
+                results.append(result)
+        summaries.append(summary)
+        present.append(summary.path)
         if progress:
             progress(f)
-    return ScanReport(notebook.root, results, written)
+    if write:
+        notebook.pm.hook.masstrail_scan_done(
+            root=notebook.root, config=notebook.config, present=present
+        )
+    return ScanReport(notebook.root, results, written, summaries)

@@ -36,7 +36,8 @@ SCHEMA = """
 CREATE TABLE IF NOT EXISTS entries (
     path TEXT PRIMARY KEY, id TEXT NOT NULL, title TEXT, author TEXT, grp TEXT, project TEXT,
     date TEXT, sha256 TEXT, status TEXT NOT NULL, error TEXT, product TEXT, product_g REAL,
-    tool_version TEXT NOT NULL, updated_at TEXT NOT NULL
+    tool_version TEXT NOT NULL, updated_at TEXT NOT NULL, error_location TEXT,
+    inputs_sha256 TEXT, balance_log TEXT
 );
 CREATE TABLE IF NOT EXISTS metrics (
     entry_path TEXT PRIMARY KEY REFERENCES entries(path) ON DELETE CASCADE,
@@ -141,10 +142,70 @@ def connect(db_path: Path) -> sqlite3.Connection:
     conn.execute("PRAGMA foreign_keys=ON")
     conn.execute("PRAGMA synchronous=FULL")
     conn.executescript(SCHEMA)
+    _migrate(conn)
     triggers = {r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type='trigger'")}
     if not {"history_no_update", "history_no_delete"} <= triggers:
         raise StoreError(f"{db_path}: the history's append-only triggers are missing")
     return conn
+
+
+# columns added to ``entries`` after the first release: (name, type); added in place by
+# ALTER TABLE, which keeps the history table and its triggers untouched
+_ADDED_COLUMNS = (("error_location", "TEXT"), ("inputs_sha256", "TEXT"), ("balance_log", "TEXT"))
+
+
+def _migrate(conn: sqlite3.Connection) -> None:
+    have = {row[1] for row in conn.execute("PRAGMA table_info(entries)")}
+    for name, kind in _ADDED_COLUMNS:
+        if name not in have:
+            conn.execute(f"ALTER TABLE entries ADD COLUMN {name} {kind}")
+
+
+def previous_results(conn: sqlite3.Connection) -> dict:
+    """``{entry path: PreviousResult}`` for every current entry with a fingerprint."""
+    from capture.pipeline import EntrySummary, PreviousResult
+
+    out = {}
+    rows = conn.execute(
+        "SELECT e.path, e.inputs_sha256, e.balance_log, e.status, e.error, e.error_location, "
+        "e.product_g, m.e_factor, m.pmi, g.blocking, g.major, g.minor FROM entries e "
+        "LEFT JOIN metrics m ON m.entry_path = e.path LEFT JOIN (SELECT entry_path, "
+        "SUM(severity = 'blocking') AS blocking, SUM(severity = 'major') AS major, "
+        "SUM(severity = 'minor') AS minor FROM gaps GROUP BY entry_path) g "
+        "ON g.entry_path = e.path WHERE e.inputs_sha256 IS NOT NULL"
+    )
+    for path, inputs, logs, status, error, where, product_g, e, pmi, b, ma, mi in rows:
+        out[path] = PreviousResult(
+            inputs_sha256=inputs,
+            balance_log=json.loads(logs) if logs else [],
+            summary=EntrySummary(
+                path=path,
+                status=status,
+                product_g=product_g,
+                e_factor=e,
+                pmi=pmi,
+                blocking=b or 0,
+                major=ma or 0,
+                minor=mi or 0,
+                error=error,
+                location=where,
+            ),
+        )
+    return out
+
+
+def remove_absent(conn: sqlite3.Connection, present: set[str]) -> int:
+    """Drop the current rows of entries not in ``present`` (their history stays)."""
+    gone = [p for (p,) in conn.execute("SELECT path FROM entries") if p not in present]
+    if gone:
+        conn.execute("BEGIN IMMEDIATE")
+        try:
+            conn.executemany("DELETE FROM entries WHERE path = ?", [(p,) for p in gone])
+            conn.execute("COMMIT")
+        except BaseException:
+            conn.execute("ROLLBACK")
+            raise
+    return len(gone)
 
 
 def _rows(result: Result, config) -> dict[str, list[dict]]:
@@ -198,11 +259,14 @@ def _write(conn: sqlite3.Connection, result: Result, now: str, config=None) -> b
     meta = result.meta
     conn.execute(
         "INSERT INTO entries (path, id, title, author, grp, project, date, sha256, status, "
-        "error, product, product_g, tool_version, updated_at) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+        "error, product, product_g, tool_version, updated_at, error_location, inputs_sha256, "
+        "balance_log) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
         (path, result.entry.id, meta.get("title"), meta.get("author"), meta.get("group"),
          meta.get("project"), meta.get("date"), result.entry.sha256, result.status,
          result.error.message if result.error else None, result.product.name,
-         result.product.mass_g, __version__, now),
+         result.product.mass_g, __version__, now,
+         result.error.location if result.error else None, result.entry.inputs_sha256,
+         json.dumps(result.entry.balance_log)),
     )  # fmt: skip
     if result.status == "ok":
         for table, rows in _rows(result, config).items():

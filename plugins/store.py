@@ -10,7 +10,14 @@ from pathlib import Path
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Result
-from capture.store import connect, remove_entry, store_path, write_results
+from capture.store import (
+    connect,
+    previous_results,
+    remove_absent,
+    remove_entry,
+    store_path,
+    write_results,
+)
 
 _conns: dict[tuple[Path, int], sqlite3.Connection] = {}
 _told: set[Path] = set()
@@ -28,14 +35,55 @@ def connection(root: Path, config: LabConfig) -> sqlite3.Connection:
     return _conns[key]
 
 
+# results a scan has handed over and not yet written, per connection
+_pending: dict[tuple[Path, int], list[Result]] = {}
+BATCH = 500  # results per transaction during a scan: one fsync for many
+
+
+def _key(root: Path, config: LabConfig) -> tuple[Path, int]:
+    return (store_path(root, config.store.path)[0], threading.get_ident())
+
+
+def _flush(root: Path, config: LabConfig) -> None:
+    held = _pending.pop(_key(root, config), None)
+    if held:
+        write_results(connection(root, config), held, config=config)
+
+
 # trylast: the chemist's sidecar is written first; the store follows in the same step
 @hookimpl(trylast=True, specname="masstrail_write_result")
-def write_to_store(result: Result, root: Path, config: LabConfig) -> list[Path]:
-    """Replace the entry's current rows and append to its history (if the store is on)."""
+def write_to_store(result: Result, root: Path, config: LabConfig, batch: bool) -> list[Path]:
+    """Replace the entry's current rows and append to its history (if the store is on).
+
+    A scan's results (``batch``) are written BATCH at a time, each batch one transaction.
+    """
     if not config.store.enabled:
         return []
-    write_results(connection(root, config), [result], config=config)
+    if not batch:
+        write_results(connection(root, config), [result], config=config)
+        return []
+    held = _pending.setdefault(_key(root, config), [])
+    held.append(result)
+    if len(held) >= BATCH:
+        _flush(root, config)
     return []
+
+
+@hookimpl(specname="masstrail_scan_done")
+def finish_scan(root: Path, config: LabConfig, present: list[str]) -> None:
+    """Write the scan's remaining results; drop the rows of entries no longer there."""
+    if not config.store.enabled:
+        return
+    _flush(root, config)
+    remove_absent(connection(root, config), set(present))
+
+
+@hookimpl(specname="masstrail_previous_results")
+def previous(root: Path, config: LabConfig) -> dict | None:
+    """The fingerprint and summary of every entry's last result, from the store."""
+    if not config.store.enabled:
+        return None
+    return previous_results(connection(root, config))
 
 
 @hookimpl(specname="masstrail_remove_result")

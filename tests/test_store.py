@@ -210,3 +210,111 @@ def test_the_store_streams_follow_the_lab_config(notebook):
     notebook.scan()
     streams = dict(_db(notebook).execute("SELECT name, stream FROM materials").fetchall())
     assert streams == {"DCM": "halogenated organic", "A": "solid"}
+
+
+# ---------------------------------------------------------------- reusing scans (the store
+# remembers each entry's fingerprint: masstrail_previous_results / masstrail_scan_done)
+
+LOGGED = entry_md(
+    """
+    product: {name: p, mass: 1.00 g}
+    balance_log: logs/bal.csv
+    materials: [{name: A, amount: 3.00 g}]
+    """,
+    "",
+)
+LOG = "time,label,net\n2026-11-30 10:01,A,3.012 g\n"
+
+
+def _reuse(notebook):
+    return scan(Notebook.open(notebook.root), reuse=True, keep=False)
+
+
+def test_a_warm_scan_recomputes_nothing_and_says_the_same(notebook):
+    notebook.write("a.md", ENTRY)
+    notebook.write("b.md", ENTRY.replace("3.00 g", "4.00 g"))
+    first = _reuse(notebook)
+    side = notebook.root / "a.waste.json"
+    before = side.stat().st_mtime_ns
+    second = _reuse(notebook)
+    assert (first.recomputed, second.recomputed) == (2, 0)
+    strip = lambda s: {**vars(s), "recomputed": None}  # noqa: E731
+    assert [strip(s) for s in second.summaries] == [strip(s) for s in first.summaries]
+    assert second.summaries[0].e_factor == pytest.approx(15.266)
+    assert second.summaries[0].major + second.summaries[0].minor == 2
+    assert side.stat().st_mtime_ns == before and second.results == []
+
+
+def test_what_changes_a_fingerprint_is_recomputed(notebook):
+    a = notebook.write("a.md", ENTRY)
+    notebook.write("b.md", ENTRY)
+    notebook.write("c.md", LOGGED)
+    log = notebook.write("logs/bal.csv", LOG)
+    assert _reuse(notebook).recomputed == 3
+    a.write_text(ENTRY.replace("3.00 g", "3.50 g"))  # an edit
+    assert [s.path for s in _reuse(notebook).summaries if s.recomputed] == ["a.md"]
+    log.write_text(LOG.replace("3.012", "3.020"))  # the balance log the entry names
+    changed = _reuse(notebook)
+    assert [s.path for s in changed.summaries if s.recomputed] == ["c.md"]
+    (notebook.root / "b.waste.json").unlink()  # a lost sidecar
+    assert [s.path for s in _reuse(notebook).summaries if s.recomputed] == ["b.md"]
+    notebook.write("masstrail.toml", "[e_factor]\ninclude_water = false\n")  # the lab config
+    assert _reuse(notebook).recomputed == 3
+    assert _reuse(notebook).recomputed == 0
+
+
+def test_without_a_store_every_entry_is_recomputed(notebook):
+    notebook.write("masstrail.toml", "[store]\nenabled = false\n")
+    notebook.write("a.md", ENTRY)
+    nb = Notebook.open(notebook.root)
+    assert nb.pm.hook.masstrail_previous_results(root=nb.root, config=nb.config) is None
+    assert _reuse(notebook).recomputed == 1 and _reuse(notebook).recomputed == 1
+
+
+def test_a_scan_drops_rows_of_entries_that_are_gone_and_keeps_their_history(notebook):
+    notebook.write("a.md", ENTRY)
+    b = notebook.write("b.md", ENTRY)
+    _reuse(notebook)
+    b.unlink()
+    _reuse(notebook)
+    conn = _db(notebook)
+    assert conn.execute("SELECT path FROM entries").fetchall() == [("a.md",)]
+    assert conn.execute("SELECT COUNT(*) FROM history WHERE entry_path = 'b.md'").fetchone() == (1,)
+
+
+def test_batched_scan_writes_equal_one_by_one_writes(notebook, tmp_path, monkeypatch):
+    import masstrail_plugins.store as store_plugin
+
+    for i in range(7):
+        notebook.write(f"e{i}.md", ENTRY.replace("3.00 g", f"3.{i}0 g"))
+    monkeypatch.setattr(store_plugin, "BATCH", 3)  # batches of 3, 3 and a last one of 1
+    _reuse(notebook)
+    batched = current_tables(_db(notebook))
+    nb = Notebook.open(notebook.root)
+    conn = connect(tmp_path / "one-by-one.db")
+    from capture.store import write_results
+
+    for f in nb.entry_files():
+        write_results(conn, [nb.process(f, write=False)], config=nb.config)
+    assert current_tables(conn) == batched and len(batched["entries"]) == 7
+    assert store_plugin._pending == {}  # nothing left held after masstrail_scan_done
+
+
+def test_an_old_store_gains_the_new_columns_and_keeps_its_history(tmp_path):
+    db = tmp_path / "old.db"
+    conn = sqlite3.connect(db)
+    from capture.store import SCHEMA
+
+    old = SCHEMA.replace(", error_location TEXT,\n    inputs_sha256 TEXT, balance_log TEXT\n", "\n")
+    assert old != SCHEMA
+    conn.executescript(old)
+    conn.execute("INSERT INTO history (entry_path, entry_id, sha256, tool_version, computed_at, "
+                 "result) VALUES ('a.md', 'a', 'x', '0', 't', '{}')")  # fmt: skip
+    conn.commit()
+    conn.close()
+    new = connect(db)
+    cols = {r[1] for r in new.execute("PRAGMA table_info(entries)")}
+    assert {"error_location", "inputs_sha256", "balance_log"} <= cols
+    assert new.execute("SELECT COUNT(*) FROM history").fetchone() == (1,)
+    with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+        new.execute("DELETE FROM history")

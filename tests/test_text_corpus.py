@@ -197,9 +197,16 @@ _NUMBER = st.one_of(
 )
 _PART = st.one_of(
     st.tuples(_NUMBER, st.sampled_from(["", " "]), _UNIT).map("".join),
-    st.tuples(st.integers(0, 12).map(str), st.sampled_from([" × ", "x", " x ", "*", "X"]),
-              _NUMBER, st.sampled_from([" ", ""]), _UNIT).map("".join),  # fmt: skip
-    st.sampled_from(["SiO2", "PPh3", "24 L collected", "1.4 M in hexane", "rt", "10% EtOAc in heptane"]),
+    st.tuples(
+        st.integers(0, 12).map(str),
+        st.sampled_from([" × ", "x", " x ", "*", "X"]),
+        _NUMBER,
+        st.sampled_from([" ", ""]),
+        _UNIT,
+    ).map("".join),
+    st.sampled_from(
+        ["SiO2", "PPh3", "24 L collected", "1.4 M in hexane", "rt", "10% EtOAc in heptane"]
+    ),
 )
 
 
