@@ -646,7 +646,7 @@ def export(path: Path, fmt: str, output: Path | None) -> None:
     from capture.pipeline import scan as run_scan
 
     nb, conn, _db = _store(path)
-    run_scan(nb)  # bring the store up to date (the store plugin writes each result)
+    run_scan(nb, reuse=True, keep=False)  # bring the store up to date: changed entries only
     if fmt == "json":
         text = export_json(conn)
         if output:
@@ -674,13 +674,22 @@ def export(path: Path, fmt: str, output: Path | None) -> None:
 @click.option("--project", help="Only entries of this project.")
 @click.option("--since", help="Only entries dated on or after YYYY-MM-DD.")
 @click.option("--until", help="Only entries dated on or before YYYY-MM-DD.")
-def report(path, output, author, group_, project, since, until):
+@click.option(
+    "--cards",
+    type=click.IntRange(min=0),
+    default=100,
+    show_default=True,
+    help="At most this many entry cards; beyond it, those with the most serious gaps.",
+)
+def report(path, output, author, group_, project, since, until, cards):
     """Write the lab's report for PATH as one self-contained HTML file.
 
     The lab overview (median E-factor and PMI by group, project and month; waste
     by stream; the largest contributors), gaps by author and group, and a card
-    per entry with its waste breakdown. Opens in a browser with no network.
+    per entry with its waste breakdown (up to --cards of them). Entries changed
+    since the last scan are computed first. Opens in a browser with no network.
     """
+    from capture.paths import sidecar_path
     from capture.pipeline import CAUTION
     from capture.pipeline import scan as run_scan
     from capture.report import build
@@ -689,9 +698,20 @@ def report(path, output, author, group_, project, since, until):
     flt = GapFilter(author=author, group=group_, project=project,
                     since=_date(since, "--since"), until=_date(until, "--until"))  # fmt: skip
     nb = _open_notebook(path)
-    results = run_scan(nb).results
-    output.write_text(build(results, flt, CAUTION, f"masstrail report: {path}"), encoding="utf-8")
-    click.echo(f"wrote {output} ({len(results)} entries)")
+    done = run_scan(nb, reuse=True, keep=False)
+
+    def sidecars():
+        for s in done.summaries:
+            try:
+                yield json.loads(sidecar_path(nb.root / s.path).read_text(encoding="utf-8"))
+            except (OSError, ValueError):  # gone or damaged since the scan: say so in the report
+                why = s.error or "its result file could not be read"
+                yield {"status": "error", "entry": {"path": s.path, "id": s.path}, "meta": {},
+                       "error": {"message": why}}  # fmt: skip
+
+    html = build(sidecars(), flt, CAUTION, f"masstrail report: {path}", cards=cards)
+    output.write_text(html, encoding="utf-8")
+    click.echo(f"wrote {output} ({len(done.summaries)} entries)")
 
 
 @cli.command()

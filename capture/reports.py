@@ -51,14 +51,19 @@ class GapFilter(BaseModel):
 
     def keeps(self, r: Result) -> bool:
         """True when the entry ``r`` belongs in the report."""
+        return self.keeps_meta(r.meta)
+
+    def keeps_meta(self, meta: dict) -> bool:
+        """True when an entry with this ``meta`` (title, author, group, project, date)
+        belongs in the report."""
         for key in ("author", "group", "project"):
             want = getattr(self, key)
-            if want is not None and (r.meta.get(key) or "").casefold() != want.casefold():
+            if want is not None and (meta.get(key) or "").casefold() != want.casefold():
                 return False
         if self.since or self.until:
-            if not r.meta.get("date"):
+            if not meta.get("date"):
                 return False
-            day = dt.date.fromisoformat(r.meta["date"])
+            day = dt.date.fromisoformat(meta["date"])
             if (self.since and day < self.since) or (self.until and day > self.until):
                 return False
         return True

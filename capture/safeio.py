@@ -157,12 +157,14 @@ def load_json(text: str) -> Any:
         raise InputError(f"invalid JSON: {exc.msg}", location=f"line {exc.lineno}") from exc
 
 
-def atomic_write(path: Path, text: str) -> bool:
+def atomic_write(path: Path, text: str, sync_dir: bool = True) -> bool:
     """Write ``text`` to ``path`` atomically; return False when the file already holds it.
 
     A temp file in the same folder is written, flushed and fsynced, then moved
     over the target with ``os.replace``, so a crash leaves the old or the new
-    file, never a partial one.
+    file, never a partial one. The folder is then fsynced, so the move itself
+    survives a power cut; a caller writing many files in a row passes
+    ``sync_dir=False`` and calls :func:`sync_folder` once per folder after.
     """
     data = text.encode("utf-8")
     try:
@@ -181,14 +183,20 @@ def atomic_write(path: Path, text: str) -> bool:
         with contextlib.suppress(OSError):
             os.unlink(tmp)
         raise
+    if sync_dir:
+        sync_folder(path.parent)
+    return True
+
+
+def sync_folder(folder: Path) -> None:
+    """fsync a folder, so the files moved into it stay there after a power cut (POSIX)."""
     try:
-        dir_fd = os.open(path.parent, os.O_RDONLY)
+        dir_fd = os.open(folder, os.O_RDONLY)
     except OSError:
-        return True
+        return
     try:
         os.fsync(dir_fd)
     except OSError:
         pass
     finally:
         os.close(dir_fd)
-    return True

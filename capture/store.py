@@ -252,8 +252,11 @@ def _insert(conn: sqlite3.Connection, table: str, rows: list[dict]) -> None:
         sqlite_utils.Database(conn)[table].insert_all(rows)
 
 
-def _write(conn: sqlite3.Connection, result: Result, now: str, config=None) -> bool:
-    """Replace the entry's current rows and append its history row; True if history grew."""
+def _write(
+    conn: sqlite3.Connection, result: Result, now: str, config, children: dict[str, list[dict]]
+) -> bool:
+    """Replace the entry's row and append its history row; True if history grew. Its rows
+    for the other current tables are added to ``children``, inserted after all entries."""
     path = result.entry.path
     conn.execute("DELETE FROM entries WHERE path = ?", (path,))  # cascades to the rest
     meta = result.meta
@@ -270,7 +273,7 @@ def _write(conn: sqlite3.Connection, result: Result, now: str, config=None) -> b
     )  # fmt: skip
     if result.status == "ok":
         for table, rows in _rows(result, config).items():
-            _insert(conn, table, rows)
+            children.setdefault(table, []).extend(rows)
     if not result.entry.sha256:
         return False
     cur = conn.execute(
@@ -298,8 +301,11 @@ def write_results(
     try:
         if clear:
             conn.execute("DELETE FROM entries")  # cascades to the current tables
+        children: dict[str, list[dict]] = {}
         for r in results:
-            added += _write(conn, r, now, config)
+            added += _write(conn, r, now, config, children)
+        for table, rows in children.items():  # one multi-row insert per table
+            _insert(conn, table, rows)
         conn.execute("COMMIT")
     except BaseException:
         conn.execute("ROLLBACK")

@@ -14,7 +14,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Result
 from capture.paths import card_path, sidecar_path
-from capture.safeio import atomic_write
+from capture.safeio import atomic_write, sync_folder
 
 
 @functools.lru_cache(maxsize=1)
@@ -46,15 +46,32 @@ def remove_sidecar(entry_path: Path) -> None:
             out.unlink()
 
 
+# folders a scan has moved files into and not yet fsynced
+_unsynced: set[Path] = set()
+
+
 @hookimpl(specname="masstrail_write_result")
-def write_sidecar(result: Result, entry_path: Path, config: LabConfig) -> list[Path]:
-    """Write ``NAME.waste.json`` (always) and ``NAME.waste.md`` (with ``[output] card = true``)."""
+def write_sidecar(result: Result, entry_path: Path, config: LabConfig, batch: bool) -> list[Path]:
+    """Write ``NAME.waste.json`` (always) and ``NAME.waste.md`` (with ``[output] card = true``).
+
+    During a scan (``batch``), each folder is fsynced once, when the scan is done, not
+    after every file; each file itself is fsynced before it replaces the old one.
+    """
     written = []
     target = sidecar_path(entry_path)
-    if atomic_write(target, result.sidecar_json()):
-        written.append(target)
+    outputs = [(target, result.sidecar_json)]
     if config.output.card:
-        card = card_path(entry_path)
-        if atomic_write(card, render_card(result)):
-            written.append(card)
+        outputs.append((card_path(entry_path), lambda: render_card(result)))
+    for out, render in outputs:
+        if atomic_write(out, render(), sync_dir=not batch):
+            written.append(out)
+            if batch:
+                _unsynced.add(out.parent)
     return written
+
+
+@hookimpl(specname="masstrail_scan_done")
+def sync_folders() -> None:
+    """fsync every folder the scan wrote into, once."""
+    while _unsynced:
+        sync_folder(_unsynced.pop())

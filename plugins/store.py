@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import sqlite3
 import sys
 import threading
@@ -23,9 +24,14 @@ _conns: dict[tuple[Path, int], sqlite3.Connection] = {}
 _told: set[Path] = set()
 
 
+@functools.lru_cache(maxsize=64)
+def _where(root: Path, configured: str | None) -> tuple[Path, str | None]:
+    return store_path(root, configured)  # reads /proc/mounts: once per notebook
+
+
 def connection(root: Path, config: LabConfig) -> sqlite3.Connection:
     """This thread's connection to the notebook's store (one writer per thread)."""
-    db, message = store_path(root, config.store.path)
+    db, message = _where(root, config.store.path)
     if message and db not in _told:
         print(f"masstrail: {message}", file=sys.stderr)
         _told.add(db)
@@ -41,7 +47,7 @@ BATCH = 500  # results per transaction during a scan: one fsync for many
 
 
 def _key(root: Path, config: LabConfig) -> tuple[Path, int]:
-    return (store_path(root, config.store.path)[0], threading.get_ident())
+    return (_where(root, config.store.path)[0], threading.get_ident())
 
 
 def _flush(root: Path, config: LabConfig) -> None:

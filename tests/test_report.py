@@ -84,3 +84,44 @@ def test_report_renders_in_headless_chromium(lab, tmp_path):
                     f"--screenshot={shot}", "--window-size=1200,2000", out.as_uri()],
                    check=True, capture_output=True, timeout=120)  # fmt: skip
     assert shot.stat().st_size > 20_000
+
+
+def test_streamed_figures_equal_the_reference_summaries(lab):
+    """The report counts gaps as it reads results one by one; capture.reports.summarise,
+    which holds every result, is the reference."""
+    import json
+
+    from capture.paths import sidecar_path
+    from capture.pipeline import Notebook, scan
+    from capture.report import figures
+    from capture.reports import GapFilter, summarise
+
+    nb = Notebook.open(lab)
+    results = scan(nb).results
+    for flt in (GapFilter(), GapFilter(severity="major"), GapFilter(group="Fenwick group")):
+        sidecars = (json.loads(sidecar_path(lab / r.entry.path).read_text()) for r in results)
+        got = figures(sidecars, flt)
+        assert got["gaps_by_author"] == summarise(results, flt, "author")
+        assert got["gaps_by_group"] == summarise(results, flt, "group")
+        kept = [r for r in results if flt.keeps(r)]
+        assert got["n_entries"] == len(kept) and len(got["cards"]) == len(kept)
+    assert figures(results, GapFilter())["gaps_by_author"] == summarise(results, GapFilter(), "author")
+
+
+def test_cards_are_capped_and_the_worst_entries_get_them(lab, tmp_path):
+    out = tmp_path / "r.html"
+    res = CliRunner().invoke(cli, ["report", str(lab), "-o", str(out), "--cards", "3"])
+    assert res.exit_code == 0, res.output
+    html = out.read_text()
+    page = _Text()
+    page.feed(html)
+    assert page.ids["n-entries"] == "10" and page.ids["n-cards"] == "3"
+    assert html.count('class="card"') == 3
+    import sqlite3
+
+    db = sqlite3.connect(lab / ".masstrail" / "records.db")
+    worst = db.execute(
+        "SELECT e.id FROM entries e JOIN entry_gaps g ON g.path = e.path "
+        "ORDER BY g.blocking DESC, g.major DESC, g.minor DESC, e.date DESC LIMIT 3"
+    ).fetchall()
+    assert [f'id="entry-{i}"' in html for (i,) in worst] == [True, True, True]

@@ -318,3 +318,23 @@ def test_an_old_store_gains_the_new_columns_and_keeps_its_history(tmp_path):
     assert new.execute("SELECT COUNT(*) FROM history").fetchone() == (1,)
     with pytest.raises(sqlite3.IntegrityError, match="append-only"):
         new.execute("DELETE FROM history")
+
+
+def test_a_scan_fsyncs_each_folder_once_and_the_watcher_path_every_time(notebook, monkeypatch):
+    import masstrail_plugins.sidecar as sidecar
+
+    synced = []
+    monkeypatch.setattr(sidecar, "sync_folder", synced.append)
+    import capture.safeio as safeio
+
+    monkeypatch.setattr(safeio, "sync_folder", synced.append)
+    for rel in ("a/1.md", "a/2.md", "a/3.md", "b/4.md", "b/5.md"):
+        notebook.write(rel, ENTRY)
+    report = _reuse(notebook)
+    assert len(report.written) == 5
+    assert sorted(p.name for p in synced) == ["a", "b"]
+    synced.clear()
+    nb = Notebook.open(notebook.root)
+    entry = notebook.write("a/1.md", ENTRY.replace("3.00 g", "3.10 g"))
+    nb.process(entry)  # one result at a time (the watcher): its folder is fsynced at once
+    assert [p.name for p in synced] == ["a"]
