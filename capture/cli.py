@@ -9,6 +9,7 @@ errors. Heavy imports happen inside the commands so that ``--help`` is quick.
 from __future__ import annotations
 
 import json
+import os
 import sys
 from pathlib import Path
 
@@ -93,7 +94,15 @@ TABLE_ROWS = 200  # above this many entries, the scan table lists only those nee
     is_flag=True,
     help="Compute every entry again, even those unchanged since the last scan.",
 )
-def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool) -> None:
+@click.option(
+    "--jobs",
+    type=click.IntRange(min=0),
+    default=0,
+    show_default=True,
+    help="Worker processes for the computing (0: one per core, at most 8; 1: none). "
+    "The results are the same either way.",
+)
+def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: int) -> None:
     """Process every entry under PATH and write NAME.waste.json next to each.
 
     Entries unchanged since the last scan (the same text, balance logs, lab
@@ -121,7 +130,8 @@ def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool) -> Non
             bar.advance(task)
 
     try:
-        report = run_scan(nb, progress=progress, files=files, reuse=not recompute, keep=False)
+        report = run_scan(nb, progress=progress, files=files, reuse=not recompute, keep=False,
+                          jobs=jobs or min(os.cpu_count() or 1, 8))  # fmt: skip
     finally:
         if bar is not None:
             bar.stop()

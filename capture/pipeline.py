@@ -724,6 +724,44 @@ class ScanReport:
         return sum(s.recomputed for s in self.summaries)
 
 
+_worker_notebook: Notebook | None = None
+
+
+def _start_worker(root: str) -> None:
+    global _worker_notebook
+    _worker_notebook = Notebook.open(Path(root))
+
+
+def _compute_in_worker(path: Path) -> Result:
+    assert _worker_notebook is not None
+    return _worker_notebook.process(path, write=False)
+
+
+def _computed(notebook: Notebook, paths: list[Path], jobs: int) -> Iterable[Result]:
+    """The results of ``paths``, in order: here, or in ``jobs`` worker processes, fed a
+    window at a time so that finished results never pile up in memory."""
+    if jobs <= 1 or len(paths) < 2 * PARALLEL_WINDOW // 8:
+        for path in paths:
+            yield notebook.process(path, write=False)
+        return
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    context = multiprocessing.get_context("spawn")  # the same on Linux, macOS and Windows
+    with ProcessPoolExecutor(jobs, mp_context=context, initializer=_start_worker,
+                             initargs=(str(notebook.root),)) as pool:  # fmt: skip
+        ahead = None
+        for start in range(0, len(paths), PARALLEL_WINDOW):
+            window = paths[start : start + PARALLEL_WINDOW]
+            current = ahead or pool.map(_compute_in_worker, window, chunksize=8)
+            following = paths[start + PARALLEL_WINDOW : start + 2 * PARALLEL_WINDOW]
+            ahead = pool.map(_compute_in_worker, following, chunksize=8) if following else None
+            yield from current
+
+
+PARALLEL_WINDOW = 256  # entries handed to the workers at a time
+
+
 def scan(
     notebook: Notebook,
     progress: Callable[[Path], None] | None = None,
@@ -731,6 +769,7 @@ def scan(
     files: list[Path] | None = None,
     reuse: bool = False,
     keep: bool = True,
+    jobs: int = 1,
 ) -> ScanReport:
     """Process every entry under the notebook root once; one summary per entry file.
 
@@ -738,7 +777,9 @@ def scan(
     With ``reuse`` (and ``write``), an entry whose fingerprint (``inputs_sha256``) matches
     what the store holds and whose sidecar exists is not recomputed. With ``keep``, every
     recomputed entry's full :class:`Result` is kept in ``results`` (memory grows with the
-    notebook; the command-line scan keeps only the summaries).
+    notebook; the command-line scan keeps only the summaries). With ``jobs`` > 1, entries
+    are computed in that many worker processes; this process still writes every result,
+    in the same order, so the output is the same as with one.
     """
     files = notebook.entry_files() if files is None else files
     by_sidecar: dict[Path, list[Path]] = {}
@@ -751,49 +792,53 @@ def scan(
             or {}
         )
     limit = int(notebook.config.scan.max_entry_mb * 1024 * 1024)
-    results, written, summaries, present = [], [], [], []
+    # first, what each file needs: an error for a name clash, its previous summary, or work
+    plan: list[Result | EntrySummary | None] = []
     for f in files:
         clash = by_sidecar[sidecar_path(f)]
-        result = summary = None
         if len(clash) > 1:
             names = ", ".join(p.name for p in clash)
-            result = error_result(
-                f,
-                notebook.relpath(f),
-                None,
-                f"{len(clash)} entries in this folder share the name "
-                f"'{sidecar_path(f).name}' for their results ({names}); rename one of them",
-                None,
+            plan.append(
+                error_result(
+                    f,
+                    notebook.relpath(f),
+                    None,
+                    f"{len(clash)} entries in this folder share the name "
+                    f"'{sidecar_path(f).name}' for their results ({names}); rename one of them",
+                    None,
+                )
             )
-            if write and f == clash[0]:
-                written += notebook.write(result, f, batch=True)
+            continue
+        before = previous.get(notebook.relpath(f))
+        summary = None
+        if before is not None and sidecar_path(f).exists():
+            try:
+                sha = hashlib.sha256(read_bounded(f, limit)).hexdigest()
+                if before.inputs_sha256 == notebook.inputs_sha(sha, f.parent, before.balance_log):
+                    summary = before.summary
+                    summary.recomputed = False
+            except InputError:
+                pass
+        plan.append(summary)
+    work = iter(_computed(notebook, [f for f, p in zip(files, plan, strict=True) if p is None],
+                          jobs))  # fmt: skip
+    results, written, summaries = [], [], []
+    for f, planned in zip(files, plan, strict=True):
+        if isinstance(planned, EntrySummary):
+            summary = planned
         else:
-            rel = notebook.relpath(f)
-            before = previous.get(rel)
-            if before is not None and sidecar_path(f).exists():
-                try:
-                    sha = hashlib.sha256(read_bounded(f, limit)).hexdigest()
-                    if before.inputs_sha256 == notebook.inputs_sha(
-                        sha, f.parent, before.balance_log
-                    ):
-                        summary = before.summary
-                        summary.recomputed = False
-                except InputError:
-                    pass
-            if summary is None:
-                result = notebook.process(f, write=False)
-                if write:
-                    written += notebook.write(result, f, batch=True)
-        if summary is None:
+            result = planned if planned is not None else next(work)
+            clash = by_sidecar[sidecar_path(f)]
+            if write and (len(clash) == 1 or f == clash[0]):
+                written += notebook.write(result, f, batch=True)
             summary = EntrySummary.of(result)
             if keep:
                 results.append(result)
         summaries.append(summary)
-        present.append(summary.path)
         if progress:
             progress(f)
     if write:
         notebook.pm.hook.masstrail_scan_done(
-            root=notebook.root, config=notebook.config, present=present
+            root=notebook.root, config=notebook.config, present=[s.path for s in summaries]
         )
     return ScanReport(notebook.root, results, written, summaries)

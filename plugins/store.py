@@ -43,7 +43,7 @@ def connection(root: Path, config: LabConfig) -> sqlite3.Connection:
 
 # results a scan has handed over and not yet written, per connection
 _pending: dict[tuple[Path, int], list[Result]] = {}
-BATCH = 500  # results per transaction during a scan: one fsync for many
+BATCH = 100  # results per transaction during a scan: one fsync for many, memory for few
 
 
 def _key(root: Path, config: LabConfig) -> tuple[Path, int]:

@@ -42,6 +42,15 @@ class NotebookDir:
         return json.loads((p.parent / f"{stem}.waste.json").read_text(encoding="utf-8"))
 
 
+@pytest.fixture(autouse=True, scope="session")
+def _own_cache_folder(tmp_path_factory):
+    """The chemicals name cache (and anything else under XDG_CACHE_HOME) goes to a folder of
+    this test run, never to the user's ~/.cache; subprocesses inherit it."""
+    import os
+
+    os.environ["XDG_CACHE_HOME"] = str(tmp_path_factory.mktemp("cache"))
+
+
 @pytest.fixture
 def notebook(tmp_path: Path) -> NotebookDir:
     root = tmp_path / "notebook"

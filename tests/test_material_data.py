@@ -192,3 +192,30 @@ def test_densities_match_the_handbook_table(name, value):
 def test_name_folding_is_stable():
     assert material_key("Sat. Aq. NH4Cl") == material_key("saturated NH4Cl")
     assert material_key("EDC·HCl") == material_key("EDC.HCl")
+
+
+def test_name_lookups_are_kept_between_runs(tmp_path, monkeypatch):
+    """The chemicals library's name table loads whole (seconds, ~200 MB); its answers are
+    kept in a per-user cache so a later run with the same names never loads it."""
+    pytest.importorskip("chemicals")
+    import masstrail_plugins.materials as M
+
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
+    monkeypatch.setattr(M, "_name_cache", M._NameCache())
+    asked = []
+    real = M._ask_chemicals
+    monkeypatch.setattr(M, "_ask_chemicals", lambda n: asked.append(n) or real(n))
+    first = M._chemicals_lookup("malononitrile")
+    assert M._chemicals_lookup("malononitrile") == first
+    assert M._chemicals_lookup("no such compound xyz") is None
+    monkeypatch.setattr(M, "_name_cache", M._NameCache())  # a new run
+    assert M._chemicals_lookup("malononitrile") == first
+    assert M._chemicals_lookup("no such compound xyz") is None
+    # malononitrile, CH2(CN)2: C3H2N2, 66.06 g/mol (common practice; molar mass from IUPAC weights)
+    assert first[1] == "C3H2N2" and first[2] == pytest.approx(66.06, abs=0.01)
+    assert asked == ["malononitrile", "no such compound xyz"]
+    (cache,) = (tmp_path / "masstrail").glob("names-*.json")
+    cache.write_text("{damaged")  # a damaged cache is ignored and rewritten
+    monkeypatch.setattr(M, "_name_cache", M._NameCache())
+    assert M._chemicals_lookup("malononitrile") == first and len(asked) == 3
+    assert "malononitrile" in cache.read_text()

@@ -421,3 +421,34 @@ def test_a_known_commercial_solution_uses_its_own_density(notebook):
     # 0.693 g/mL: supplier value for 2.5 M n-BuLi in hexanes (FIELD.md, from memory)
     assert line["mass_g"] == pytest.approx(8.8 * 0.693, abs=1e-4)
     assert "n-BuLi 2.5 M in hexanes" in line["basis"] and line["moles_mmol"] == 22.0
+
+
+def test_a_parallel_scan_writes_exactly_what_a_serial_scan_writes(tmp_path):
+    """Two worker processes compute; the scanning process writes, in order. Sidecars, cards
+    and the store's current tables must be the same, byte for byte and row for row."""
+    import shutil
+
+    from capture.store import connect, current_tables
+
+    def copy(name):
+        root = tmp_path / name
+        shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.*"))
+        entries = [p for p in root.rglob("*") if p.suffix in {".md", ".yaml", ".json", ".ipynb"}
+                   and "templates" not in p.parts]  # fmt: skip
+        for i in range(8):  # 90 entries: enough for the workers to be used
+            for p in entries:
+                shutil.copy(p, p.with_name(f"{p.stem}-copy{i}{p.suffix}"))
+        return root
+
+    serial, parallel = copy("serial"), copy("parallel")
+    a = scan(Notebook.open(serial), keep=False, jobs=1)
+    b = scan(Notebook.open(parallel), keep=False, jobs=2)
+    assert len(a.summaries) == 90
+    assert [vars(s) for s in a.summaries] == [vars(s) for s in b.summaries]
+    outputs = sorted(p.relative_to(serial) for p in serial.rglob("*.waste.*"))
+    assert len(outputs) == 180
+    assert outputs == sorted(p.relative_to(parallel) for p in parallel.rglob("*.waste.*"))
+    for rel in outputs:
+        assert (serial / rel).read_bytes() == (parallel / rel).read_bytes(), rel
+    tables = [current_tables(connect(r / ".masstrail" / "records.db")) for r in (serial, parallel)]
+    assert tables[0] == tables[1] and len(tables[0]["entries"]) == 90
