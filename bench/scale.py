@@ -62,7 +62,7 @@ def _sentences() -> list[str]:
     return [item.text for item in load(CORPUS)]
 
 
-def generate(target: Path, n: int, seed: int = 3) -> None:
+def generate(target: Path, n: int, seed: int = 3, names: bool = False) -> None:
     """N entries from the example scenario: each a copy of one example entry (front matter,
     tables, balance logs and procedure as the chemists of the example lab write them) with
     a new id, another author and date, every decimal amount changed by up to ±20 %, and,
@@ -72,6 +72,9 @@ def generate(target: Path, n: int, seed: int = 3) -> None:
     files = _templates()
     corpus = _sentences()
     shutil.copy(EXAMPLES / "masstrail.toml", target / "masstrail.toml")
+    if not names:
+        with (target / "masstrail.toml").open("a", encoding="utf-8") as fh:
+            fh.write('\n[plugins]\nblock = ["names"]\n')
     for logs in EXAMPLES.rglob("logs"):
         shutil.copytree(logs, target / logs.relative_to(EXAMPLES), dirs_exist_ok=True)
     for i in range(n):
@@ -203,11 +206,11 @@ def _masstrail() -> list[str]:
     return [str(exe)] if exe.exists() else [sys.executable, "-m", "capture.cli"]
 
 
-def measure(n: int, jobs: int, tmp: Path) -> dict:
+def measure(n: int, jobs: int, tmp: Path, names: bool) -> dict:
     root = tmp / f"nb-{n}"
     root.mkdir()
     t = time.perf_counter()
-    generate(root, n)
+    generate(root, n, names=names)
     gen = time.perf_counter() - t
     m = _masstrail()
     fig: dict = {"entries": n, "generate_s": gen}
@@ -244,13 +247,14 @@ def startup() -> dict:
     return {"help_s": best([*m, "--help"]), "python_s": best([sys.executable, "-c", "pass"])}
 
 
-def table(figs: list[dict], start: dict, jobs: int) -> str:
+def table(figs: list[dict], start: dict, jobs: int, names: bool) -> str:
     def r(a, b):
         return f"{a / b:.1f} ×"
 
     lines = [
         f"Measured {time.strftime('%Y-%m-%d')} on {os.cpu_count()} cores, Python "
-        f"{sys.version.split()[0]}, `--jobs {jobs}` (0: one per core).",
+        f"{sys.version.split()[0]}, `--jobs {jobs}` (0: one per core), chemicals name "
+        f"database {'used' if names else 'blocked (as without the [names] extra)'}.",
         "",
         "| entries | cold scan | × floor (durable / plain) | per entry | warm rescan | × floor | "
         "one edit | report | peak memory (scan / warm / report) | store |",
@@ -296,14 +300,17 @@ def main() -> int:
     ap.add_argument("--jobs", type=int, default=0, help="masstrail scan --jobs (0: per core)")
     ap.add_argument("--smoke", action="store_true", help="40 entries, to see that it runs")
     ap.add_argument("--out", type=Path, help="also write the table to this Markdown file")
+    ap.add_argument("--names", action="store_true",
+                    help="use the chemicals name database (the [names] extra) if installed; "
+                    "by default it is blocked, as in the README's install")  # fmt: skip
     args = ap.parse_args()
     sizes = [40] if args.smoke else [int(s) for s in args.sizes.split(",")]
     figs = []
     with tempfile.TemporaryDirectory(prefix="masstrail-bench-") as tmp:
         for n in sizes:
-            figs.append(measure(n, args.jobs, Path(tmp)))
+            figs.append(measure(n, args.jobs, Path(tmp), args.names))
             print(json.dumps(figs[-1]), file=sys.stderr, flush=True)
-    text = table(figs, startup(), args.jobs)
+    text = table(figs, startup(), args.jobs, args.names)
     print(text)
     if args.out:
         args.out.write_text(text + "\n", encoding="utf-8")

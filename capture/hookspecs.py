@@ -305,7 +305,10 @@ def masstrail_write_result(
     :param config: the lab configuration.
     :param batch: True when a scan hands over many results in a row; a writer may
         hold them and write them together, at the latest in ``masstrail_scan_done``.
-        False for the watcher's single results, which must be written at once.
+        False for the watcher's single results, which must be written at once. In a
+        parallel scan, writers run in the worker processes, except those whose module
+        says ``MASSTRAIL_SINGLE_WRITER = True`` (the store), which run in the scanning
+        process only.
     :returns: the paths written (unchanged files are not rewritten and not
         listed); all answers are combined.
     """
@@ -326,7 +329,9 @@ def masstrail_previous_results(root: Path, config: LabConfig) -> dict | None:
 
 
 @hookspec
-def masstrail_scan_done(root: Path, config: LabConfig, present: list[str]) -> None:
+def masstrail_scan_done(
+    root: Path, config: LabConfig, present: list[str], written: list[Path]
+) -> None:
     """A scan has handed over all its results.
 
     Called once at the end of every scan that writes. Writers that hold results
@@ -336,6 +341,8 @@ def masstrail_scan_done(root: Path, config: LabConfig, present: list[str]) -> No
     :param root: the notebook root.
     :param config: the lab configuration.
     :param present: the relative paths of every entry the scan saw.
+    :param written: every file the scan's writers wrote, in this process or in its
+        workers (the sidecar writer fsyncs their folders, once each).
     :returns: nothing.
     """
 

@@ -187,12 +187,25 @@ class Notebook:
             self.write(result, path)
         return result
 
-    def write(self, result: Result, path: Path, batch: bool = False) -> list[Path]:
-        """Hand a result to every writer plugin (``batch``: one of many, from a scan)."""
+    def write(
+        self, result: Result, path: Path, batch: bool = False, writers: str = "all"
+    ) -> list[Path]:
+        """Hand a result to the writer plugins (``batch``: one of many, from a scan).
+
+        ``writers``: "all"; "shared", the writers that may run in any process (a worker
+        of a parallel scan writes the sidecar and card of what it computed); or "single",
+        those that must run in one process only (the store), marked by a module-level
+        ``MASSTRAIL_SINGLE_WRITER = True``.
+        """
+        if writers == "all":
+            caller = self.pm.hook.masstrail_write_result
+        else:
+            single = [p for p in self.pm.get_plugins() if getattr(p, "MASSTRAIL_SINGLE_WRITER", 0)]
+            others = [p for p in self.pm.get_plugins() if p not in single]
+            remove = single if writers == "shared" else others
+            caller = self.pm.subset_hook_caller("masstrail_write_result", remove_plugins=remove)
         return _flatten(
-            self.pm.hook.masstrail_write_result(
-                result=result, entry_path=path, root=self.root, config=self.config, batch=batch
-            )
+            caller(result=result, entry_path=path, root=self.root, config=self.config, batch=batch)
         )
 
     # ------------------------------------------------------------------ fingerprints
@@ -732,30 +745,39 @@ def _start_worker(root: str) -> None:
     _worker_notebook = Notebook.open(Path(root))
 
 
-def _compute_in_worker(path: Path) -> Result:
+def _compute_in_worker(path: Path, write: bool) -> tuple[Result, list[Path]]:
+    """In a worker: compute one entry and, if the scan writes, write its sidecar and card
+    (every writer but the single-process ones, which the scanning process runs)."""
     assert _worker_notebook is not None
-    return _worker_notebook.process(path, write=False)
+    result = _worker_notebook.process(path, write=False)
+    written = _worker_notebook.write(result, path, batch=True, writers="shared") if write else []
+    return result, written
 
 
-def _computed(notebook: Notebook, paths: list[Path], jobs: int) -> Iterable[Result]:
-    """The results of ``paths``, in order: here, or in ``jobs`` worker processes, fed a
+def _computed(
+    notebook: Notebook, paths: list[Path], jobs: int, write: bool
+) -> Iterable[tuple[Result, list[Path] | None]]:
+    """The results of ``paths``, in order, with the files a worker wrote for each (None when
+    computed here, and nothing written yet): here, or in ``jobs`` worker processes, fed a
     window at a time so that finished results never pile up in memory."""
     if jobs <= 1 or len(paths) < 2 * PARALLEL_WINDOW // 8:
         for path in paths:
-            yield notebook.process(path, write=False)
+            yield notebook.process(path, write=False), None
         return
+    import functools as ft
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor
 
     context = multiprocessing.get_context("spawn")  # the same on Linux, macOS and Windows
     with ProcessPoolExecutor(jobs, mp_context=context, initializer=_start_worker,
                              initargs=(str(notebook.root),)) as pool:  # fmt: skip
+        task = ft.partial(_compute_in_worker, write=write)
         ahead = None
         for start in range(0, len(paths), PARALLEL_WINDOW):
             window = paths[start : start + PARALLEL_WINDOW]
-            current = ahead or pool.map(_compute_in_worker, window, chunksize=8)
+            current = ahead or pool.map(task, window, chunksize=8)
             following = paths[start + PARALLEL_WINDOW : start + 2 * PARALLEL_WINDOW]
-            ahead = pool.map(_compute_in_worker, following, chunksize=8) if following else None
+            ahead = pool.map(task, following, chunksize=8) if following else None
             yield from current
 
 
@@ -820,16 +842,20 @@ def scan(
             except InputError:
                 pass
         plan.append(summary)
-    work = iter(_computed(notebook, [f for f, p in zip(files, plan, strict=True) if p is None],
-                          jobs))  # fmt: skip
+    todo = [f for f, p in zip(files, plan, strict=True) if p is None]
+    work = iter(_computed(notebook, todo, jobs, write))
     results, written, summaries = [], [], []
     for f, planned in zip(files, plan, strict=True):
         if isinstance(planned, EntrySummary):
             summary = planned
         else:
-            result = planned if planned is not None else next(work)
+            result, by_worker = (planned, None) if planned is not None else next(work)
             clash = by_sidecar[sidecar_path(f)]
-            if write and (len(clash) == 1 or f == clash[0]):
+            if by_worker is not None:  # a worker wrote the sidecar and card; the store is ours
+                written += by_worker
+                if write:
+                    written += notebook.write(result, f, batch=True, writers="single")
+            elif write and (len(clash) == 1 or f == clash[0]):
                 written += notebook.write(result, f, batch=True)
             summary = EntrySummary.of(result)
             if keep:
@@ -839,6 +865,9 @@ def scan(
             progress(f)
     if write:
         notebook.pm.hook.masstrail_scan_done(
-            root=notebook.root, config=notebook.config, present=[s.path for s in summaries]
+            root=notebook.root,
+            config=notebook.config,
+            present=[s.path for s in summaries],
+            written=written,
         )
     return ScanReport(notebook.root, results, written, summaries)

@@ -25,6 +25,7 @@ DEFAULT_PLUGINS: tuple[str, ...] = (
     "balance",
     "text",
     "materials",
+    "names",
     "masses",
     "gaps",
     "metrics",

@@ -279,7 +279,14 @@ def _write(
     cur = conn.execute(
         "INSERT OR IGNORE INTO history (entry_path, entry_id, sha256, tool_version, computed_at, "
         "result) VALUES (?,?,?,?,?,?)",
-        (path, result.entry.id, result.entry.sha256, __version__, now, result.sidecar_json()),
+        (
+            path,
+            result.entry.id,
+            result.entry.sha256,
+            __version__,
+            now,
+            result.model_dump_json(by_alias=True),
+        ),  # the sidecar's JSON, without its indent
     )
     return cur.rowcount == 1
 

@@ -41,6 +41,9 @@ def connection(root: Path, config: LabConfig) -> sqlite3.Connection:
     return _conns[key]
 
 
+# One writer: in a parallel scan this plugin runs in the scanning process only.
+MASSTRAIL_SINGLE_WRITER = True
+
 # results a scan has handed over and not yet written, per connection
 _pending: dict[tuple[Path, int], list[Result]] = {}
 BATCH = 100  # results per transaction during a scan: one fsync for many, memory for few

@@ -105,7 +105,9 @@ def test_streamed_figures_equal_the_reference_summaries(lab):
         assert got["gaps_by_group"] == summarise(results, flt, "group")
         kept = [r for r in results if flt.keeps(r)]
         assert got["n_entries"] == len(kept) and len(got["cards"]) == len(kept)
-    assert figures(results, GapFilter())["gaps_by_author"] == summarise(results, GapFilter(), "author")
+    assert figures(results, GapFilter())["gaps_by_author"] == summarise(
+        results, GapFilter(), "author"
+    )
 
 
 def test_cards_are_capped_and_the_worst_entries_get_them(lab, tmp_path):
