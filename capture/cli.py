@@ -159,11 +159,13 @@ def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: 
 
         console = _console()
         rows = report.summaries
+        title = f"masstrail scan of {path}"
         if len(rows) > TABLE_ROWS:
             rows = [s for s in rows if s.status == "error" or s.blocking]
-        title = f"masstrail scan of {path}"
-        if len(rows) < len(report.summaries):
             title += f": the {len(rows)} entries with a blocking gap or an error"
+            if len(rows) > TABLE_ROWS:
+                title += f" (the first {TABLE_ROWS} shown; masstrail gaps lists them all)"
+                rows = rows[:TABLE_ROWS]
         table = Table(title=title, title_justify="left")
         table.add_column("entry", overflow="fold", min_width=min(24, max(
             [len(s.path) for s in rows] or [5])))  # fmt: skip
