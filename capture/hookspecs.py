@@ -330,7 +330,7 @@ def masstrail_previous_results(root: Path, config: LabConfig) -> dict | None:
 
 @hookspec
 def masstrail_scan_done(
-    root: Path, config: LabConfig, present: list[str], written: list[Path]
+    root: Path, config: LabConfig, present: list[str], written: list[str]
 ) -> None:
     """A scan has handed over all its results.
 

@@ -671,7 +671,7 @@ def error_result(
     )
 
 
-@dataclass
+@dataclass(slots=True)
 class EntrySummary:
     """One line of a scan: what the scan table and the exit code need, and no more (a scan
     of 100,000 entries keeps these, not the full results)."""
@@ -705,7 +705,7 @@ class EntrySummary:
         )
 
 
-@dataclass
+@dataclass(slots=True)
 class PreviousResult:
     """What the store remembers of an entry's last result: enough to tell whether it is
     still current, and its summary."""
@@ -721,7 +721,7 @@ class ScanReport:
 
     root: Path
     results: list[Result]
-    written: list[Path]
+    written: list[str]  # the files written, as strings (a scan of 100,000 writes 200,000)
     summaries: list[EntrySummary] = field(default_factory=list)
 
     def count(self, severity: str) -> int:
@@ -804,9 +804,16 @@ def scan(
     in the same order, so the output is the same as with one.
     """
     files = notebook.entry_files() if files is None else files
+    # entries that would share one sidecar (a.md and a.json): each gets an error result
+    sides: dict[str, int] = {}
+    for f in files:
+        key = os.fspath(sidecar_path(f))
+        sides[key] = sides.get(key, 0) + 1
     by_sidecar: dict[Path, list[Path]] = {}
     for f in files:
-        by_sidecar.setdefault(sidecar_path(f), []).append(f)
+        if sides[os.fspath(sidecar_path(f))] > 1:
+            by_sidecar.setdefault(sidecar_path(f), []).append(f)
+    del sides
     previous: dict[str, PreviousResult] = {}
     if reuse and write:
         previous = (
@@ -817,7 +824,7 @@ def scan(
     # first, what each file needs: an error for a name clash, its previous summary, or work
     plan: list[Result | EntrySummary | None] = []
     for f in files:
-        clash = by_sidecar[sidecar_path(f)]
+        clash = by_sidecar.get(sidecar_path(f), [f])
         if len(clash) > 1:
             names = ", ".join(p.name for p in clash)
             plan.append(
@@ -842,6 +849,7 @@ def scan(
             except InputError:
                 pass
         plan.append(summary)
+    del previous  # what is still needed of it is in the plan
     todo = [f for f, p in zip(files, plan, strict=True) if p is None]
     work = iter(_computed(notebook, todo, jobs, write))
     results, written, summaries = [], [], []
@@ -850,13 +858,15 @@ def scan(
             summary = planned
         else:
             result, by_worker = (planned, None) if planned is not None else next(work)
-            clash = by_sidecar[sidecar_path(f)]
+            clash = by_sidecar.get(sidecar_path(f), [f])
             if by_worker is not None:  # a worker wrote the sidecar and card; the store is ours
-                written += by_worker
+                written += map(os.fspath, by_worker)
                 if write:
-                    written += notebook.write(result, f, batch=True, writers="single")
+                    written += map(
+                        os.fspath, notebook.write(result, f, batch=True, writers="single")
+                    )
             elif write and (len(clash) == 1 or f == clash[0]):
-                written += notebook.write(result, f, batch=True)
+                written += map(os.fspath, notebook.write(result, f, batch=True))
             summary = EntrySummary.of(result)
             if keep:
                 results.append(result)

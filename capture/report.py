@@ -122,7 +122,7 @@ def figures(results: Iterable[dict | Result], flt: GapFilter, cards: int = 100) 
     n_kept = n_errors = 0
     e_all: list[float] = []
     pmi_all: list[float] = []
-    by: dict[str, dict[str, tuple[list, list, list]]] = {"group": {}, "project": {}, "month": {}}
+    by: dict[str, dict[str, list]] = {"group": {}, "project": {}, "month": {}}  # [n, es, pmis]
     streams: Counter[str] = Counter()
     contributors: Counter[str] = Counter()
     gap_sums: dict[str, dict[str, dict]] = {"author": {}, "group": {}}
@@ -150,8 +150,8 @@ def figures(results: Iterable[dict | Result], flt: GapFilter, cards: int = 100) 
             month = (meta.get("date") or "")[:7] or None
             for label, key in (("group", meta.get("group")), ("project", meta.get("project")),
                                ("month", month)):  # fmt: skip
-                cell = by[label].setdefault(key or "(none)", ([], [], []))
-                cell[0].append(1)
+                cell = by[label].setdefault(key or "(none)", [0, [], []])
+                cell[0] += 1
                 if e is not None:
                     cell[1].append(e)
                 if pmi is not None:
@@ -190,7 +190,7 @@ def figures(results: Iterable[dict | Result], flt: GapFilter, cards: int = 100) 
     top = contributors.most_common(10)
 
     def table(label: str) -> list[tuple[str, int, float | None, float | None]]:
-        return [(k, len(c[0]), _median(c[1]), _median(c[2])) for k, c in sorted(by[label].items())]
+        return [(k, c[0], _median(c[1]), _median(c[2])) for k, c in sorted(by[label].items())]
 
     def gap_table(label: str) -> list[GroupSummary]:
         return [

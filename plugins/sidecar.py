@@ -71,8 +71,8 @@ def write_sidecar(result: Result, entry_path: Path, config: LabConfig, batch: bo
 
 
 @hookimpl(specname="masstrail_scan_done")
-def sync_folders(written: list[Path]) -> None:
+def sync_folders(written: list[str]) -> None:
     """fsync every folder the scan wrote into (here or in its workers), once."""
-    _unsynced.update(p.parent for p in written)
+    _unsynced.update(Path(p).parent for p in written)
     while _unsynced:
         sync_folder(_unsynced.pop())

@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import json
 import shutil
+from dataclasses import asdict
 
 import pytest
 
@@ -444,7 +445,7 @@ def test_a_parallel_scan_writes_exactly_what_a_serial_scan_writes(tmp_path):
     a = scan(Notebook.open(serial), keep=False, jobs=1)
     b = scan(Notebook.open(parallel), keep=False, jobs=2)
     assert len(a.summaries) == 90
-    assert [vars(s) for s in a.summaries] == [vars(s) for s in b.summaries]
+    assert [asdict(s) for s in a.summaries] == [asdict(s) for s in b.summaries]
     outputs = sorted(p.relative_to(serial) for p in serial.rglob("*.waste.*"))
     assert len(outputs) == 180
     assert outputs == sorted(p.relative_to(parallel) for p in parallel.rglob("*.waste.*"))

@@ -6,6 +6,7 @@ import csv
 import json
 import sqlite3
 import threading
+from dataclasses import asdict
 
 import pytest
 from click.testing import CliRunner
@@ -238,7 +239,7 @@ def test_a_warm_scan_recomputes_nothing_and_says_the_same(notebook):
     before = side.stat().st_mtime_ns
     second = _reuse(notebook)
     assert (first.recomputed, second.recomputed) == (2, 0)
-    strip = lambda s: {**vars(s), "recomputed": None}  # noqa: E731
+    strip = lambda s: {**asdict(s), "recomputed": None}  # noqa: E731
     assert [strip(s) for s in second.summaries] == [strip(s) for s in first.summaries]
     assert second.summaries[0].e_factor == pytest.approx(15.266)
     assert second.summaries[0].major + second.summaries[0].minor == 2
