@@ -139,8 +139,15 @@ class Notebook:
                 found.append(Path(dirpath) / name)
         return found
 
+    @functools.cached_property
+    def _root_prefix(self) -> str:
+        return os.path.join(os.fspath(self.root), "")
+
     def relpath(self, path: Path) -> str:
         """``path`` relative to the root, with ``/`` (links are not followed out of the root)."""
+        text, root = os.fspath(path), self._root_prefix
+        if text.startswith(root):  # the common case, a file found under the root: no pathlib
+            return text[len(root) :].replace(os.sep, "/")
         path = path if path.is_absolute() else Path.cwd() / path
         try:
             return path.relative_to(self.root).as_posix()
@@ -760,7 +767,7 @@ def _computed(
     """The results of ``paths``, in order, with the files a worker wrote for each (None when
     computed here, and nothing written yet): here, or in ``jobs`` worker processes, fed a
     window at a time so that finished results never pile up in memory."""
-    if jobs <= 1 or len(paths) < 2 * PARALLEL_WINDOW // 8:
+    if jobs <= 1 or len(paths) < PARALLEL_MIN:
         for path in paths:
             yield notebook.process(path, write=False), None
         return
@@ -781,7 +788,8 @@ def _computed(
             yield from current
 
 
-PARALLEL_WINDOW = 256  # entries handed to the workers at a time
+PARALLEL_WINDOW = 64  # entries handed to the workers at a time (two windows in flight)
+PARALLEL_MIN = 64  # fewer entries than this are computed here: starting workers costs seconds
 
 
 def scan(
@@ -805,15 +813,15 @@ def scan(
     """
     files = notebook.entry_files() if files is None else files
     # entries that would share one sidecar (a.md and a.json): each gets an error result
-    sides: dict[str, int] = {}
-    for f in files:
-        key = os.fspath(sidecar_path(f))
-        sides[key] = sides.get(key, 0) + 1
+    sides = [os.fspath(sidecar_path(f)) for f in files]
+    count: dict[str, int] = {}
+    for side in sides:
+        count[side] = count.get(side, 0) + 1
     by_sidecar: dict[Path, list[Path]] = {}
-    for f in files:
-        if sides[os.fspath(sidecar_path(f))] > 1:
+    for f, side in zip(files, sides, strict=True):
+        if count[side] > 1:
             by_sidecar.setdefault(sidecar_path(f), []).append(f)
-    del sides
+    del count
     previous: dict[str, PreviousResult] = {}
     if reuse and write:
         previous = (
@@ -823,8 +831,8 @@ def scan(
     limit = int(notebook.config.scan.max_entry_mb * 1024 * 1024)
     # first, what each file needs: an error for a name clash, its previous summary, or work
     plan: list[Result | EntrySummary | None] = []
-    for f in files:
-        clash = by_sidecar.get(sidecar_path(f), [f])
+    for f, side in zip(files, sides, strict=True):
+        clash = by_sidecar.get(sidecar_path(f), [f]) if by_sidecar else [f]
         if len(clash) > 1:
             names = ", ".join(p.name for p in clash)
             plan.append(
@@ -838,9 +846,9 @@ def scan(
                 )
             )
             continue
-        before = previous.get(notebook.relpath(f))
+        before = previous.get(notebook.relpath(f)) if previous else None
         summary = None
-        if before is not None and sidecar_path(f).exists():
+        if before is not None and os.path.exists(side):
             try:
                 sha = hashlib.sha256(read_bounded(f, limit)).hexdigest()
                 if before.inputs_sha256 == notebook.inputs_sha(sha, f.parent, before.balance_log):
@@ -849,6 +857,7 @@ def scan(
             except InputError:
                 pass
         plan.append(summary)
+    del sides
     del previous  # what is still needed of it is in the plan
     todo = [f for f, p in zip(files, plan, strict=True) if p is None]
     work = iter(_computed(notebook, todo, jobs, write))
@@ -858,7 +867,7 @@ def scan(
             summary = planned
         else:
             result, by_worker = (planned, None) if planned is not None else next(work)
-            clash = by_sidecar.get(sidecar_path(f), [f])
+            clash = by_sidecar.get(sidecar_path(f), [f]) if by_sidecar else [f]
             if by_worker is not None:  # a worker wrote the sidecar and card; the store is ours
                 written += map(os.fspath, by_worker)
                 if write:
