@@ -116,3 +116,24 @@ def test_the_installed_command_runs(notebook):
         check=True,
     ).stdout
     assert json.loads(out)["metrics"]["pmi"] == 3.0
+
+
+def test_a_large_scan_lists_only_what_needs_action_and_a_rescan_says_unchanged(notebook):
+    for i in range(201):
+        notebook.write(f"good-{i:03d}.md", GOOD)
+    notebook.write("open-a.md", NO_PRODUCT)
+    notebook.write("open-b.md", NO_PRODUCT)
+    args = ["scan", str(notebook.root), "--jobs", "1"]
+    res = CliRunner().invoke(cli, args, env={"COLUMNS": "200"})
+    assert res.exit_code == 0, res.output
+    out = " ".join(res.output.split())  # the table title wraps
+    assert "the 2 entries with a blocking gap or an error" in out
+    assert "open-a.md" in out and "good-000.md" not in out
+    assert "203 entries, 203 result file(s) written" in out
+    again = " ".join(CliRunner().invoke(cli, args, env={"COLUMNS": "200"}).output.split())
+    assert "203 entries (203 unchanged since the last scan), 0 result file(s) written" in again
+    rows = [
+        json.loads(line) for line in CliRunner().invoke(cli, [*args, "--json"]).output.splitlines()
+    ]
+    assert len(rows) == 203 and not any(r["recomputed"] for r in rows)
+    assert rows[0]["metrics"]["e_factor"] == 2.0  # read from the sidecar, still current
