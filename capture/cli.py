@@ -291,8 +291,9 @@ def show(entry: Path, as_json: bool) -> None:
                 f"Hazard-weighted E-factor {_num(m.hazard_weighted_e)} [dim](rank weights are "
                 "masstrail's convention; a screening aid, not a risk assessment)[/dim]"
             )
-    if "lower_bound" in r.context:
-        console.print(f"[yellow]{_e(r.context['lower_bound'])}[/yellow]")
+    for key in ("mass_balance", "lower_bound"):
+        if key in r.context:
+            console.print(f"[yellow]{_e(r.context[key])}[/yellow]")
     if r.breakdown and r.breakdown.largest:
         console.print(f"Largest input: {_e(r.breakdown.largest)}")
     if "sector" in r.context:

@@ -99,7 +99,15 @@ def mass_metrics(
     }
     context: dict[str, str] = {}
     waste = None
-    if p is not None and p > 0:
+    if p is not None and p > 0 and inputs - credit < p:
+        # more product than recorded inputs: no waste figure can be right (a negative
+        # E-factor would only mislead); say what is missing instead
+        context["mass_balance"] = (
+            f"the product ({p:.4g} g) outweighs the recorded inputs ({inputs - credit:.4g} g "
+            "net of recovered material), so no E-factor or PMI is given; record the inputs' "
+            "masses"
+        )
+    elif p is not None and p > 0:
         waste = inputs - p - credit
         counted = waste if config.e_factor.include_water else waste - water
         e = counted / p

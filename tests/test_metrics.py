@@ -113,3 +113,17 @@ def test_sector_bands(e, bands):
     text = sector_context(e)
     for name in ["oil refining", "bulk chemicals", "fine chemicals", "pharmaceuticals"]:
         assert (name in text) == (name in bands), name
+
+
+def test_no_e_factor_when_the_product_outweighs_the_recorded_inputs(notebook):
+    """Mass balance (common practice): waste cannot be negative. With the only input
+    unreadable, 1 g of product gives no E-factor or PMI, and the context says why."""
+    from helpers import entry_md
+
+    notebook.write("e.md", entry_md("""
+        product: {name: p, mass: 1.00 g}
+        materials: [{name: A, amount: 3.00 gallons}]
+        """))  # fmt: skip
+    (r,) = notebook.scan().results
+    assert r.metrics.e_factor is None and r.metrics.pmi is None and r.totals.waste_g is None
+    assert "outweighs the recorded inputs (0 g" in r.context["mass_balance"]
