@@ -76,6 +76,20 @@ def cli() -> None:
     """masstrail: waste records and mass metrics (E-factor, PMI) next to each notebook entry."""
 
 
+def _entry_filters(fn):
+    """The entry filters that gaps and report share: --author, --group, --project, --since,
+    --until."""
+    for option in reversed((
+        click.option("--author", help="Only entries by this author."),
+        click.option("--group", "group_", help="Only entries of this group."),
+        click.option("--project", help="Only entries of this project."),
+        click.option("--since", help="Only entries dated on or after YYYY-MM-DD."),
+        click.option("--until", help="Only entries dated on or before YYYY-MM-DD."),
+    )):  # fmt: skip
+        fn = option(fn)
+    return fn
+
+
 TABLE_ROWS = 200  # above this many entries, the scan table lists only those needing action
 
 
@@ -352,11 +366,7 @@ def _date(value: str | None, option: str):
 
 @cli.command()
 @click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
-@click.option("--author", help="Only entries by this author.")
-@click.option("--group", "group_", help="Only entries of this group.")
-@click.option("--project", help="Only entries of this project.")
-@click.option("--since", help="Only entries dated on or after YYYY-MM-DD.")
-@click.option("--until", help="Only entries dated on or before YYYY-MM-DD.")
+@_entry_filters
 @click.option(
     "--severity",
     type=click.Choice(["blocking", "major", "minor"]),
@@ -682,11 +692,7 @@ def export(path: Path, fmt: str, output: Path | None) -> None:
     required=True,
     help="The HTML file to write.",
 )
-@click.option("--author", help="Only entries by this author.")
-@click.option("--group", "group_", help="Only entries of this group.")
-@click.option("--project", help="Only entries of this project.")
-@click.option("--since", help="Only entries dated on or after YYYY-MM-DD.")
-@click.option("--until", help="Only entries dated on or before YYYY-MM-DD.")
+@_entry_filters
 @click.option(
     "--cards",
     type=click.IntRange(min=0),

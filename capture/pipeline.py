@@ -104,6 +104,7 @@ class Notebook:
     pm: pluggy.PluginManager
     _resolved: dict[str, MaterialInfo | None] = field(default_factory=dict)
     _log_shas: dict[Path, tuple[tuple[int, int], str]] = field(default_factory=dict)
+    _callers: dict[str, object] = field(default_factory=dict)
 
     @classmethod
     def open(cls, root: Path, pm: pluggy.PluginManager | None = None) -> Notebook:
@@ -204,16 +205,24 @@ class Notebook:
         those that must run in one process only (the store), marked by a module-level
         ``MASSTRAIL_SINGLE_WRITER = True``.
         """
-        if writers == "all":
-            caller = self.pm.hook.masstrail_write_result
-        else:
-            single = [p for p in self.pm.get_plugins() if getattr(p, "MASSTRAIL_SINGLE_WRITER", 0)]
-            others = [p for p in self.pm.get_plugins() if p not in single]
-            remove = single if writers == "shared" else others
-            caller = self.pm.subset_hook_caller("masstrail_write_result", remove_plugins=remove)
+        caller = self._writers(writers)
         return _flatten(
             caller(result=result, entry_path=path, root=self.root, config=self.config, batch=batch)
         )
+
+    def _writers(self, which: str):
+        """The write hook for "all" writers, the "shared" ones or the "single" ones (built
+        once per notebook: this runs for every entry of a scan)."""
+        if which == "all":
+            return self.pm.hook.masstrail_write_result
+        if which in self._callers:
+            return self._callers[which]
+        single = [p for p in self.pm.get_plugins() if getattr(p, "MASSTRAIL_SINGLE_WRITER", 0)]
+        others = [p for p in self.pm.get_plugins() if p not in single]
+        remove = single if which == "shared" else others
+        caller = self.pm.subset_hook_caller("masstrail_write_result", remove_plugins=remove)
+        self._callers[which] = caller
+        return caller
 
     # ------------------------------------------------------------------ fingerprints
     @functools.cached_property
@@ -771,14 +780,13 @@ def _computed(
         for path in paths:
             yield notebook.process(path, write=False), None
         return
-    import functools as ft
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor
 
     context = multiprocessing.get_context("spawn")  # the same on Linux, macOS and Windows
     with ProcessPoolExecutor(jobs, mp_context=context, initializer=_start_worker,
                              initargs=(str(notebook.root),)) as pool:  # fmt: skip
-        task = ft.partial(_compute_in_worker, write=write)
+        task = functools.partial(_compute_in_worker, write=write)
         ahead = None
         for start in range(0, len(paths), PARALLEL_WINDOW):
             window = paths[start : start + PARALLEL_WINDOW]
