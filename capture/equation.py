@@ -25,10 +25,12 @@ Definitions (each with its source):
 
 from __future__ import annotations
 
+import functools
 import re
 from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass
+from types import MappingProxyType
 
 from capture.chem import material_key, molar_mass
 
@@ -64,11 +66,13 @@ class Term:
     molar_mass: float
 
 
-def _composition(formula: str) -> Counter:
+@functools.lru_cache(maxsize=4096)
+def _composition(formula: str) -> MappingProxyType:
+    """Atoms per element of a formula (read-only: the answer is cached and shared)."""
     import molmass
 
     comp = molmass.Formula(formula).composition()
-    return Counter({sym: item.count for sym, item in comp.items()})
+    return MappingProxyType({sym: item.count for sym, item in comp.items()})
 
 
 def _term(text: str, resolve: Callable[[str], object]) -> Term:

@@ -12,10 +12,12 @@ from capture.reports import _defuse
 TABLES = ("entries", "materials", "gaps", "metrics")
 
 
-def _table(conn: sqlite3.Connection, table: str) -> tuple[list[str], list[tuple]]:
-    cur = conn.execute(f"SELECT * FROM {table} ORDER BY rowid")
-    cols = [d[0] for d in cur.description]
-    return cols, cur.fetchall()
+def _rows(conn: sqlite3.Connection, table: str):
+    """The table's column names and its rows as dicts, in the order they were written."""
+    import sqlite_utils
+
+    t = sqlite_utils.Database(conn)[table]
+    return list(t.columns_dict), t.rows_where(order_by="rowid")
 
 
 def export_csv(conn: sqlite3.Connection, folder: Path) -> list[Path]:
@@ -23,13 +25,13 @@ def export_csv(conn: sqlite3.Connection, folder: Path) -> list[Path]:
     folder.mkdir(parents=True, exist_ok=True)
     written = []
     for table in TABLES:
-        cols, rows = _table(conn, table)
+        cols, rows = _rows(conn, table)
         path = folder / f"{table}.csv"
         with path.open("w", newline="", encoding="utf-8") as fh:
             w = csv.writer(fh)
             w.writerow(cols)
             for row in rows:
-                w.writerow([_defuse(v) for v in row])
+                w.writerow([_defuse(row[c]) for c in cols])
         written.append(path)
     return written
 
@@ -38,6 +40,5 @@ def export_json(conn: sqlite3.Connection) -> str:
     """All tables as one JSON object of lists of rows."""
     out = {}
     for table in TABLES:
-        cols, rows = _table(conn, table)
-        out[table] = [dict(zip(cols, row, strict=True)) for row in rows]
+        out[table] = list(_rows(conn, table)[1])
     return json.dumps(out, indent=2, ensure_ascii=False) + "\n"

@@ -304,11 +304,10 @@ def masstrail_write_result(
     :param root: the notebook root.
     :param config: the lab configuration.
     :param batch: True when a scan hands over many results in a row; a writer may
-        hold them and write them together, at the latest in ``masstrail_scan_done``.
+        hold them and write them together, at the latest in ``masstrail_flush_results``.
         False for the watcher's single results, which must be written at once. In a
-        parallel scan, writers run in the worker processes, except those whose module
-        says ``MASSTRAIL_SINGLE_WRITER = True`` (the store), which run in the scanning
-        process only.
+        parallel scan, every writer runs in the worker processes, each in several at
+        once (a store must take concurrent writers, as SQLite in WAL mode does).
     :returns: the paths written (unchanged files are not rewritten and not
         listed); all answers are combined.
     """
@@ -329,13 +328,26 @@ def masstrail_previous_results(root: Path, config: LabConfig) -> dict | None:
 
 
 @hookspec
+def masstrail_flush_results(root: Path, config: LabConfig) -> None:
+    """Write whatever results a writer holds (``batch``) now.
+
+    Called at the end of every scan that writes, before ``masstrail_scan_done``, and,
+    in a parallel scan, in each worker process after each share of entries it wrote.
+
+    :param root: the notebook root.
+    :param config: the lab configuration.
+    :returns: nothing; every plugin is called.
+    """
+
+
+@hookspec
 def masstrail_scan_done(
     root: Path, config: LabConfig, present: list[str], written: list[str]
 ) -> None:
     """A scan has handed over all its results.
 
-    Called once at the end of every scan that writes. Writers that hold results
-    (``batch``) write them now, and drop what they keep of entries that are no
+    Called once at the end of every scan that writes, after
+    ``masstrail_flush_results``. Writers drop what they keep of entries that are no
     longer in the notebook.
 
     :param root: the notebook root.

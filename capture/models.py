@@ -13,7 +13,7 @@ from __future__ import annotations
 import datetime as dt
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, field_validator, model_validator
 
 RESULT_FORMAT = "masstrail-result/1"
 
@@ -356,6 +356,10 @@ class EntryRef(_Model):
         "libraries it reads names and SMILES with; a scan recomputes the entry only when it "
         "changes",
     )
+    # the entry file's stat when it was read, "mtime_ns:ctime_ns:inode:size", for the store
+    # only (not in the sidecar: a copy of the notebook has other stats); None when the file
+    # changed too shortly before it was read to be trusted (see capture.pipeline.file_stat)
+    _stat: str | None = PrivateAttr(None)
 
 
 class EntryError(_Model):

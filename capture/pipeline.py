@@ -10,7 +10,9 @@ from __future__ import annotations
 
 import functools
 import hashlib
+import json
 import os
+import time
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -37,7 +39,7 @@ from capture.models import (
     StructuredMaterial,
     Totals,
 )
-from capture.paths import is_ignored, is_own_output, is_temp_file, sidecar_path
+from capture.paths import is_ignored, is_own_output, is_temp_file, sidecar_name, sidecar_path
 from capture.quantities import AmountError, parse_amounts
 from capture.readings import as_amount as balance_amount
 from capture.readings import assign as assign_readings
@@ -104,7 +106,6 @@ class Notebook:
     pm: pluggy.PluginManager
     _resolved: dict[str, MaterialInfo | None] = field(default_factory=dict)
     _log_shas: dict[Path, tuple[tuple[int, int], str]] = field(default_factory=dict)
-    _callers: dict[str, object] = field(default_factory=dict)
 
     @classmethod
     def open(cls, root: Path, pm: pluggy.PluginManager | None = None) -> Notebook:
@@ -122,22 +123,24 @@ class Notebook:
             s.lower() for s in _flatten(self.pm.hook.masstrail_entry_suffixes(config=self.config))
         }
         found = []
-        for dirpath, dirnames, filenames in os.walk(self.root):
+        ignore = self.config.scan.ignore
+        top = os.fspath(self.root)
+        for dirpath, dirnames, filenames in os.walk(top):
             dirnames[:] = sorted(
                 d for d in dirnames if not d.startswith(".") and d not in {"__pycache__"}
             )
-            rel_dir = Path(dirpath).relative_to(self.root)
+            rel_dir = dirpath[len(top) + 1 :].replace(os.sep, "/")  # strings: 100,000 files
+            folder = Path(dirpath)
             for name in sorted(filenames):
-                if name.startswith(".") or is_own_output(name) or is_temp_file(name):
+                if os.path.splitext(name)[1].lower() not in suffixes or name.startswith("."):
                     continue
-                if rel_dir == Path(".") and name == CONFIG_NAME:
+                if is_own_output(name) or is_temp_file(name):
                     continue
-                if Path(name).suffix.lower() not in suffixes:
+                if not rel_dir and name == CONFIG_NAME:
                     continue
-                rel = (rel_dir / name).as_posix()
-                if is_ignored(rel, self.config.scan.ignore):
+                if ignore and is_ignored(f"{rel_dir}/{name}" if rel_dir else name, ignore):
                     continue
-                found.append(Path(dirpath) / name)
+                found.append(folder / name)
         return found
 
     @functools.cached_property
@@ -165,13 +168,17 @@ class Notebook:
             )
         return self._resolved[key]
 
-    def process(self, path: Path, write: bool = True) -> Result:
-        """Compute (and by default write) one entry's result; never raises for bad input."""
+    def process(self, path: Path, write: bool = True, batch: bool = False) -> Result:
+        """Compute (and by default write) one entry's result; never raises for bad input.
+
+        ``batch``: the result is one of a scan's many (writers may hold it a while).
+        """
         data = None
         try:
             rel = self.relpath(path)
         except ValueError:
             rel = path.name
+        stat = file_stat(path)
         try:
             limit = int(self.config.scan.max_entry_mb * 1024 * 1024)
             data = read_bounded(path, limit)
@@ -191,38 +198,18 @@ class Notebook:
             result.entry.inputs_sha256 = self.inputs_sha(
                 result.entry.sha256, path.parent, result.entry.balance_log
             )
+            result.entry._stat = stat
         if write:
-            self.write(result, path)
+            self.write(result, path, batch=batch)
         return result
 
-    def write(
-        self, result: Result, path: Path, batch: bool = False, writers: str = "all"
-    ) -> list[Path]:
-        """Hand a result to the writer plugins (``batch``: one of many, from a scan).
-
-        ``writers``: "all"; "shared", the writers that may run in any process (a worker
-        of a parallel scan writes the sidecar and card of what it computed); or "single",
-        those that must run in one process only (the store), marked by a module-level
-        ``MASSTRAIL_SINGLE_WRITER = True``.
-        """
-        caller = self._writers(writers)
+    def write(self, result: Result, path: Path, batch: bool = False) -> list[Path]:
+        """Hand a result to the writer plugins (``batch``: one of many, from a scan)."""
         return _flatten(
-            caller(result=result, entry_path=path, root=self.root, config=self.config, batch=batch)
+            self.pm.hook.masstrail_write_result(
+                result=result, entry_path=path, root=self.root, config=self.config, batch=batch
+            )
         )
-
-    def _writers(self, which: str):
-        """The write hook for "all" writers, the "shared" ones or the "single" ones (built
-        once per notebook: this runs for every entry of a scan)."""
-        if which == "all":
-            return self.pm.hook.masstrail_write_result
-        if which in self._callers:
-            return self._callers[which]
-        single = [p for p in self.pm.get_plugins() if getattr(p, "MASSTRAIL_SINGLE_WRITER", 0)]
-        others = [p for p in self.pm.get_plugins() if p not in single]
-        remove = single if which == "shared" else others
-        caller = self.pm.subset_hook_caller("masstrail_write_result", remove_plugins=remove)
-        self._callers[which] = caller
-        return caller
 
     # ------------------------------------------------------------------ fingerprints
     @functools.cached_property
@@ -256,14 +243,23 @@ class Notebook:
 
     def inputs_sha(self, entry_sha: str, entry_dir: Path, logs: list[str]) -> str:
         """The fingerprint of one entry's result (see ``EntryRef.inputs_sha256``)."""
-        h = hashlib.sha256(f"{self.base_fingerprint}\n{entry_sha}".encode())
+        return self.fingerprint(entry_sha, self.log_digests(entry_dir, logs))
+
+    def log_digests(self, entry_dir: Path, logs: list[str]) -> str:
+        """What the fingerprint takes of an entry's balance logs: each name and hash."""
+        parts = []
         for ref in logs:
             try:
                 digest = self.log_sha(safe_log_path(self.root, entry_dir, ref))
             except (InputError, OSError):
                 digest = "-"
-            h.update(f"\n{ref}\0{digest}".encode())
-        return h.hexdigest()
+            parts.append(f"\n{ref}\0{digest}")
+        return "".join(parts)
+
+    def fingerprint(self, entry_sha: str, log_digests: str) -> str:
+        return hashlib.sha256(
+            f"{self.base_fingerprint}\n{entry_sha}{log_digests}".encode()
+        ).hexdigest()
 
     def _line(self, item: StructuredMaterial, origin: str, role: str | None = None) -> MaterialLine:
         line = MaterialLine(
@@ -639,6 +635,30 @@ def _sha(data: bytes | None) -> str | None:
     return None if data is None else hashlib.sha256(data).hexdigest()
 
 
+RACY_NS = 2_000_000_000  # coarser than any file system's time stamps (FAT's are 2 s)
+
+
+def file_stat(path: Path) -> str | None:
+    """What a later scan compares to tell, without reading it, that a file is unchanged:
+    "mtime_ns:ctime_ns:inode:size" (as git's index does), taken before the file is read.
+
+    None when the file changed less than RACY_NS before now: a second change within the
+    same time stamp tick, after the read, would then go unseen, so such a file is hashed
+    again next time.
+    """
+    try:
+        st = os.lstat(path)
+    except OSError:
+        return None
+    if time.time_ns() - max(st.st_mtime_ns, st.st_ctime_ns) < RACY_NS:
+        return None
+    return _stat_key(st)
+
+
+def _stat_key(st: os.stat_result) -> str:
+    return f"{st.st_mtime_ns}:{st.st_ctime_ns}:{st.st_ino}:{st.st_size}"
+
+
 def _evidence(item: StructuredMaterial, origin: str) -> str:
     if origin == "table":
         line = (item.model_extra or {}).get("line")
@@ -727,8 +747,10 @@ class PreviousResult:
     still current, and its summary."""
 
     inputs_sha256: str
-    balance_log: list[str]
+    balance_log: str  # the logs the entry names, as a JSON list ("" for none)
     summary: EntrySummary
+    sha256: str | None = None  # the entry file's hash
+    stat: str | None = None  # and its stat then (see file_stat): unchanged, it needs no hash
 
 
 @dataclass
@@ -761,43 +783,84 @@ def _start_worker(root: str) -> None:
     _worker_notebook = Notebook.open(Path(root))
 
 
-def _compute_in_worker(path: Path, write: bool) -> tuple[Result, list[Path]]:
-    """In a worker: compute one entry and, if the scan writes, write its sidecar and card
-    (every writer but the single-process ones, which the scanning process runs)."""
-    assert _worker_notebook is not None
-    result = _worker_notebook.process(path, write=False)
-    written = _worker_notebook.write(result, path, batch=True, writers="shared") if write else []
-    return result, written
+def _one(notebook: Notebook, path: Path, write: bool) -> tuple[Result, list[str]]:
+    result = notebook.process(path, write=False)
+    written = notebook.write(result, path, batch=True) if write else []
+    return result, [os.fspath(p) for p in written]
+
+
+def _share_in_worker(
+    paths: list[Path], write: bool, keep: bool
+) -> list[tuple[EntrySummary, list[str], Result | None]]:
+    """In a worker: compute and write a share of the scan's entries (sidecar, card and
+    store, as the scanning process would), and send back only their summaries (and, with
+    ``keep``, the results)."""
+    nb = _worker_notebook
+    assert nb is not None
+    out = []
+    for path in paths:
+        result, written = _one(nb, path, write)
+        out.append((EntrySummary.of(result), written, result if keep else None))
+    if write:  # what a writer holds is written before the share is done
+        nb.pm.hook.masstrail_flush_results(root=nb.root, config=nb.config)
+    return out
 
 
 def _computed(
-    notebook: Notebook, paths: list[Path], jobs: int, write: bool
-) -> Iterable[tuple[Result, list[Path] | None]]:
-    """The results of ``paths``, in order, with the files a worker wrote for each (None when
-    computed here, and nothing written yet): here, or in ``jobs`` worker processes, fed a
-    window at a time so that finished results never pile up in memory."""
+    notebook: Notebook, paths: list[Path], jobs: int, write: bool, keep: bool
+) -> Iterable[tuple[EntrySummary, list[str], Result | None]]:
+    """(summary, files written, result if ``keep``) for each of ``paths``, in order:
+    computed and written here, or in ``jobs`` worker processes, handed a share at a time,
+    two shares per worker in flight, so that finished work never piles up in memory."""
     if jobs <= 1 or len(paths) < PARALLEL_MIN:
         for path in paths:
-            yield notebook.process(path, write=False), None
+            result, written = _one(notebook, path, write)
+            yield EntrySummary.of(result), written, result if keep else None
         return
     import multiprocessing
+    from collections import deque
     from concurrent.futures import ProcessPoolExecutor
 
     context = multiprocessing.get_context("spawn")  # the same on Linux, macOS and Windows
     with ProcessPoolExecutor(jobs, mp_context=context, initializer=_start_worker,
                              initargs=(str(notebook.root),)) as pool:  # fmt: skip
-        task = functools.partial(_compute_in_worker, write=write)
-        ahead = None
-        for start in range(0, len(paths), PARALLEL_WINDOW):
-            window = paths[start : start + PARALLEL_WINDOW]
-            current = ahead or pool.map(task, window, chunksize=8)
-            following = paths[start + PARALLEL_WINDOW : start + 2 * PARALLEL_WINDOW]
-            ahead = pool.map(task, following, chunksize=8) if following else None
-            yield from current
+        shares = (paths[i : i + PARALLEL_SHARE] for i in range(0, len(paths), PARALLEL_SHARE))
+        pending: deque = deque()
+        for share in shares:
+            pending.append(pool.submit(_share_in_worker, share, write, keep))
+            if len(pending) >= 2 * jobs:
+                yield from pending.popleft().result()
+        while pending:
+            yield from pending.popleft().result()
 
 
-PARALLEL_WINDOW = 64  # entries handed to the workers at a time (two windows in flight)
+PARALLEL_SHARE = 32  # entries a worker computes, writes and stores (one transaction) at a time
 PARALLEL_MIN = 64  # fewer entries than this are computed here: starting workers costs seconds
+
+
+def _unchanged(
+    notebook: Notebook, path: Path, side: str, before: PreviousResult, limit: int, logs: dict
+) -> bool:
+    """True when the entry's last result is still current: its sidecar is there and its
+    fingerprint is the same, the entry's hash taken from its unchanged stat or read anew.
+    ``logs`` keeps the digests of balance logs, by folder and names, for one scan."""
+    try:
+        st = os.lstat(path)
+        if not os.path.exists(side):
+            return False
+        if before.stat is not None and before.stat == _stat_key(st) and before.sha256:
+            sha = before.sha256
+        else:
+            sha = hashlib.sha256(read_bounded(path, limit)).hexdigest()
+    except (OSError, InputError):
+        return False
+    names = before.balance_log
+    if not names:
+        return before.inputs_sha256 == notebook.inputs_sha(sha, path.parent, [])
+    key = (os.path.dirname(path), names)
+    if key not in logs:
+        logs[key] = notebook.log_digests(path.parent, json.loads(names))
+    return before.inputs_sha256 == notebook.fingerprint(sha, logs[key])
 
 
 def scan(
@@ -813,22 +876,23 @@ def scan(
 
     ``files`` is the list from :meth:`Notebook.entry_files`, if the caller already has it.
     With ``reuse`` (and ``write``), an entry whose fingerprint (``inputs_sha256``) matches
-    what the store holds and whose sidecar exists is not recomputed. With ``keep``, every
-    recomputed entry's full :class:`Result` is kept in ``results`` (memory grows with the
-    notebook; the command-line scan keeps only the summaries). With ``jobs`` > 1, entries
-    are computed in that many worker processes; this process still writes every result,
-    in the same order, so the output is the same as with one.
+    what the store holds and whose sidecar exists is not recomputed; an entry file whose
+    stat (see :func:`file_stat`) is the one the store holds is not even read. With
+    ``keep``, every recomputed entry's full :class:`Result` is kept in ``results`` (memory
+    grows with the notebook; the command-line scan keeps only the summaries). With
+    ``jobs`` > 1, entries are computed and written in that many worker processes, a share
+    at a time; the sidecars, cards and store rows are the same as with one.
     """
     files = notebook.entry_files() if files is None else files
     # entries that would share one sidecar (a.md and a.json): each gets an error result
-    sides = [os.fspath(sidecar_path(f)) for f in files]
+    sides = [sidecar_name(os.fspath(f)) for f in files]
     count: dict[str, int] = {}
     for side in sides:
         count[side] = count.get(side, 0) + 1
-    by_sidecar: dict[Path, list[Path]] = {}
+    by_sidecar: dict[str, list[Path]] = {}
     for f, side in zip(files, sides, strict=True):
         if count[side] > 1:
-            by_sidecar.setdefault(sidecar_path(f), []).append(f)
+            by_sidecar.setdefault(side, []).append(f)
     del count
     previous: dict[str, PreviousResult] = {}
     if reuse and write:
@@ -839,8 +903,9 @@ def scan(
     limit = int(notebook.config.scan.max_entry_mb * 1024 * 1024)
     # first, what each file needs: an error for a name clash, its previous summary, or work
     plan: list[Result | EntrySummary | None] = []
+    logs_known: dict = {}  # log digests by (folder, logs), for this scan
     for f, side in zip(files, sides, strict=True):
-        clash = by_sidecar.get(sidecar_path(f), [f]) if by_sidecar else [f]
+        clash = by_sidecar.get(side, [f]) if by_sidecar else [f]
         if len(clash) > 1:
             names = ", ".join(p.name for p in clash)
             plan.append(
@@ -854,43 +919,37 @@ def scan(
                 )
             )
             continue
-        before = previous.get(notebook.relpath(f)) if previous else None
+        before = previous.pop(notebook.relpath(f), None) if previous else None
         summary = None
-        if before is not None and os.path.exists(side):
-            try:
-                sha = hashlib.sha256(read_bounded(f, limit)).hexdigest()
-                if before.inputs_sha256 == notebook.inputs_sha(sha, f.parent, before.balance_log):
-                    summary = before.summary
-                    summary.recomputed = False
-            except InputError:
-                pass
+        if before is not None and _unchanged(notebook, f, side, before, limit, logs_known):
+            summary = before.summary
+            summary.recomputed = False
         plan.append(summary)
-    del sides
-    del previous  # what is still needed of it is in the plan
+    previous = {}  # what is still needed of it is in the plan
     todo = [f for f, p in zip(files, plan, strict=True) if p is None]
-    work = iter(_computed(notebook, todo, jobs, write))
+    work = iter(_computed(notebook, todo, jobs, write, keep))
     results, written, summaries = [], [], []
-    for f, planned in zip(files, plan, strict=True):
+    for i, (f, side, planned) in enumerate(zip(files, sides, plan, strict=True)):
         if isinstance(planned, EntrySummary):
             summary = planned
+        elif planned is not None:  # a name clash: the first of its files writes the error
+            clash = by_sidecar[side]
+            if write and f == clash[0]:
+                written += map(os.fspath, notebook.write(planned, f, batch=True))
+            summary = EntrySummary.of(planned)
+            if keep:
+                results.append(planned)
         else:
-            result, by_worker = (planned, None) if planned is not None else next(work)
-            clash = by_sidecar.get(sidecar_path(f), [f]) if by_sidecar else [f]
-            if by_worker is not None:  # a worker wrote the sidecar and card; the store is ours
-                written += map(os.fspath, by_worker)
-                if write:
-                    written += map(
-                        os.fspath, notebook.write(result, f, batch=True, writers="single")
-                    )
-            elif write and (len(clash) == 1 or f == clash[0]):
-                written += map(os.fspath, notebook.write(result, f, batch=True))
-            summary = EntrySummary.of(result)
+            summary, files_written, result = next(work)
+            written += files_written
             if keep:
                 results.append(result)
+        plan[i] = sides[i] = None  # done with: keep only the summary
         summaries.append(summary)
         if progress:
             progress(f)
     if write:
+        notebook.pm.hook.masstrail_flush_results(root=notebook.root, config=notebook.config)
         notebook.pm.hook.masstrail_scan_done(
             root=notebook.root,
             config=notebook.config,

@@ -37,7 +37,7 @@ CREATE TABLE IF NOT EXISTS entries (
     path TEXT PRIMARY KEY, id TEXT NOT NULL, title TEXT, author TEXT, grp TEXT, project TEXT,
     date TEXT, sha256 TEXT, status TEXT NOT NULL, error TEXT, product TEXT, product_g REAL,
     tool_version TEXT NOT NULL, updated_at TEXT NOT NULL, error_location TEXT,
-    inputs_sha256 TEXT, balance_log TEXT
+    inputs_sha256 TEXT, balance_log TEXT, entry_stat TEXT
 );
 CREATE TABLE IF NOT EXISTS metrics (
     entry_path TEXT PRIMARY KEY REFERENCES entries(path) ON DELETE CASCADE,
@@ -151,7 +151,12 @@ def connect(db_path: Path) -> sqlite3.Connection:
 
 # columns added to ``entries`` after the first release: (name, type); added in place by
 # ALTER TABLE, which keeps the history table and its triggers untouched
-_ADDED_COLUMNS = (("error_location", "TEXT"), ("inputs_sha256", "TEXT"), ("balance_log", "TEXT"))
+_ADDED_COLUMNS = (
+    ("error_location", "TEXT"),
+    ("inputs_sha256", "TEXT"),
+    ("balance_log", "TEXT"),
+    ("entry_stat", "TEXT"),
+)
 
 
 def _migrate(conn: sqlite3.Connection) -> None:
@@ -168,16 +173,19 @@ def previous_results(conn: sqlite3.Connection) -> dict:
     out = {}
     rows = conn.execute(
         "SELECT e.path, e.inputs_sha256, e.balance_log, e.status, e.error, e.error_location, "
-        "e.product_g, m.e_factor, m.pmi, g.blocking, g.major, g.minor FROM entries e "
+        "e.product_g, m.e_factor, m.pmi, g.blocking, g.major, g.minor, e.sha256, e.entry_stat "
+        "FROM entries e "
         "LEFT JOIN metrics m ON m.entry_path = e.path LEFT JOIN (SELECT entry_path, "
         "SUM(severity = 'blocking') AS blocking, SUM(severity = 'major') AS major, "
         "SUM(severity = 'minor') AS minor FROM gaps GROUP BY entry_path) g "
         "ON g.entry_path = e.path WHERE e.inputs_sha256 IS NOT NULL"
     )
-    for path, inputs, logs, status, error, where, product_g, e, pmi, b, ma, mi in rows:
+    for path, inputs, logs, status, error, where, product_g, e, pmi, b, ma, mi, sha, st in rows:
         out[path] = PreviousResult(
             inputs_sha256=inputs,
-            balance_log=json.loads(logs) if logs else [],
+            balance_log="" if logs == "[]" else (logs or ""),
+            sha256=sha,
+            stat=st,
             summary=EntrySummary(
                 path=path,
                 status=status,
@@ -208,52 +216,58 @@ def remove_absent(conn: sqlite3.Connection, present: set[str]) -> int:
     return len(gone)
 
 
-def _rows(result: Result, config) -> dict[str, list[dict]]:
+# the current tables' columns after entry_path, in the order _rows gives them
+_COLUMNS = {
+    "metrics": ("e_factor", "e_factor_simple", "e_factor_estimated", "pmi", "completeness",
+                "atom_economy", "yield", "rme", "hazard_weighted_e", "inputs_g", "waste_g"),
+    "materials": ("name", "resolved", "role", "category", "stage", "stated", "mass_g", "basis",
+                  "origin", "stream"),
+    "gaps": ("kind", "item", "severity", "allowance_g", "message", "evidence"),
+    "readings": ("file", "line", "label", "mass_g", "stable", "timestamp", "assigned_to"),
+}  # fmt: skip
+
+
+def _insert_sql(table: str, cols: tuple[str, ...]) -> str:
+    names = ", ".join(f'"{c}"' for c in ("entry_path", *cols))  # "yield" is an SQL keyword
+    return f"INSERT INTO {table} ({names}) VALUES ({', '.join('?' * (len(cols) + 1))})"
+
+
+_INSERT = {table: _insert_sql(table, cols) for table, cols in _COLUMNS.items()}
+
+
+def _rows(result: Result, config) -> dict[str, list[tuple]]:
+    """The entry's rows for each current table but ``entries``, in ``_COLUMNS`` order."""
     from capture.config import LabConfig
     from masstrail_plugins.waste import stream_of  # the documented rule, shared
 
     path = result.entry.path
     cfg = config or LabConfig()
     m = result.metrics
+    t = result.totals
     return {
         "metrics": [
-            {"entry_path": path, "e_factor": m.e_factor, "e_factor_simple": m.e_factor_simple,
-             "e_factor_estimated": m.e_factor_estimated, "pmi": m.pmi,
-             "completeness": m.completeness, "atom_economy": m.atom_economy, "yield": m.yield_,
-             "rme": m.rme, "hazard_weighted_e": m.hazard_weighted_e,
-             "inputs_g": result.totals.inputs_g if result.totals else None,
-             "waste_g": result.totals.waste_g if result.totals else None}
+            (path, m.e_factor, m.e_factor_simple, m.e_factor_estimated, m.pmi, m.completeness,
+             m.atom_economy, m.yield_, m.rme, m.hazard_weighted_e, t.inputs_g if t else None,
+             t.waste_g if t else None)
         ],
         "materials": [
-            {"entry_path": path, "name": x.name, "resolved": x.resolved, "role": x.role,
-             "category": x.category, "stage": x.stage, "stated": x.stated, "mass_g": x.mass_g,
-             "basis": x.basis, "origin": x.origin, "stream": stream_of(x, cfg)}
+            (path, x.name, x.resolved, x.role, x.category, x.stage, x.stated, x.mass_g, x.basis,
+             x.origin, stream_of(x, cfg))
             for x in result.materials
         ],
         "gaps": [
-            {"entry_path": path, "kind": g.kind, "item": g.item, "severity": g.severity,
-             "allowance_g": g.allowance_g, "message": g.message, "evidence": g.evidence}
+            (path, g.kind, g.item, g.severity, g.allowance_g, g.message, g.evidence)
             for g in result.gaps
         ],
         "readings": [
-            {"entry_path": path, "file": r.file, "line": r.line, "label": r.label,
-             "mass_g": r.mass_g, "stable": r.stable, "timestamp": r.timestamp,
-             "assigned_to": r.assigned_to}
+            (path, r.file, r.line, r.label, r.mass_g, r.stable, r.timestamp, r.assigned_to)
             for r in result.readings
         ],
     }  # fmt: skip
 
 
-def _insert(conn: sqlite3.Connection, table: str, rows: list[dict]) -> None:
-    import sqlite_utils
-
-    # sqlite-utils joins the BEGIN IMMEDIATE transaction we opened and never commits it
-    if rows:
-        sqlite_utils.Database(conn)[table].insert_all(rows)
-
-
 def _write(
-    conn: sqlite3.Connection, result: Result, now: str, config, children: dict[str, list[dict]]
+    conn: sqlite3.Connection, result: Result, now: str, config, children: dict[str, list[tuple]]
 ) -> bool:
     """Replace the entry's row and append its history row; True if history grew. Its rows
     for the other current tables are added to ``children``, inserted after all entries."""
@@ -263,13 +277,13 @@ def _write(
     conn.execute(
         "INSERT INTO entries (path, id, title, author, grp, project, date, sha256, status, "
         "error, product, product_g, tool_version, updated_at, error_location, inputs_sha256, "
-        "balance_log) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+        "balance_log, entry_stat) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
         (path, result.entry.id, meta.get("title"), meta.get("author"), meta.get("group"),
          meta.get("project"), meta.get("date"), result.entry.sha256, result.status,
          result.error.message if result.error else None, result.product.name,
          result.product.mass_g, __version__, now,
          result.error.location if result.error else None, result.entry.inputs_sha256,
-         json.dumps(result.entry.balance_log)),
+         json.dumps(result.entry.balance_log), result.entry._stat),
     )  # fmt: skip
     if result.status == "ok":
         for table, rows in _rows(result, config).items():
@@ -308,11 +322,11 @@ def write_results(
     try:
         if clear:
             conn.execute("DELETE FROM entries")  # cascades to the current tables
-        children: dict[str, list[dict]] = {}
+        children: dict[str, list[tuple]] = {}
         for r in results:
             added += _write(conn, r, now, config, children)
-        for table, rows in children.items():  # one multi-row insert per table
-            _insert(conn, table, rows)
+        for table, rows in children.items():  # one prepared statement per table
+            conn.executemany(_INSERT[table], rows)
         conn.execute("COMMIT")
     except BaseException:
         conn.execute("ROLLBACK")

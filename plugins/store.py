@@ -41,9 +41,6 @@ def connection(root: Path, config: LabConfig) -> sqlite3.Connection:
     return _conns[key]
 
 
-# One writer: in a parallel scan this plugin runs in the scanning process only.
-MASSTRAIL_SINGLE_WRITER = True
-
 # results a scan has handed over and not yet written, per connection
 _pending: dict[tuple[Path, int], list[Result]] = {}
 BATCH = 100  # results per transaction during a scan: one fsync for many, memory for few
@@ -78,13 +75,19 @@ def write_to_store(result: Result, root: Path, config: LabConfig, batch: bool) -
     return []
 
 
+@hookimpl(specname="masstrail_flush_results")
+def flush_store(root: Path, config: LabConfig) -> None:
+    """Write the results held from a scan (``batch``), in one transaction."""
+    if config.store.enabled:
+        _flush(root, config)
+
+
 @hookimpl(specname="masstrail_scan_done")
 def finish_scan(root: Path, config: LabConfig, present: list[str]) -> None:
-    """Write the scan's remaining results; drop the rows of entries no longer there."""
-    if not config.store.enabled:
-        return
-    _flush(root, config)
-    remove_absent(connection(root, config), set(present))
+    """Drop the rows of entries no longer in the notebook (their history stays)."""
+    if config.store.enabled:
+        _flush(root, config)  # in case a caller did not flush first
+        remove_absent(connection(root, config), set(present))
 
 
 @hookimpl(specname="masstrail_previous_results")

@@ -8,6 +8,8 @@ import shutil
 from dataclasses import asdict
 
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 
 from capture.config import ConfigError
 from capture.pipeline import Notebook, scan
@@ -453,3 +455,34 @@ def test_a_parallel_scan_writes_exactly_what_a_serial_scan_writes(tmp_path):
         assert (serial / rel).read_bytes() == (parallel / rel).read_bytes(), rel
     tables = [current_tables(connect(r / ".masstrail" / "records.db")) for r in (serial, parallel)]
     assert tables[0] == tables[1] and len(tables[0]["entries"]) == 90
+
+
+def test_ignore_globs_skip_files_and_folders(notebook):
+    notebook.write("masstrail.toml", '[scan]\nignore = ["templates/**", "*.draft.md", "old/*"]\n')
+    for rel in ("a.md", "b.draft.md", "templates/t.md", "templates/deep/u.md", "old/c.md",
+                "sub/d.draft.md", "sub/e.md", "templates.md"):  # fmt: skip
+        notebook.write(rel, GOOD)
+    found = [
+        Notebook.open(notebook.root).relpath(p) for p in Notebook.open(notebook.root).entry_files()
+    ]
+    assert found == ["a.md", "templates.md", "sub/e.md"]
+
+
+_NAME_CHARS = st.text(alphabet="ab.~#_-*/?[]swpg34139 ", max_size=14)
+
+
+@given(_NAME_CHARS, st.lists(st.sampled_from(["*.md", "a/**", "*~", "[ab]*", "?.md", "b/*"]),
+                             max_size=3))  # fmt: skip
+def test_temp_and_ignore_matching_agree_with_fnmatch(name, patterns):
+    """The combined regular expressions give what the standard library's fnmatchcase gives,
+    one pattern at a time (Python's fnmatch is the reference)."""
+    import fnmatch
+
+    from capture.paths import _TEMP_PATTERNS, is_ignored, is_temp_file
+
+    assert is_temp_file(name) == any(fnmatch.fnmatchcase(name, p) for p in _TEMP_PATTERNS)
+    expected = any(
+        fnmatch.fnmatchcase(name, p) or (p.endswith("/**") and (name + "/").startswith(p[:-2]))
+        for p in patterns
+    )
+    assert is_ignored(name, patterns) == expected

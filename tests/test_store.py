@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import csv
 import json
+import os
 import sqlite3
 import threading
 from dataclasses import asdict
@@ -301,12 +302,59 @@ def test_batched_scan_writes_equal_one_by_one_writes(notebook, tmp_path, monkeyp
     assert store_plugin._pending == {}  # nothing left held after masstrail_scan_done
 
 
+def test_held_results_reach_the_store_at_masstrail_flush_results(notebook):
+    notebook.write("a.md", ENTRY)
+    notebook.write("b.md", ENTRY.replace("3.00 g", "4.00 g"))
+    nb = Notebook.open(notebook.root)
+    for f in nb.entry_files():
+        nb.process(f, batch=True)  # as a scan's worker does: the store holds them
+    assert _db(notebook).execute("SELECT COUNT(*) FROM entries").fetchone() == (0,)
+    nb.pm.hook.masstrail_flush_results(root=nb.root, config=nb.config)
+    rows = _db(notebook).execute("SELECT path, product_g FROM entries ORDER BY path").fetchall()
+    assert rows == [("a.md", 1.0), ("b.md", 1.0)]
+
+
+def test_an_entry_whose_stat_is_unchanged_is_not_read_again(notebook, monkeypatch):
+    import capture.pipeline as pipeline
+
+    monkeypatch.setattr(pipeline, "RACY_NS", 0)  # these files were written just now
+    a = notebook.write("a.md", ENTRY)
+    notebook.write("b.md", ENTRY.replace("3.00 g", "4.00 g"))
+    assert _reuse(notebook).recomputed == 2
+    stats = dict(_db(notebook).execute("SELECT path, entry_stat FROM entries"))
+    st = a.stat()
+    assert stats["a.md"] == f"{st.st_mtime_ns}:{st.st_ctime_ns}:{st.st_ino}:{st.st_size}"
+    reads = []
+    real = pipeline.read_bounded
+    monkeypatch.setattr(pipeline, "read_bounded", lambda p, *k: reads.append(p) or real(p, *k))
+    assert _reuse(notebook).recomputed == 0 and reads == []
+    a.write_text(ENTRY.replace("3.00 g", "3.50 g"))  # same size, a new stat
+    again = _reuse(notebook)
+    assert [s.path for s in again.summaries if s.recomputed] == ["a.md"] and reads[0] == a
+
+
+def test_a_file_changed_just_before_it_was_read_is_hashed_next_time(notebook, monkeypatch):
+    """Racy files (as git calls them): a second same-size change within one time stamp
+    tick of the read would leave the stat as it was, so no stat is kept for them."""
+    import capture.pipeline as pipeline
+
+    a = notebook.write("a.md", ENTRY)
+    assert _reuse(notebook).recomputed == 1
+    assert _db(notebook).execute("SELECT entry_stat FROM entries").fetchone() == (None,)
+    st = a.stat()
+    a.write_text(ENTRY.replace("3.00 g", "3.50 g"))  # same size, and the old times put back
+    os.utime(a, ns=(st.st_atime_ns, st.st_mtime_ns))
+    assert [s.product_g for s in _reuse(notebook).summaries if s.recomputed] == [1.0]
+    assert pipeline.file_stat(a) is None  # still racy: ctime is now
+
+
 def test_an_old_store_gains_the_new_columns_and_keeps_its_history(tmp_path):
     db = tmp_path / "old.db"
     conn = sqlite3.connect(db)
     from capture.store import SCHEMA
 
-    old = SCHEMA.replace(", error_location TEXT,\n    inputs_sha256 TEXT, balance_log TEXT\n", "\n")
+    added = ", error_location TEXT,\n    inputs_sha256 TEXT, balance_log TEXT, entry_stat TEXT\n"
+    old = SCHEMA.replace(added, "\n")
     assert old != SCHEMA
     conn.executescript(old)
     conn.execute("INSERT INTO history (entry_path, entry_id, sha256, tool_version, computed_at, "
@@ -315,7 +363,7 @@ def test_an_old_store_gains_the_new_columns_and_keeps_its_history(tmp_path):
     conn.close()
     new = connect(db)
     cols = {r[1] for r in new.execute("PRAGMA table_info(entries)")}
-    assert {"error_location", "inputs_sha256", "balance_log"} <= cols
+    assert {"error_location", "inputs_sha256", "balance_log", "entry_stat"} <= cols
     assert new.execute("SELECT COUNT(*) FROM history").fetchone() == (1,)
     with pytest.raises(sqlite3.IntegrityError, match="append-only"):
         new.execute("DELETE FROM history")
