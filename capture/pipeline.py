@@ -813,8 +813,10 @@ def _computed(
     computed and written here, or in ``jobs`` worker processes, handed a share at a time,
     two shares per worker in flight, so that finished work never piles up in memory."""
     if jobs <= 1 or len(paths) < PARALLEL_MIN:
-        for path in paths:
+        for n, path in enumerate(paths, 1):
             result, written = _one(notebook, path, write)
+            if write and n % PARALLEL_SHARE == 0:  # as a worker does after each share
+                notebook.pm.hook.masstrail_flush_results(root=notebook.root, config=notebook.config)
             yield EntrySummary.of(result), written, result if keep else None
         return
     import multiprocessing

@@ -323,7 +323,8 @@ def write_results(
         if clear:
             conn.execute("DELETE FROM entries")  # cascades to the current tables
         children: dict[str, list[tuple]] = {}
-        for r in results:
+        latest = {r.entry.path: r for r in results}  # an entry handed over twice: its last
+        for r in latest.values():
             added += _write(conn, r, now, config, children)
         for table, rows in children.items():  # one prepared statement per table
             conn.executemany(_INSERT[table], rows)

@@ -14,7 +14,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Result
 from capture.paths import card_path, sidecar_path
-from capture.safeio import atomic_write, sync_folder
+from capture.safeio import atomic_write, holds, replace_atomically, sync_folder
 
 
 @functools.lru_cache(maxsize=1)
@@ -48,31 +48,60 @@ def remove_sidecar(entry_path: Path) -> None:
 
 # folders a scan has moved files into and not yet fsynced
 _unsynced: set[Path] = set()
+# a scan's writes in progress: each is written, fsynced and moved into place by one
+# thread of this process while the scan computes the next entries
+_in_flight: list = []
+
+
+@functools.lru_cache(maxsize=1)
+def _writer():
+    from concurrent.futures import ThreadPoolExecutor
+
+    return ThreadPoolExecutor(1, thread_name_prefix="masstrail-sidecars")
 
 
 @hookimpl(specname="masstrail_write_result")
 def write_sidecar(result: Result, entry_path: Path, config: LabConfig, batch: bool) -> list[Path]:
     """Write ``NAME.waste.json`` (always) and ``NAME.waste.md`` (with ``[output] card = true``).
 
-    During a scan (``batch``), each folder is fsynced once, when the scan is done, not
-    after every file; each file itself is fsynced before it replaces the old one.
+    The watcher's results are written at once, their folder fsynced. A scan's (``batch``)
+    are written by a thread of this process, in order, while the scan goes on; they are
+    all in place when ``masstrail_flush_results`` returns (before the store records them),
+    and each folder is fsynced once, when the scan is done. Each file is fsynced before it
+    replaces the old one.
     """
     written = []
-    target = sidecar_path(entry_path)
-    outputs = [(target, result.sidecar_json)]
+    outputs = [(sidecar_path(entry_path), result.sidecar_json)]
     if config.output.card:
         outputs.append((card_path(entry_path), lambda: render_card(result)))
     for out, render in outputs:
-        if atomic_write(out, render(), sync_dir=not batch):
+        if not batch:
+            if atomic_write(out, render()):
+                written.append(out)
+            continue
+        data = render().encode("utf-8")
+        if not holds(out, data):
+            _in_flight.append(_writer().submit(replace_atomically, out, data))
             written.append(out)
-            if batch:
-                _unsynced.add(out.parent)
+            _unsynced.add(out.parent)
     return written
+
+
+# first: the sidecars are in place before the store (trylast) says they are current
+@hookimpl(tryfirst=True, specname="masstrail_flush_results")
+def finish_writes() -> None:
+    """Wait for the scan's writes in progress; the first that failed raises its error."""
+    done, _in_flight[:] = list(_in_flight), []
+    errors = [f.exception() for f in done]
+    for error in errors:
+        if error is not None:
+            raise error
 
 
 @hookimpl(specname="masstrail_scan_done")
 def sync_folders(written: list[str]) -> None:
     """fsync every folder the scan wrote into (here or in its workers), once."""
+    finish_writes()
     _unsynced.update(Path(p).parent for p in written)
     while _unsynced:
         sync_folder(_unsynced.pop())

@@ -75,7 +75,7 @@ def write_to_store(result: Result, root: Path, config: LabConfig, batch: bool) -
     return []
 
 
-@hookimpl(specname="masstrail_flush_results")
+@hookimpl(trylast=True, specname="masstrail_flush_results")
 def flush_store(root: Path, config: LabConfig) -> None:
     """Write the results held from a scan (``batch``), in one transaction."""
     if config.store.enabled:

@@ -113,3 +113,49 @@ def test_atomic_write_failure_leaves_old_file_and_no_temp(tmp_path, monkeypatch)
         atomic_write(target, "new\n")
     assert target.read_text() == "old\n"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["a.waste.json"]
+
+
+def _front_matters():
+    from conftest import EXAMPLES
+
+    out = []
+    for p in sorted(EXAMPLES.rglob("*")):
+        if p.suffix == ".md" and ".waste." not in p.name:
+            text = p.read_text(encoding="utf-8")
+            if text.startswith("---"):
+                out.append(text.split("---", 2)[1])
+        elif p.suffix == ".yaml":
+            out.append(p.read_text(encoding="utf-8"))
+    return out
+
+
+UNUSUAL_YAML = [
+    "a: !!int 3\nb: [x, y]\n",  # an explicit tag: the constructor's own answer
+    "a:\n  - {b: c, d: [e, f]}\n  -\n  - ''\n",
+    "? [a, b]\n: c\n",  # a key that is not text
+    "title: a\nauthor: b\ntitle: c\n",
+    "a: {x: 1, x: 2}\n",
+    "",
+    "- a\n- b: !!str 5\n",
+    "a: |\n  two\n  lines\nb: >\n  folded\n  text\n",
+]
+
+
+@pytest.mark.parametrize("text", _front_matters() + UNUSUAL_YAML)
+def test_the_fast_yaml_path_gives_what_the_pure_python_loader_gives(text):
+    """LibYAML's parser with our node walker, against PyYAML's pure-Python loader with the
+    same rules (the reference): the same value, or the same error and line."""
+    import yaml
+
+    if safeio._FastLoader is None:
+        pytest.skip("PyYAML without LibYAML")
+
+    def outcome(load):
+        try:
+            return "value", load(text)
+        except InputError as exc:
+            return "error", exc.message, exc.location
+
+    assert outcome(safeio._load_fast) == outcome(
+        lambda t: yaml.load(t, Loader=safeio._StringLoader)
+    )

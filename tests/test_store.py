@@ -387,3 +387,29 @@ def test_a_scan_fsyncs_each_folder_once_and_the_watcher_path_every_time(notebook
     entry = notebook.write("a/1.md", ENTRY.replace("3.00 g", "3.10 g"))
     nb.process(entry)  # one result at a time (the watcher): its folder is fsynced at once
     assert [p.name for p in synced] == ["a"]
+
+
+def test_a_sidecar_that_could_not_be_written_stops_the_scan_before_the_store_records_it(
+    notebook, monkeypatch
+):
+    """A scan's sidecars are written by a thread while it goes on; a failed write must
+    surface, and the store must not say that an entry whose sidecar is missing is current."""
+    import masstrail_plugins.sidecar as sidecar
+
+    real = sidecar.replace_atomically
+
+    def full_disk(path, data):
+        if path.name == "b.waste.json":
+            raise OSError(28, "No space left on device")
+        real(path, data)
+
+    monkeypatch.setattr(sidecar, "replace_atomically", full_disk)
+    for name in ("a.md", "b.md", "c.md"):
+        notebook.write(name, ENTRY)
+    with pytest.raises(OSError, match="No space left"):
+        _reuse(notebook)
+    assert not (notebook.root / "b.waste.json").exists()
+    assert _db(notebook).execute("SELECT COUNT(*) FROM entries").fetchone() == (0,)
+    monkeypatch.setattr(sidecar, "replace_atomically", real)
+    assert _reuse(notebook).recomputed == 3  # nothing was taken as current
+    assert (notebook.root / "b.waste.json").exists()

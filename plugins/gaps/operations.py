@@ -426,6 +426,8 @@ _UNQUANTIFIED = re.compile(
     rf"|(?P<name2>[A-Za-z0-9(\[][\w\-()\[\]·,']*)\s*\((?P<q2>{_QUANT_WORDS}|cat\.|catalytic)\)",
     re.I,
 )
+# every match of _UNQUANTIFIED holds one of these: most sentences are passed over at once
+_ANY_QUANT_WORD = re.compile(rf"{_QUANT_WORDS}|cat\.|catalytic", re.I)
 
 
 def _quantity_allowance(q: str, name: str, ctx: Context) -> tuple[float, str]:
@@ -449,6 +451,8 @@ def _quantity_allowance(q: str, name: str, ctx: Context) -> tuple[float, str]:
 def unquantified(ctx: Context, text: str) -> list[RecordCheck]:
     """An addition with no measured amount ('a few drops of DMF')."""
     checks = []
+    if not _ANY_QUANT_WORD.search(text):
+        return checks
     for m in _UNQUANTIFIED.finditer(text):
         q = m.group("q") or m.group("q2")
         raw = m.group("name") or m.group("name2")
