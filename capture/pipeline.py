@@ -16,6 +16,7 @@ import time
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import NamedTuple
 
 import pluggy
 
@@ -39,7 +40,14 @@ from capture.models import (
     StructuredMaterial,
     Totals,
 )
-from capture.paths import is_ignored, is_own_output, is_temp_file, sidecar_name, sidecar_path
+from capture.paths import (
+    CARD_SUFFIX,
+    SIDECAR_SUFFIX,
+    is_ignored,
+    is_temp_file,
+    sidecar_name,
+    sidecar_path,
+)
 from capture.quantities import AmountError, parse_amounts
 from capture.readings import as_amount as balance_amount
 from capture.readings import assign as assign_readings
@@ -120,8 +128,11 @@ class Notebook:
     def entry_files(self) -> list[Path]:
         """Every entry file under the root, sorted; outputs, temp and hidden files skipped."""
         suffixes = {
-            s.lower() for s in _flatten(self.pm.hook.masstrail_entry_suffixes(config=self.config))
+            "." + s.lower().lstrip(".")
+            for s in _flatten(self.pm.hook.masstrail_entry_suffixes(config=self.config))
         }
+        ends = tuple(suffixes)
+        outputs = (SIDECAR_SUFFIX, CARD_SUFFIX)
         found = []
         ignore = self.config.scan.ignore
         top = os.fspath(self.root)
@@ -130,17 +141,19 @@ class Notebook:
                 d for d in dirnames if not d.startswith(".") and d not in {"__pycache__"}
             )
             rel_dir = dirpath[len(top) + 1 :].replace(os.sep, "/")  # strings: 100,000 files
-            folder = Path(dirpath)
-            for name in sorted(filenames):
-                if os.path.splitext(name)[1].lower() not in suffixes or name.startswith("."):
-                    continue
-                if is_own_output(name) or is_temp_file(name):
+            names = []
+            for name in filenames:
+                if name.endswith(outputs) or name.startswith("."):
+                    continue  # most of a scanned folder: the sidecars and cards
+                if not name.lower().endswith(ends) or is_temp_file(name):
                     continue
                 if not rel_dir and name == CONFIG_NAME:
                     continue
                 if ignore and is_ignored(f"{rel_dir}/{name}" if rel_dir else name, ignore):
                     continue
-                found.append(folder / name)
+                names.append(name)
+            folder = Path(dirpath)
+            found += [folder / name for name in sorted(names)]
         return found
 
     @functools.cached_property
@@ -741,16 +754,31 @@ class EntrySummary:
         )
 
 
-@dataclass(slots=True)
-class PreviousResult:
+class PreviousResult(NamedTuple):
     """What the store remembers of an entry's last result: enough to tell whether it is
-    still current, and its summary."""
+    still current, and its summary (a row of the store, as it comes: 100,000 of them are
+    read at the start of a rescan)."""
 
+    path: str
     inputs_sha256: str
     balance_log: str  # the logs the entry names, as a JSON list ("" for none)
-    summary: EntrySummary
-    sha256: str | None = None  # the entry file's hash
-    stat: str | None = None  # and its stat then (see file_stat): unchanged, it needs no hash
+    sha256: str | None  # the entry file's hash
+    stat: str | None  # and its stat then (see file_stat): unchanged, it needs no hash
+    status: str
+    error: str | None
+    location: str | None
+    product_g: float | None
+    e_factor: float | None
+    pmi: float | None
+    blocking: int
+    major: int
+    minor: int
+
+    def summary(self) -> EntrySummary:
+        return EntrySummary(
+            self.path, self.status, self.product_g, self.e_factor, self.pmi, self.blocking,
+            self.major, self.minor, self.error, self.location, recomputed=False,
+        )  # fmt: skip
 
 
 @dataclass
@@ -924,8 +952,7 @@ def scan(
         before = previous.pop(notebook.relpath(f), None) if previous else None
         summary = None
         if before is not None and _unchanged(notebook, f, side, before, limit, logs_known):
-            summary = before.summary
-            summary.recomputed = False
+            summary = before.summary()
         plan.append(summary)
     previous = {}  # what is still needed of it is in the plan
     todo = [f for f, p in zip(files, plan, strict=True) if p is None]

@@ -37,7 +37,8 @@ CREATE TABLE IF NOT EXISTS entries (
     path TEXT PRIMARY KEY, id TEXT NOT NULL, title TEXT, author TEXT, grp TEXT, project TEXT,
     date TEXT, sha256 TEXT, status TEXT NOT NULL, error TEXT, product TEXT, product_g REAL,
     tool_version TEXT NOT NULL, updated_at TEXT NOT NULL, error_location TEXT,
-    inputs_sha256 TEXT, balance_log TEXT, entry_stat TEXT
+    inputs_sha256 TEXT, balance_log TEXT, entry_stat TEXT,
+    gaps_blocking INTEGER, gaps_major INTEGER, gaps_minor INTEGER
 );
 CREATE TABLE IF NOT EXISTS metrics (
     entry_path TEXT PRIMARY KEY REFERENCES entries(path) ON DELETE CASCADE,
@@ -156,6 +157,9 @@ _ADDED_COLUMNS = (
     ("inputs_sha256", "TEXT"),
     ("balance_log", "TEXT"),
     ("entry_stat", "TEXT"),
+    ("gaps_blocking", "INTEGER"),
+    ("gaps_major", "INTEGER"),
+    ("gaps_minor", "INTEGER"),
 )
 
 
@@ -167,39 +171,18 @@ def _migrate(conn: sqlite3.Connection) -> None:
 
 
 def previous_results(conn: sqlite3.Connection) -> dict:
-    """``{entry path: PreviousResult}`` for every current entry with a fingerprint."""
-    from capture.pipeline import EntrySummary, PreviousResult
+    """``{entry path: PreviousResult}`` for every current entry with a fingerprint (rows
+    written before the gap counts were kept in ``entries`` are left out: recomputed)."""
+    from capture.pipeline import PreviousResult
 
-    out = {}
     rows = conn.execute(
-        "SELECT e.path, e.inputs_sha256, e.balance_log, e.status, e.error, e.error_location, "
-        "e.product_g, m.e_factor, m.pmi, g.blocking, g.major, g.minor, e.sha256, e.entry_stat "
-        "FROM entries e "
-        "LEFT JOIN metrics m ON m.entry_path = e.path LEFT JOIN (SELECT entry_path, "
-        "SUM(severity = 'blocking') AS blocking, SUM(severity = 'major') AS major, "
-        "SUM(severity = 'minor') AS minor FROM gaps GROUP BY entry_path) g "
-        "ON g.entry_path = e.path WHERE e.inputs_sha256 IS NOT NULL"
+        "SELECT e.path, e.inputs_sha256, CASE e.balance_log WHEN '[]' THEN '' ELSE "
+        "e.balance_log END, e.sha256, e.entry_stat, e.status, e.error, e.error_location, "
+        "e.product_g, m.e_factor, m.pmi, e.gaps_blocking, e.gaps_major, e.gaps_minor "
+        "FROM entries e LEFT JOIN metrics m ON m.entry_path = e.path "
+        "WHERE e.inputs_sha256 IS NOT NULL AND e.gaps_blocking IS NOT NULL"
     )
-    for path, inputs, logs, status, error, where, product_g, e, pmi, b, ma, mi, sha, st in rows:
-        out[path] = PreviousResult(
-            inputs_sha256=inputs,
-            balance_log="" if logs == "[]" else (logs or ""),
-            sha256=sha,
-            stat=st,
-            summary=EntrySummary(
-                path=path,
-                status=status,
-                product_g=product_g,
-                e_factor=e,
-                pmi=pmi,
-                blocking=b or 0,
-                major=ma or 0,
-                minor=mi or 0,
-                error=error,
-                location=where,
-            ),
-        )
-    return out
+    return {row[0]: row for row in map(PreviousResult._make, rows)}
 
 
 def remove_absent(conn: sqlite3.Connection, present: set[str]) -> int:
@@ -277,13 +260,15 @@ def _write(
     conn.execute(
         "INSERT INTO entries (path, id, title, author, grp, project, date, sha256, status, "
         "error, product, product_g, tool_version, updated_at, error_location, inputs_sha256, "
-        "balance_log, entry_stat) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+        "balance_log, entry_stat, gaps_blocking, gaps_major, gaps_minor) "
+        "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
         (path, result.entry.id, meta.get("title"), meta.get("author"), meta.get("group"),
          meta.get("project"), meta.get("date"), result.entry.sha256, result.status,
          result.error.message if result.error else None, result.product.name,
          result.product.mass_g, __version__, now,
          result.error.location if result.error else None, result.entry.inputs_sha256,
-         json.dumps(result.entry.balance_log), result.entry._stat),
+         json.dumps(result.entry.balance_log), result.entry._stat,
+         *_gap_counts(result)),
     )  # fmt: skip
     if result.status == "ok":
         for table, rows in _rows(result, config).items():
@@ -303,6 +288,12 @@ def _write(
         ),  # the sidecar's JSON, without its indent
     )
     return cur.rowcount == 1
+
+
+def _gap_counts(result: Result) -> tuple[int, int, int]:
+    """(blocking, major, minor): kept in ``entries``, so a rescan reads its summary there."""
+    severities = [g.severity for g in result.gaps]
+    return severities.count("blocking"), severities.count("major"), severities.count("minor")
 
 
 def _now() -> str:

@@ -19,6 +19,7 @@ from capture.store import (
     current_tables,
     filesystem_type,
     history_for,
+    previous_results,
     rebuild,
     store_path,
 )
@@ -353,7 +354,10 @@ def test_an_old_store_gains_the_new_columns_and_keeps_its_history(tmp_path):
     conn = sqlite3.connect(db)
     from capture.store import SCHEMA
 
-    added = ", error_location TEXT,\n    inputs_sha256 TEXT, balance_log TEXT, entry_stat TEXT\n"
+    added = (
+        ", error_location TEXT,\n    inputs_sha256 TEXT, balance_log TEXT, entry_stat TEXT,\n"
+        "    gaps_blocking INTEGER, gaps_major INTEGER, gaps_minor INTEGER\n"
+    )
     old = SCHEMA.replace(added, "\n")
     assert old != SCHEMA
     conn.executescript(old)
@@ -363,10 +367,17 @@ def test_an_old_store_gains_the_new_columns_and_keeps_its_history(tmp_path):
     conn.close()
     new = connect(db)
     cols = {r[1] for r in new.execute("PRAGMA table_info(entries)")}
-    assert {"error_location", "inputs_sha256", "balance_log", "entry_stat"} <= cols
+    assert {"error_location", "inputs_sha256", "balance_log", "entry_stat", "gaps_blocking",
+            "gaps_major", "gaps_minor"} <= cols  # fmt: skip
     assert new.execute("SELECT COUNT(*) FROM history").fetchone() == (1,)
     with pytest.raises(sqlite3.IntegrityError, match="append-only"):
         new.execute("DELETE FROM history")
+    # a row from before the gap counts were kept is not taken as a summary: recomputed
+    new.execute("INSERT INTO entries (path, id, status, tool_version, updated_at, inputs_sha256) "
+                "VALUES ('a.md', 'a', 'ok', '0', 't', 'f')")  # fmt: skip
+    assert previous_results(new) == {}
+    new.execute("UPDATE entries SET gaps_blocking = 0, gaps_major = 2, gaps_minor = 1")
+    assert previous_results(new)["a.md"].summary().major == 2
 
 
 def test_a_scan_fsyncs_each_folder_once_and_the_watcher_path_every_time(notebook, monkeypatch):
