@@ -44,3 +44,35 @@ def test_the_text_corpus_non_materials_produce_no_gap(tmp_path):
         )
     results = scan(Notebook.open(tmp_path), write=False).results
     assert [(i.text, r.gaps) for i, r in zip(items, results, strict=True) if r.gaps] == []
+
+
+def test_each_rule_acts_only_on_sentences_holding_one_of_its_words():
+    """check_operations passes over a sentence for a rule when none of the rule's words is
+    in it (a speed-up). Run every rule on every sentence of the gap corpora, the text
+    corpus and the example entries, without that test: whatever a rule finds, its words
+    must be in the sentence, or the shortcut would lose a gap."""
+    from corpus.score_text import CORPUS as TEXT_CORPUS
+    from corpus.score_text import load as load_text
+
+    from capture.config import LabConfig
+    from capture.models import ProductOut
+    from capture.pipeline import Notebook
+    from masstrail_plugins.gaps.operations import _RULES, Context
+    from masstrail_plugins.text import _sentences
+
+    from conftest import EXAMPLES
+
+    nb = Notebook.open(EXAMPLES)
+    texts = [i.text for i in ITEMS + load(HELD_OUT)] + [i.text for i in load_text(TEXT_CORPUS)]
+    texts += [e.body for e in (nb.pm.hook.masstrail_read_entry(path=f, data=f.read_bytes(),
+              relpath=nb.relpath(f), config=nb.config) for f in nb.entry_files()) if e]  # fmt: skip
+    ctx = Context([], ProductOut(name=None, mass_g=None), nb.resolve, LabConfig())
+    acted = 0
+    for body in texts:
+        for _, sentence in _sentences(body):
+            text = " ".join(sentence.split())
+            for rule, words in _RULES:
+                if rule(ctx, text, set()):
+                    acted += 1
+                    assert any(w in text.lower() for w in words), (text, words)
+    assert acted >= 100  # the rules did act, on many sentences

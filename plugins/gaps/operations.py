@@ -426,8 +426,6 @@ _UNQUANTIFIED = re.compile(
     rf"|(?P<name2>[A-Za-z0-9(\[][\w\-()\[\]·,']*)\s*\((?P<q2>{_QUANT_WORDS}|cat\.|catalytic)\)",
     re.I,
 )
-# every match of _UNQUANTIFIED holds one of these: most sentences are passed over at once
-_ANY_QUANT_WORD = re.compile(rf"{_QUANT_WORDS}|cat\.|catalytic", re.I)
 
 
 def _quantity_allowance(q: str, name: str, ctx: Context) -> tuple[float, str]:
@@ -451,8 +449,6 @@ def _quantity_allowance(q: str, name: str, ctx: Context) -> tuple[float, str]:
 def unquantified(ctx: Context, text: str) -> list[RecordCheck]:
     """An addition with no measured amount ('a few drops of DMF')."""
     checks = []
-    if not _ANY_QUANT_WORD.search(text):
-        return checks
     for m in _UNQUANTIFIED.finditer(text):
         q = m.group("q") or m.group("q2")
         raw = m.group("name") or m.group("name2")
@@ -486,14 +482,27 @@ def check_operations(
         text = " ".join(sentence.split())
         if text.startswith("|") or _CHARACTERISATION.search(text):
             continue
-        checks += filtration(ctx, text)
-        checks += drying(ctx, text)
-        checks += liquids(ctx, text)
-        checks += chromatography(ctx, text, seen)
-        checks += recrystallisation(ctx, text)
-        checks += aspirator(ctx, text, seen)
-        checks += unquantified(ctx, text)
+        low = text.lower()
+        for rule, words in _RULES:
+            # every match of a rule's patterns holds one of its words (in lower case): a
+            # sentence without any is passed over without running the patterns
+            if any(w in low for w in words):
+                checks += rule(ctx, text, seen)
     return _one_per_item(checks)
+
+
+_RULES = (
+    (lambda ctx, text, seen: filtration(ctx, text), ("filt", "funnel")),
+    (lambda ctx, text, seen: drying(ctx, text), ("dried",)),
+    (lambda ctx, text, seen: liquids(ctx, text),
+     ("wash", "rins", "extract", "quench", "dilut", "partition", "acidif", "basif", "neutrali")),
+    (chromatography, ("chromatograph", "flash column", "purified on", "elut")),
+    (lambda ctx, text, seen: recrystallisation(ctx, text), ("crystalli", "triturat")),
+    (aspirator, ("aspirator", "water-jet", "water jet", "water pump")),
+    (lambda ctx, text, seen: unquantified(ctx, text),
+     ("drop", "spatula", "pinch", "crystal", "trace", "catalytic", "small amount", "little",
+      "cat.")),
+)  # fmt: skip
 
 
 def _one_per_item(checks: list[RecordCheck]) -> list[RecordCheck]:
