@@ -253,7 +253,7 @@ def table(figs: list[dict], start: dict, jobs: int, names: bool) -> str:
 
     lines = [
         f"Measured {time.strftime('%Y-%m-%d')} on {os.cpu_count()} cores, Python "
-        f"{sys.version.split()[0]}, `--jobs {jobs}` (0: one per core), chemicals name "
+        f"{sys.version.split()[0]}, `--jobs {jobs}` (0: one per core and one more), chemicals name "
         f"database {'used' if names else 'blocked (as without the [names] extra)'}.",
         "",
         "| entries | cold scan | × floor (durable / plain) | per entry | warm rescan | × floor | "

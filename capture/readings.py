@@ -15,6 +15,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import re
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -33,6 +34,11 @@ _BEFORE = {"before", "vorher", "vor", "full", "voll", "initial", "start"}
 _VESSEL_PLUS = re.compile(r"^(?P<vessel>.+?)\s*\+\s*(?P<name>.+)$")
 
 
+@functools.lru_cache(maxsize=16)
+def _resolved(root: Path) -> Path:
+    return root.resolve()  # a notebook root does not move while masstrail runs
+
+
 def safe_log_path(root: Path, entry_dir: Path, ref: str) -> Path:
     """The log ``ref`` (relative to the entry) if inside the notebook root, else InputError."""
     if not ref or not ref.strip():
@@ -43,7 +49,7 @@ def safe_log_path(root: Path, entry_dir: Path, ref: str) -> Path:
         )
     candidate = Path(ref) if Path(ref).is_absolute() else entry_dir / ref
     resolved = candidate.resolve()
-    if not resolved.is_relative_to(root.resolve()):
+    if not resolved.is_relative_to(_resolved(root)):
         raise InputError(
             f"balance_log {ref!r} leads outside the notebook folder; logs must lie inside it"
         )

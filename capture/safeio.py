@@ -46,8 +46,11 @@ def read_bounded(path: Path, limit: int = MAX_ENTRY_BYTES) -> bytes:
             f"the file is {st.st_size / 2**20:.1f} MB; entries larger than "
             f"{limit / 2**20:.0f} MB are not read"
         )
-    with path.open("rb") as fh:
-        data = fh.read(limit + 1)
+    # unbuffered, and sized by the stat (not a limit-sized buffer per file)
+    with open(path, "rb", buffering=0) as fh:
+        data = fh.read(st.st_size + 1)
+        if len(data) > st.st_size:  # it grew while it was read
+            data += fh.read(max(0, limit + 1 - len(data)))
     if len(data) > limit:
         raise InputError(f"the file grew past {limit / 2**20:.0f} MB while it was read")
     return data
@@ -227,7 +230,8 @@ def atomic_write(path: Path, text: str, sync_dir: bool = True) -> bool:
 def holds(path: Path, data: bytes) -> bool:
     """True when the file at ``path`` holds exactly ``data`` (then it need not be written)."""
     try:
-        return path.read_bytes() == data
+        with open(path, "rb", buffering=0) as fh:
+            return fh.readall() == data
     except OSError:
         return False
 
