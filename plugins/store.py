@@ -43,7 +43,9 @@ def connection(root: Path, config: LabConfig) -> sqlite3.Connection:
 
 # results a scan has handed over and not yet written, per connection
 _pending: dict[tuple[Path, int], list[Result]] = {}
-BATCH = 100  # results per transaction during a scan: one fsync for many, memory for few
+# a scan flushes after every share of 32 entries (masstrail_flush_results: the sidecars are
+# in place first); this cap only bounds what a caller that never flushes makes us hold
+BATCH = 100
 
 
 def _key(root: Path, config: LabConfig) -> tuple[Path, int]:
