@@ -50,10 +50,12 @@ def _first(line: MaterialLine, kind: str) -> AmountMention | None:
 
 
 def _density_words(info: MaterialInfo) -> str:
+    # the density as the data gives it (1.3266, not 1.327): the reader can redo the product
+    density = f"{info.density_g_ml:g}"
     if (info.density_source or "").startswith("density of the solvent"):
-        return f"{fmt(info.density_g_ml)} g/mL ({info.density_source})"
+        return f"{density} g/mL ({info.density_source})"
     temp = f", {fmt(info.density_temp_c)} °C" if info.density_temp_c is not None else ""
-    return f"{fmt(info.density_g_ml)} g/mL ({info.name}{temp}; {info.density_source})"
+    return f"{density} g/mL ({info.name}{temp}; {info.density_source})"
 
 
 def _moles(line: MaterialLine, info: MaterialInfo | None, mass_g: float | None) -> float | None:

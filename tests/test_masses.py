@@ -62,3 +62,13 @@ def test_volume_without_density_or_material_is_a_problem_not_a_guess():
     got = _weigh("Kestrel wash blend", "25 mL")
     assert got.mass_g is None and got.problem_kind == "unknown_material"
     assert "masstrail.toml" in got.problem
+
+
+def test_the_basis_gives_the_density_used_so_the_mass_can_be_redone():
+    """40 mL of DCM at 1.3266 g/mL (dichloromethane, 20 °C: CRC Handbook / Riddick–Bunger–
+    Sakano as quoted in FIELD.md, there marked from memory). The basis must not round the
+    density to 1.327, or a chemist redoing 40 × 1.327 gets 53.08 g where the record says
+    53.064 g."""
+    got = _weigh("DCM", "40 mL")
+    assert got.mass_g == pytest.approx(40 * 1.3266)
+    assert got.basis.startswith("40 mL × 1.3266 g/mL (dichloromethane, 20 °C;")
