@@ -26,9 +26,15 @@ _TEMP_PATTERNS = (
 )
 
 
+def _stem(name: str) -> str:
+    """``name`` without its last suffix, by pathlib's rule (``.md`` and ``a.`` have none)."""
+    i = name.rfind(".")
+    return name[:i] if 0 < i < len(name) - 1 else name
+
+
 def entry_stem(path: Path) -> str:
     """The file name without its last suffix: ``a.md`` → ``a``."""
-    return path.name[: -len(path.suffix)] if path.suffix else path.name
+    return _stem(path.name)
 
 
 def sidecar_path(entry_path: Path) -> Path:
@@ -40,8 +46,7 @@ def sidecar_name(entry_path: str) -> str:
     """:func:`sidecar_path` for a path as a string, without pathlib (a scan does this for
     every entry)."""
     head, name = os.path.split(entry_path)
-    stem, dot, _suffix = name.rpartition(".")
-    return os.path.join(head, (stem if dot and stem else name) + SIDECAR_SUFFIX)
+    return os.path.join(head, _stem(name) + SIDECAR_SUFFIX)
 
 
 def card_path(entry_path: Path) -> Path:

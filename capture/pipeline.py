@@ -884,13 +884,13 @@ def _unchanged(
             sha = hashlib.sha256(read_bounded(path, limit)).hexdigest()
     except (OSError, InputError):
         return False
-    names = before.balance_log
-    if not names:
-        return before.inputs_sha256 == notebook.inputs_sha(sha, path.parent, [])
-    key = (os.path.dirname(path), names)
-    if key not in logs:
-        logs[key] = notebook.log_digests(path.parent, json.loads(names))
-    return before.inputs_sha256 == notebook.fingerprint(sha, logs[key])
+    digests = ""
+    if before.balance_log:
+        key = (os.path.dirname(path), before.balance_log)
+        if key not in logs:
+            logs[key] = notebook.log_digests(path.parent, json.loads(before.balance_log))
+        digests = logs[key]
+    return before.inputs_sha256 == notebook.fingerprint(sha, digests)
 
 
 def scan(

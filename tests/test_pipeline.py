@@ -427,8 +427,9 @@ def test_a_known_commercial_solution_uses_its_own_density(notebook):
 
 
 def test_a_parallel_scan_writes_exactly_what_a_serial_scan_writes(tmp_path):
-    """Two worker processes compute; the scanning process writes, in order. Sidecars, cards
-    and the store's current tables must be the same, byte for byte and row for row."""
+    """Two worker processes compute and write (sidecars, cards and store), a share each at a
+    time. Sidecars, cards and the store's current tables must be the same as a serial
+    scan's, byte for byte and row for row."""
     import shutil
 
     from capture.store import connect, current_tables
@@ -486,3 +487,14 @@ def test_temp_and_ignore_matching_agree_with_fnmatch(name, patterns):
         for p in patterns
     )
     assert is_ignored(name, patterns) == expected
+
+
+@pytest.mark.parametrize("name", ["a/b.md", "a/.md", "a/x.", "a/x.tar.md", "y.ipynb", "a/b"])
+def test_the_string_sidecar_name_follows_pathlib(name):
+    """The scan's string form and the writers' pathlib form name the same sidecar (the
+    stem follows pathlib's suffix rule, the reference)."""
+    from pathlib import Path
+
+    from capture.paths import sidecar_name, sidecar_path
+
+    assert sidecar_name(name) == str(sidecar_path(Path(name)))
