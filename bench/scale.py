@@ -155,7 +155,7 @@ print(json.dumps({"seconds": time.perf_counter() - t, "entries": n}))
 ONE_ENTRY = r"""
 import json, statistics, sys, time
 from pathlib import Path
-from capture.pipeline import Notebook
+from capture.notebook import Notebook
 from capture.safeio import atomic_write, decode_text
 root = Path(sys.argv[1])
 nb = Notebook.open(root)

@@ -32,7 +32,7 @@ sys.path.insert(0, str(ROOT / "tests" / "corpus"))
 
 from score_text import CORPUS, load  # noqa: E402
 
-from masstrail_plugins.text import extract  # noqa: E402
+from masstrail_plugins.extract.text import extract  # noqa: E402
 
 _NUM = re.compile(r"\d+\.\d+|\d+")
 
@@ -88,7 +88,7 @@ def make_text(megabytes: float, seed: int = 7, prose: bool = False) -> str:
 
 def example_text(megabytes: float, seed: int = 11) -> str:
     """The procedure text of the example entries, numbers jittered, repeated to ``megabytes``."""
-    from capture.pipeline import Notebook
+    from capture.notebook import Notebook
 
     nb = Notebook.open(ROOT / "example_entries")
     bodies = []

@@ -58,7 +58,7 @@ def main() -> int:
     ap.add_argument("--soak-minutes", type=float, default=0.0)
     args = ap.parse_args()
 
-    from capture.pipeline import Notebook
+    from capture.notebook import Notebook
 
     with tempfile.TemporaryDirectory() as tmp:
         root = Path(tmp) / "nb"

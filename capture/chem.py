@@ -1,4 +1,5 @@
-"""Chemistry helpers shared by the core and the plugins: name folding and molar masses."""
+"""Chemistry helpers shared by the core and the plugins: name folding, molar masses and
+formulas from SMILES."""
 
 from __future__ import annotations
 
@@ -51,3 +52,15 @@ def molar_mass(formula: str) -> float:
         return float(molmass.Formula(formula).mass)
     except Exception as exc:  # molmass raises its own FormulaError and others
         raise ValueError(f"cannot read the formula {formula!r}: {exc}") from exc
+
+
+def formula_from_smiles(smiles: str) -> str | None:
+    """The molecular formula of a SMILES string, through RDKit when it is installed."""
+    try:
+        from rdkit import Chem, RDLogger
+        from rdkit.Chem.rdMolDescriptors import CalcMolFormula
+    except ImportError:
+        return None
+    RDLogger.DisableLog("rdApp.*")
+    mol = Chem.MolFromSmiles(smiles)
+    return CalcMolFormula(mol) if mol is not None else None

@@ -50,6 +50,11 @@ class ScanSettings(_Section):
     )
     max_entry_mb: float = Field(5.0, gt=0, description="entries larger than this are not read")
 
+    @property
+    def max_entry_bytes(self) -> int:
+        """The size limit for every file masstrail reads from the notebook (entries, logs)."""
+        return int(self.max_entry_mb * 1024 * 1024)
+
 
 class GapSettings(_Section):
     major_fraction: float = Field(

@@ -1,11 +1,12 @@
-"""Every hook of a masstrail run, in the order the pipeline calls them.
+"""Every hook of a masstrail run, in the order the run calls them.
 
-A run over one entry goes: read → extract → resolve → weigh → find gaps →
-compute metrics → write. The pipeline in :mod:`capture.pipeline` does nothing
-but call these hooks; the built-in behaviour lives in ``masstrail_plugins``
-and is loaded through the ``masstrail`` entry-point group like any lab's own
-plugin. Hook implementations may take fewer arguments than the spec lists, so
-a spec can gain an argument later without breaking plugins. Arguments keep the
+A run over one entry goes: read → extract → describe → merge → balance → weigh →
+product → reaction → checks → gaps → grade → metrics → write. The run in
+:mod:`capture.run` does nothing but call these hooks and hand each answer to the
+next; the built-in behaviour lives in ``masstrail_plugins`` and is loaded through
+the ``masstrail`` entry-point group like any lab's own plugin. Hook
+implementations may take fewer arguments than the spec lists, so a spec can
+gain an argument later without breaking plugins. Arguments keep the
 same names across hooks: ``entry``, ``materials``, ``product``, ``gaps``,
 ``config``.
 
@@ -24,17 +25,24 @@ import pluggy
 if TYPE_CHECKING:
     from capture.config import LabConfig
     from capture.models import (
+        BalanceMass,
         BalanceReading,
         Entry,
+        EntrySummary,
         Gap,
         MassAssignment,
         MassContext,
         MaterialInfo,
         MaterialLine,
+        MergedMaterials,
         MetricsReport,
+        ProductFinding,
         ProductOut,
+        ReactionFigures,
+        ReadingPlacement,
         RecordCheck,
         Result,
+        Stage,
     )
 
 hookspec = pluggy.HookspecMarker("masstrail")
@@ -50,9 +58,10 @@ hookimpl = pluggy.HookimplMarker("masstrail")
 def masstrail_entry_suffixes(config: LabConfig) -> list[str]:
     """Name the file endings that are notebook entries.
 
-    Called once per scan, before the notebook folder is walked.
+    Called once per notebook that is opened (scan, watcher), before any folder is
+    walked; the answers make :class:`capture.paths.EntryRule`.
 
-    :param config: the lab configuration of the notebook being scanned.
+    :param config: the lab configuration of the notebook.
     :returns: endings with their dot, e.g. ``[".md", ".yaml"]``; all answers are
         combined.
     """
@@ -75,6 +84,117 @@ def masstrail_read_entry(path: Path, data: bytes, relpath: str, config: LabConfi
 
     Stops at first non-None result.
     """
+
+
+# --------------------------------------------------------------------------
+# Extracting and describing materials
+# --------------------------------------------------------------------------
+
+
+@hookspec
+def masstrail_extract_amounts(entry: Entry, config: LabConfig) -> list[MaterialLine]:
+    """List the materials an entry records, each with its amounts as written.
+
+    Called once per entry that was read. The built-ins give the front matter's and the
+    tables' materials (origin ``front-matter``, ``table``), recovered material (role
+    ``recovered``) and the procedure text's mentions (origin ``text``), the product's
+    mention among them with role ``product``. ``masstrail_merge_materials`` then
+    counts each material once.
+
+    :param entry: the entry, with ``body`` holding the procedure text.
+    :param config: the lab configuration.
+    :returns: material lines, each with its amounts and its evidence (the key or text
+        it was read from); all answers are combined, in plugin order.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_resolve_material(name: str, config: LabConfig) -> MaterialInfo | None:
+    """Say what a material name stands for: formula, density, category.
+
+    Called once per distinct material name in a run (answers are cached).
+
+    :param name: the name as written, e.g. ``"EtOAc"`` or ``"sat. aq. NaHCO3"``.
+    :param config: the lab configuration (its extra materials and density
+        overrides).
+    :returns: the material's properties, each number with its source, or None
+        when this resolver does not know the name.
+
+    Stops at first non-None result.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_line_material(
+    line: MaterialLine, resolve: Callable[[str], MaterialInfo | None], config: LabConfig
+) -> MaterialInfo | None:
+    """Say which material knowledge one line is described and weighed with.
+
+    Called once per input line, after extraction and before merging. The built-in takes
+    the name's knowledge, lets a formula the entry gives for the line win, and weighs a
+    solution with its solvent's density when its own is not known.
+
+    :param line: the material line (``formula`` holds a formula the entry gave for it).
+    :param resolve: the material knowledge (name → properties, or None).
+    :param config: the lab configuration.
+    :returns: the knowledge (its name, category, formula and flags are copied onto the
+        line), or None when nothing is known.
+
+    Stops at first non-None result.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_material_stage(line: MaterialLine, config: LabConfig) -> Stage | None:
+    """Say which stage of the experiment a line belongs to: reaction, workup, purification.
+
+    Called once per input line that has no stage yet (text mentions get theirs from
+    the operation around them), after ``masstrail_line_material``.
+
+    :param line: the material line, with its role and category.
+    :param config: the lab configuration.
+    :returns: the stage, or None when neither role nor category says.
+
+    Stops at first non-None result.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_waste_stream(line: MaterialLine, config: LabConfig) -> str | None:
+    """Say which waste stream an input goes to (reactive, metal-bearing, solid, …).
+
+    Called once per input line, after its stage; the answer is kept on the line
+    (``stream``) for the waste figures and the store.
+
+    :param line: the material line, described.
+    :param config: the lab configuration (``[waste_streams]``).
+    :returns: the stream's name, or None.
+
+    Stops at first non-None result.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_merge_materials(
+    entry: Entry, lines: list[MaterialLine], config: LabConfig
+) -> MergedMaterials | None:
+    """Count each material once: merge the text's mentions with the structured records.
+
+    Called once per entry, after every line was described.
+
+    :param entry: the entry (its product's name: a mention of it is not an input).
+    :param lines: every line of ``masstrail_extract_amounts``, described.
+    :param config: the lab configuration.
+    :returns: the inputs, the recovered lines, the product's text mention and the
+        gaps for conflicting records.
+
+    Stops at first non-None result.
+    """
+
+
+# --------------------------------------------------------------------------
+# Balance logs
+# --------------------------------------------------------------------------
 
 
 @hookspec(firstresult=True)
@@ -100,46 +220,35 @@ def masstrail_read_balance_log(
     """
 
 
-# --------------------------------------------------------------------------
-# Extracting amounts
-# --------------------------------------------------------------------------
-
-
-@hookspec
-def masstrail_extract_amounts(entry: Entry, config: LabConfig) -> list[MaterialLine]:
-    """Find materials and their amounts in an entry's procedure text.
-
-    Called once per entry that was read. The structured materials (front
-    matter and tables) are already known to the pipeline; a material found
-    here under a name that a structured line already has is dropped, so the
-    structured record wins.
-
-    :param entry: the entry, with ``body`` holding the procedure text.
-    :param config: the lab configuration.
-    :returns: material lines with ``origin="text"``, each with its amounts and
-        the text span as evidence; all answers are combined.
-    """
-
-
-# --------------------------------------------------------------------------
-# Resolving materials and converting amounts to masses
-# --------------------------------------------------------------------------
-
-
 @hookspec(firstresult=True)
-def masstrail_resolve_material(name: str, config: LabConfig) -> MaterialInfo | None:
-    """Say what a material name stands for: formula, density, category.
+def masstrail_place_readings(
+    entry: Entry,
+    materials: list[MaterialLine],
+    readings: list[BalanceReading],
+    resolve: Callable[[str], MaterialInfo | None],
+    config: LabConfig,
+) -> ReadingPlacement | None:
+    """Put each balance reading where it belongs: a material's mass, the product's, or a gap.
 
-    Called once per distinct material name in a run (answers are cached).
+    Called once per entry, after merging and before weighing. A line given a balance
+    mass is weighed from it (origin ``balance``), and its basis names the readings.
+    Plugins may set each reading's ``assigned_to``.
 
-    :param name: the name as written, e.g. ``"EtOAc"`` or ``"sat. aq. NaHCO3"``.
-    :param config: the lab configuration (its extra materials and density
-        overrides).
-    :returns: the material's properties, each number with its source, or None
-        when this resolver does not know the name.
+    :param entry: the entry (its product's name and date).
+    :param materials: the input lines, merged, not yet weighed.
+    :param readings: every reading of the entry's logs, in file order.
+    :param resolve: the material knowledge (name → properties, or None).
+    :param config: the lab configuration (``[balance_layout] max_days_from_entry``).
+    :returns: the balance masses by position in ``materials``, the product's, and gaps
+        for readings that cannot be used; None when there is nothing to place.
 
     Stops at first non-None result.
     """
+
+
+# --------------------------------------------------------------------------
+# Weighing
+# --------------------------------------------------------------------------
 
 
 @hookspec(firstresult=True)
@@ -148,16 +257,88 @@ def masstrail_assign_mass(
 ) -> MassAssignment | None:
     """Convert one material line's amounts to a mass in g, with the basis of that mass.
 
-    Called for every material line and for the product, once the line's
-    material is resolved. Lines stated in equivalents are weighed after the
-    others, once ``context`` knows the limiting reagent.
+    Called for every input line, the recovered lines and the product's recorded mass,
+    once the line's material is described. Lines stated in equivalents only are weighed
+    after the others, once ``context`` knows the limiting reagent.
 
     :param line: the material line, with its parsed amounts.
     :param material: what the material knowledge says about it, or None.
     :param context: the limiting reagent's name and amount (mmol), if known.
     :param config: the lab configuration.
-    :returns: the mass and its basis, or the reason none can be given; None
-        to leave the line to another plugin.
+    :returns: the mass, the amount of substance and the water in it, with the basis,
+        or the reason no mass can be given; None to leave the line to another plugin.
+
+    Stops at first non-None result.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_choose_limiting(
+    materials: list[MaterialLine], config: LabConfig
+) -> MaterialLine | None:
+    """Choose the limiting reagent among the input lines.
+
+    Called once per entry, after every line not stated in equivalents only was weighed;
+    equivalents are reckoned from its amount, and the gap rules and reaction figures
+    get it as ``limiting``.
+
+    :param materials: the input lines, those with amounts of substance weighed.
+    :param config: the lab configuration.
+    :returns: the limiting reagent's line, or None when none can be told.
+
+    Stops at first non-None result.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_product(
+    entry: Entry,
+    mention: MaterialLine | None,
+    reading: BalanceMass | None,
+    resolve: Callable[[str], MaterialInfo | None],
+    weigh: Callable[[MaterialLine, MaterialInfo | None], None],
+    config: LabConfig,
+) -> ProductFinding | None:
+    """Give the product its mass: from the balance, the front matter or the text.
+
+    Called once per entry, after the inputs were weighed.
+
+    :param entry: the entry (its ``product``: name, mass, formula, SMILES).
+    :param mention: the product as the text reports it, or None.
+    :param reading: the balance's mass for the product, or None.
+    :param resolve: the material knowledge (name → properties, or None).
+    :param weigh: weighs a line with the given knowledge (``masstrail_assign_mass``),
+        setting its mass and basis in place.
+    :param config: the lab configuration.
+    :returns: the product with its mass (None when not recorded) and the gaps its
+        records raise.
+
+    Stops at first non-None result.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_reaction_figures(
+    entry: Entry,
+    materials: list[MaterialLine],
+    product: ProductOut,
+    limiting: MaterialLine | None,
+    resolve: Callable[[str], MaterialInfo | None],
+    config: LabConfig,
+) -> ReactionFigures | None:
+    """Work out the reaction's figures once per entry: atom economy, yield, stoichiometry.
+
+    Called once per entry, after the product's mass; the answer goes to the gap rules and
+    the metrics as ``reaction``.
+
+    :param entry: the entry (its ``equation``).
+    :param materials: the input lines, weighed.
+    :param product: the product with its mass.
+    :param limiting: the limiting reagent's line, if one was chosen.
+    :param resolve: the material knowledge (name → properties, or None).
+    :param config: the lab configuration.
+    :returns: the figures (with ``error`` saying why there are none), or None when the
+        entry gives no equation.
 
     Stops at first non-None result.
     """
@@ -173,6 +354,9 @@ def masstrail_check_records(
     entry: Entry,
     materials: list[MaterialLine],
     product: ProductOut,
+    recovered: list[MaterialLine],
+    limiting: MaterialLine | None,
+    reaction: ReactionFigures | None,
     resolve: Callable[[str], MaterialInfo | None],
     config: LabConfig,
 ) -> list[RecordCheck]:
@@ -186,6 +370,9 @@ def masstrail_check_records(
     :param entry: the entry, with ``body`` holding the procedure text.
     :param materials: its material lines, weighed.
     :param product: the product with its mass.
+    :param recovered: what the entry credits as recovered, weighed.
+    :param limiting: the limiting reagent's line, or None.
+    :param reaction: the reaction figures, or None without an equation.
     :param resolve: the material knowledge (name → properties, or None).
     :param config: the lab configuration (``[gaps]`` and ``[allowances]``).
     :returns: the checks, recorded or not; all answers are combined.
@@ -197,16 +384,24 @@ def masstrail_find_gaps(
     entry: Entry,
     materials: list[MaterialLine],
     product: ProductOut,
+    recovered: list[MaterialLine],
+    checks: list[RecordCheck],
+    limiting: MaterialLine | None,
+    reaction: ReactionFigures | None,
     resolve: Callable[[str], MaterialInfo | None],
     config: LabConfig,
 ) -> list[Gap]:
     """Find the records that the waste figure needs but the entry lacks.
 
-    Called once per entry, after every material has a mass or a problem.
+    Called once per entry, after the checks; their gaps are added after these.
 
     :param entry: the entry.
     :param materials: its material lines, weighed.
     :param product: the product with its mass (None when not recorded).
+    :param recovered: what the entry credits as recovered, weighed.
+    :param checks: the operations' checks (``masstrail_check_records``).
+    :param limiting: the limiting reagent's line, or None.
+    :param reaction: the reaction figures, or None without an equation.
     :param resolve: the material knowledge (name → properties, or None).
     :param config: the lab configuration.
     :returns: gaps, each with a severity and an actionable message; all
@@ -224,7 +419,8 @@ def masstrail_grade_gaps(
 ) -> list[Gap] | None:
     """Give every gap its severity, from the estimate of the missing mass.
 
-    Called once per entry, after all gaps (from checks and rules) are known.
+    Called once per entry, after all gaps (from checks, rules, merging, balance logs
+    and the product) are known; the run then sorts them, blocking first.
 
     :param entry: the entry.
     :param gaps: every gap found, with allowances in g where they could be estimated.
@@ -249,18 +445,22 @@ def masstrail_compute_metrics(
     product: ProductOut,
     recovered: list[MaterialLine],
     gaps: list[Gap],
+    limiting: MaterialLine | None,
+    reaction: ReactionFigures | None,
     resolve: Callable[[str], MaterialInfo | None],
     config: LabConfig,
 ) -> MetricsReport | None:
     """Compute figures for one entry.
 
-    Called once per entry, after the gap rules.
+    Called once per entry, after the gaps were graded.
 
     :param entry: the entry.
     :param materials: its material lines, weighed.
     :param product: the product with its mass.
     :param recovered: what the entry credits as recovered, weighed.
-    :param gaps: every gap found.
+    :param gaps: every gap found, graded.
+    :param limiting: the limiting reagent's line, or None.
+    :param reaction: the reaction figures, or None without an equation.
     :param resolve: the material knowledge (name → properties, or None).
     :param config: the lab configuration.
     :returns: metrics (plain numbers, fractions 0–1, None where not
@@ -314,7 +514,7 @@ def masstrail_write_result(
 
 
 @hookspec(firstresult=True)
-def masstrail_previous_results(root: Path, config: LabConfig) -> dict | None:
+def masstrail_previous_results(root: Path, config: LabConfig) -> dict[str, EntrySummary] | None:
     """What a writer remembers of the last results, so a scan can skip unchanged entries.
 
     Called once at the start of a scan that reuses results (``masstrail scan``,
@@ -322,8 +522,9 @@ def masstrail_previous_results(root: Path, config: LabConfig) -> dict | None:
 
     :param root: the notebook root.
     :param config: the lab configuration.
-    :returns: ``{relative entry path: capture.pipeline.PreviousResult}``, or None
-        if this writer keeps nothing (then every entry is recomputed).
+    :returns: ``{relative entry path: capture.models.EntrySummary}`` (with the
+        fingerprint, hash and stat that tell whether each is still current), or None
+        if this writer keeps nothing.
     """
 
 

@@ -11,6 +11,7 @@ sidecar ``NAME.waste.json`` whose JSON Schema is ``capture/result.schema.json``.
 from __future__ import annotations
 
 import datetime as dt
+from dataclasses import dataclass
 from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, field_validator, model_validator
@@ -18,6 +19,9 @@ from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, field_validator,
 RESULT_FORMAT = "masstrail-result/1"
 
 Severity = Literal["blocking", "major", "minor"]
+# the one order of severities, worst first: tables, sorts and filters use it
+SEVERITIES: tuple[Severity, ...] = ("blocking", "major", "minor")
+SEVERITY_RANK: dict[str, int] = {s: i for i, s in enumerate(SEVERITIES)}
 Origin = Literal["front-matter", "table", "text", "balance"]
 Stage = Literal["reaction", "workup", "purification"]
 Kind = Literal["mass", "volume", "amount", "equivalents", "concentration"]
@@ -241,6 +245,10 @@ class MaterialLine(_Model):
     note: str | None = Field(
         None, description="how the amount was derived before weighing (e.g. a mixture's share)"
     )
+    # set by masstrail_waste_stream; read by the waste figures and the store's materials
+    # table. Kept out of the sidecar, whose format it would change (the streams' totals are
+    # in its `waste.streams`).
+    stream: str | None = Field(None, exclude=True)
 
 
 class BalanceReading(_Model):
@@ -358,7 +366,7 @@ class EntryRef(_Model):
     )
     # the entry file's stat when it was read, "mtime_ns:ctime_ns:inode:size", for the store
     # only (not in the sidecar: a copy of the notebook has other stats); None when the file
-    # changed too shortly before it was read to be trusted (see capture.pipeline.file_stat)
+    # changed too shortly before it was read to be trusted (see capture.fingerprint.file_stat)
     _stat: str | None = PrivateAttr(None)
 
 
@@ -417,6 +425,7 @@ class MassAssignment(_Model):
 
     mass_g: float | None = None
     moles_mmol: float | None = None
+    water_g: float | None = Field(None, description="water contained in mass_g, in g")
     basis: str | None = None
     problem: str | None = Field(None, description="why no mass could be given")
     problem_kind: str | None = Field(None, description="gap kind for the problem")
@@ -441,3 +450,115 @@ class MetricsReport(_Model):
     totals: Totals | None = None
     breakdown: Breakdown | None = None
     context: dict[str, str] = Field(default_factory=dict)
+
+
+# --------------------------------------------------------------------------------------
+# What the stages of one entry's run hand each other (see capture.hookspecs)
+# --------------------------------------------------------------------------------------
+class MergedMaterials(_Model):
+    """The entry's material lines after the text was merged with the structured records."""
+
+    materials: list[MaterialLine] = Field(description="the inputs, each counted once")
+    recovered: list[MaterialLine] = Field(default_factory=list, description="credited lines")
+    product_mention: MaterialLine | None = Field(
+        None, description="the product as the text reports it (`... to give X (2.41 g)`)"
+    )
+    gaps: list[Gap] = Field(default_factory=list, description="conflicting records")
+
+
+class BalanceMass(_Model):
+    """What the balance says one material (or the product) weighed, and from which readings."""
+
+    mass_g: float
+    basis: str = Field(description="the readings: file, line, time stamp, value")
+
+
+class ReadingPlacement(_Model):
+    """Where an entry's balance readings went."""
+
+    masses: dict[int, BalanceMass] = Field(
+        default_factory=dict,
+        description="by position in the materials list: the balance mass that replaces what "
+        "was typed for that line",
+    )
+    product: BalanceMass | None = None
+    gaps: list[Gap] = Field(default_factory=list, description="readings that could not be used")
+
+
+class ProductFinding(_Model):
+    """The product with its mass, and the gaps its records raise."""
+
+    product: ProductOut
+    gaps: list[Gap] = Field(default_factory=list)
+
+
+class ReactionFigures(_Model):
+    """What the entry's ``equation`` and records give, worked out once per entry.
+
+    ``error`` says why there are no figures (an equation that cannot be read or does
+    not balance); every figure is then None.
+    """
+
+    equation: str = Field(description="the equation as written")
+    error: str | None = None
+    product_term: str | None = Field(None, description="the equation's desired product")
+    product_formula: str | None = None
+    product_molar_mass: float | None = Field(None, description="g/mol")
+    atom_economy: float | None = None
+    limiting: str | None = Field(None, description="the limiting reactant, by the equation")
+    limiting_mmol_per_coef: float | None = None
+    theoretical_yield_g: float | None = None
+    yield_: float | None = None
+    reactant_mass_g: float | None = Field(None, description="Σ m of the matched reactants")
+    stoichiometric_mass_g: float | None = Field(
+        None, description="Σ m the equation needs at the limiting reactant's amount"
+    )
+    carbon_efficiency: float | None = None
+    reactants: list[str] = Field(
+        default_factory=list, description="names of the material lines matched to reactants"
+    )
+
+
+@dataclass(slots=True)
+class EntrySummary:
+    """What a scan keeps of one entry's current result: its summary, and what tells whether
+    it is still current (the fingerprint of its inputs, its hash and stat, the balance logs
+    it names). A scan of 100,000 entries keeps these, not the full results; the store keeps
+    the same (``masstrail_previous_results``), so the next scan can skip unchanged entries.
+    """
+
+    path: str
+    status: str
+    product_g: float | None = None
+    e_factor: float | None = None
+    pmi: float | None = None
+    blocking: int = 0
+    major: int = 0
+    minor: int = 0
+    error: str | None = None
+    location: str | None = None
+    recomputed: bool = True
+    inputs_sha256: str | None = None
+    sha256: str | None = None  # the entry file's hash
+    stat: str | None = None  # its stat when read (see capture.fingerprint.file_stat)
+    logs: tuple[str, ...] = ()  # the balance logs the entry names, as written
+
+    @classmethod
+    def of(cls, r: Result) -> EntrySummary:
+        counts = dict.fromkeys(SEVERITIES, 0)
+        for g in r.gaps:
+            counts[g.severity] += 1
+        return cls(
+            path=r.entry.path,
+            status=r.status,
+            product_g=r.product.mass_g,
+            e_factor=r.metrics.e_factor,
+            pmi=r.metrics.pmi,
+            error=r.error.message if r.error else None,
+            location=r.error.location if r.error else None,
+            inputs_sha256=r.entry.inputs_sha256,
+            sha256=r.entry.sha256,
+            stat=r.entry._stat,
+            logs=tuple(r.entry.balance_log),
+            **counts,
+        )

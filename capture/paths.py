@@ -8,6 +8,8 @@ import os
 import re
 from pathlib import Path
 
+from capture.config import CONFIG_NAME
+
 SIDECAR_SUFFIX = ".waste.json"
 CARD_SUFFIX = ".waste.md"
 STATE_DIR = ".masstrail"
@@ -83,3 +85,40 @@ def is_ignored(relpath: str, patterns: list[str]) -> bool:
     if any_glob is not None and any_glob.match(relpath):
         return True
     return (relpath + "/").startswith(folders) if folders else False
+
+
+class EntryRule:
+    """Which files under a notebook root are entries: the one rule that the scan's folder walk
+    and the watcher both use.
+
+    Not entries: anything in a hidden folder (``.masstrail/``, ``.git/``) or ``__pycache__``,
+    hidden files, masstrail's own outputs, editors' swap, lock, backup and temp files, the
+    lab's ``masstrail.toml``, files whose ending no reader claims, and paths matching the
+    lab's ``[scan] ignore`` globs.
+    """
+
+    def __init__(self, suffixes: list[str], ignore: list[str]) -> None:
+        self.ends = tuple(sorted({"." + s.lower().lstrip(".") for s in suffixes}))
+        self.ignore = list(ignore)
+
+    @staticmethod
+    def folder_ok(name: str) -> bool:
+        """True when a folder of this name may hold entries."""
+        return not name.startswith(".") and name != "__pycache__"
+
+    def file_ok(self, rel_dir: str, name: str) -> bool:
+        """True when the file ``name`` in the folder ``rel_dir`` (relative to the root, with
+        ``/``; "" for the root) is an entry."""
+        if name.endswith((SIDECAR_SUFFIX, CARD_SUFFIX)) or name.startswith("."):
+            return False  # most of a scanned folder: the sidecars and cards
+        if not name.lower().endswith(self.ends) or is_temp_file(name):
+            return False
+        if not rel_dir and name == CONFIG_NAME:
+            return False
+        return not (self.ignore and is_ignored(f"{rel_dir}/{name}" if rel_dir else name,
+                                               self.ignore))  # fmt: skip
+
+    def relpath_ok(self, relpath: str) -> bool:
+        """True when ``relpath`` (relative to the root, with ``/``) is an entry."""
+        *folders, name = relpath.split("/")
+        return all(map(self.folder_ok, folders)) and self.file_ok("/".join(folders), name)

@@ -19,14 +19,19 @@ from capture import hookspecs
 
 ENTRY_POINT_GROUP = "masstrail"
 
-# The built-ins, by entry-point name, in the order of the pipeline.
+# The built-ins, by entry-point name, in the order of an entry's run (see masstrail_plugins).
 DEFAULT_PLUGINS: tuple[str, ...] = (
     "readers",
-    "balance",
+    "structured",
     "text",
+    "merge",
     "materials",
     "names",
+    "lines",
+    "balance",
     "masses",
+    "limiting",
+    "product",
     "gaps",
     "metrics",
     "reaction",
@@ -61,7 +66,7 @@ def get_plugin_manager(block: Iterable[str] = ()) -> pluggy.PluginManager:
         raise PluginError(
             "masstrail's built-in plugins are not registered ("
             + ", ".join(missing)
-            + "); install the package with `pip install -e .` from the project folder"
+            + "); reinstall masstrail (`pip install .` from the project folder)"
         )
     try:
         pm.check_pending()

@@ -16,6 +16,7 @@ import functools
 import re
 import threading
 import unicodedata
+from types import MappingProxyType
 
 from capture.models import AmountMention, Kind
 
@@ -48,6 +49,9 @@ _add("mol", "mole", "amount")
 _add("equiv equiv. eq eq. equivalent equivalents equivs", "equivalent", "equivalents")
 _add("M mol/L mol/l", "molar", "concentration")
 _add("mM mmol/L mmol/l", "millimolar", "concentration")
+
+# The public table: every unit masstrail reads, as written → (pint unit, kind). Read-only.
+UNITS = MappingProxyType(_UNITS)
 
 CANONICAL: dict[Kind, str] = {
     "mass": "g",
@@ -104,6 +108,15 @@ def _factor(pint_unit: str, kind: Kind) -> float:
     if not q.check(_DIMENSION[kind]):
         raise AmountError(f"{pint_unit} is not a {kind}")
     return float(q.to(_PINT_CANONICAL[kind]).magnitude)
+
+
+def canonical_factor(unit: str) -> tuple[float, Kind] | None:
+    """(factor to the canonical unit of its kind, kind) for a unit as written (``mg`` →
+    ``(0.001, "mass")``), or None for a unit not in :data:`UNITS`."""
+    known = _UNITS.get(unit)
+    if known is None:
+        return None
+    return _factor(*known), known[1]
 
 
 _WS = re.compile(r"\s+")

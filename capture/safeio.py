@@ -11,11 +11,12 @@ JSON, and ``NaN`` is refused in JSON. Results are written atomically.
 from __future__ import annotations
 
 import contextlib
+import functools
 import json
 import os
 import stat
 import tempfile
-from pathlib import Path
+from pathlib import Path, PureWindowsPath
 from typing import Any
 
 import yaml
@@ -30,11 +31,9 @@ class InputError(Exception):
         self.location = location
 
 
-MAX_ENTRY_BYTES = 5 * 1024 * 1024
-
-
-def read_bounded(path: Path, limit: int = MAX_ENTRY_BYTES) -> bytes:
-    """Read a regular file of at most ``limit`` bytes, or raise :class:`InputError`."""
+def read_bounded(path: Path, limit: int) -> bytes:
+    """Read a regular file of at most ``limit`` bytes (the lab's ``[scan] max_entry_mb``,
+    ``LabConfig.scan.max_entry_bytes``), or raise :class:`InputError`."""
     try:
         st = path.lstat()
     except OSError as exc:
@@ -54,6 +53,32 @@ def read_bounded(path: Path, limit: int = MAX_ENTRY_BYTES) -> bytes:
     if len(data) > limit:
         raise InputError(f"the file grew past {limit / 2**20:.0f} MB while it was read")
     return data
+
+
+@functools.lru_cache(maxsize=16)
+def _resolved(root: Path) -> Path:
+    return root.resolve()  # a notebook root does not move while masstrail runs
+
+
+def safe_log_path(root: Path, entry_dir: Path, ref: str) -> Path:
+    """The file ``ref`` names (relative to the entry's folder) if it lies inside the notebook
+    root, else :class:`InputError`: drive and network paths, ``..`` and links that leave the
+    root are refused, so an entry can never make masstrail read outside its notebook."""
+    if not ref or not ref.strip():
+        raise InputError("an empty balance_log path")
+    if PureWindowsPath(ref).drive or ref.startswith(("\\\\", "//")):
+        raise InputError(
+            f"balance_log {ref!r} is a drive or network path; use a path inside the notebook"
+        )
+    candidate = Path(ref) if Path(ref).is_absolute() else entry_dir / ref
+    resolved = candidate.resolve()
+    if not resolved.is_relative_to(_resolved(root)):
+        raise InputError(
+            f"balance_log {ref!r} leads outside the notebook folder; logs must lie inside it"
+        )
+    if not resolved.is_file():
+        raise InputError(f"balance_log {ref!r} does not exist")
+    return resolved
 
 
 def decode_text(data: bytes) -> str:

@@ -4,14 +4,17 @@ How it works (the evidence behind each point is in shared RELIABILITY.md):
 
 1. **One watcher per notebook.** ``.masstrail/watch.lock`` holds the PID; a second
    watcher exits with a message; a lock left by a crashed watcher is taken over.
-2. **Catch up first.** Every entry whose sidecar does not record the entry's
-   current content hash is computed again; entries with balance logs are always
-   recomputed (a sidecar is only rewritten when its bytes change).
+2. **Catch up first, with a scan.** The catch-up and the periodic rescans are reusing
+   scans (:func:`capture.scan.scan`): the same entry rule and the same "is this result
+   current" rule (the fingerprint of the entry, its balance logs, the lab config and the
+   versions), so a changed ``masstrail.toml`` or balance log recomputes what it affects.
+   Results of entries that are gone are removed.
 3. **Events are hints.** File events (watchdog; recursive, new folders included)
    only name paths. Each path is settled — no event for ``settle`` seconds, then
-   the same size and mtime twice — then read and hashed; unchanged content costs
-   nothing. A periodic rescan (``rescan`` seconds) converges on what is on disk
-   even when events are lost.
+   the same size and mtime twice — then checked by the same "current" rule; unchanged
+   content costs a hash. A save prints the gaps it opened and closed, against the
+   entry's previous result (its sidecar, the first time). A periodic rescan
+   (``rescan`` seconds) converges on what is on disk even when events are lost.
 4. **Never trigger yourself.** The watcher's own outputs, temp files, editors'
    swap, lock and backup files and the ``.masstrail`` folder are ignored.
 5. **Intake and work are decoupled.** The event handler only puts paths on a
@@ -27,7 +30,6 @@ How it works (the evidence behind each point is in shared RELIABILITY.md):
 from __future__ import annotations
 
 import contextlib
-import hashlib
 import json
 import os
 import queue
@@ -37,9 +39,10 @@ import time
 from collections.abc import Callable
 from pathlib import Path
 
-from capture.models import Result
-from capture.paths import STATE_DIR, is_own_output, is_temp_file, sidecar_path
-from capture.pipeline import Notebook
+from capture.models import EntrySummary, Result
+from capture.notebook import Notebook
+from capture.paths import STATE_DIR, sidecar_path
+from capture.scan import scan
 
 LOCK_NAME = "watch.lock"
 
@@ -92,6 +95,15 @@ def release_lock(lock: Path) -> None:
             lock.unlink()
 
 
+def _sidecar_gaps(side: Path) -> set[tuple[str, str]]:
+    """The (kind, item) of each gap in a sidecar; empty when there is none to read."""
+    try:
+        data = json.loads(side.read_text(encoding="utf-8"))
+        return {(g["kind"], g["item"]) for g in data.get("gaps") or []}
+    except (OSError, ValueError, KeyError, TypeError, AttributeError):
+        return set()
+
+
 # ------------------------------------------------------------------ the watcher
 class Watcher:
     """Event intake, a settling queue and one worker over one notebook."""
@@ -103,6 +115,7 @@ class Watcher:
         rescan: float = 60.0,
         poll: bool = False,
         echo: Callable[[str], None] = print,
+        jobs: int = 1,
     ) -> None:
         self.nb = notebook
         self.root = notebook.root
@@ -110,67 +123,50 @@ class Watcher:
         self.rescan_every = rescan
         self.poll = poll
         self.echo = echo
+        self.jobs = jobs
         self.events: queue.Queue[tuple[Path, str]] = queue.Queue()
         self.stop = threading.Event()
-        self.known: dict[Path, str] = {}  # entry → sha256 of the content last computed
-        self.last: dict[Path, Result] = {}
+        self.summaries: dict[str, EntrySummary] = {}  # entry → what its current result is
+        self.open_gaps: dict[Path, set[tuple[str, str]]] = {}  # entry → its gaps, last computed
         self.logs: dict[Path, set[Path]] = {}  # balance log → entries naming it
-        self.log_sha: dict[Path, str | None] = {}  # balance log → hash when last used
-        self.suffixes: set[str] = set()
         self.observer = None
 
     # -------------------------------------------------------------- which paths matter
-    def _is_entry(self, path: Path) -> bool:
-        try:
-            rel = path.relative_to(self.root)
-        except ValueError:
-            return False
-        if any(part.startswith(".") for part in rel.parts):
-            return False
-        name = path.name
-        return (
-            path.suffix.lower() in self.suffixes
-            and not is_own_output(name)
-            and not is_temp_file(name)
-            and name != "masstrail.toml"
-        )
-
     def _relevant(self, path: Path) -> bool:
-        return self._is_entry(path) or path in self.logs
+        return self.nb.is_entry(path) or path in self.logs
+
+    def _note_logs(self, path: Path, logs: tuple[str, ...]) -> None:
+        """Remember which balance logs the entry ``path`` names (a log that does not exist
+        yet may appear later: its path is watched too)."""
+        for entries in self.logs.values():
+            entries.discard(path)
+        for ref in logs:
+            self.logs.setdefault((path.parent / ref).resolve(), set()).add(path)
 
     # -------------------------------------------------------------- computing
-    def _sha(self, path: Path) -> str | None:
-        try:
-            return hashlib.sha256(path.read_bytes()).hexdigest()
-        except OSError:
-            return None
-
-    def _compute(self, path: Path, why: str) -> None:
-        before = self.last.get(path)
+    def update(self, path: Path, why: str) -> None:
+        """Recompute the entry ``path`` unless its result is current (the scan's rule)."""
+        rel = self.nb.relpath(path)
+        if self.nb.fingerprints.current(path, self.summaries.get(rel)):
+            return  # same content: nothing to do (duplicate events, saves without changes)
+        before = self.open_gaps.get(path)
+        if before is None:
+            before = _sidecar_gaps(sidecar_path(path))
         result = self.nb.process(path)
-        self.known[path] = result.entry.sha256 or ""
-        self.last[path] = result
-        for log in list(self.logs):
-            self.logs[log].discard(path)
-        entry_dir = path.parent
-        for r in result.readings:
-            log = (self.root / r.file).resolve()
-            self.logs.setdefault(log, set()).add(path)
-            self.log_sha[log] = self._sha(log)
-        for gap in result.gaps:
-            if gap.kind.startswith("balance_log"):
-                # a log that does not exist yet may appear later: watch its path too
-                self.logs.setdefault((entry_dir / gap.item).resolve(), set()).add(path)
+        summary = EntrySummary.of(result)
+        self.summaries[rel] = summary
+        self._note_logs(path, summary.logs)
         self._report(path, result, before, why)
 
-    def _report(self, path: Path, result: Result, before: Result | None, why: str) -> None:
+    def _report(self, path: Path, result: Result, old: set, why: str) -> None:
         rel = self.nb.relpath(path)
         stamp = time.strftime("%H:%M:%S")
         if result.status == "error":
+            self.open_gaps.pop(path, None)
             self.echo(f"{stamp} {rel}: could not be read: {result.error.message}")
             return
-        old = {(g.kind, g.item) for g in before.gaps} if before else set()
         new = {(g.kind, g.item) for g in result.gaps}
+        self.open_gaps[path] = new
         opened, closed = new - old, old - new
         e = result.metrics.e_factor
         e_text = "E-factor —" if e is None else f"E-factor {e:.3g}"
@@ -183,39 +179,29 @@ class Watcher:
             self.nb.pm.hook.masstrail_notify(result=result, gaps=serious, config=self.nb.config)
 
     def _removed(self, path: Path) -> None:
-        if path not in self.known and not sidecar_path(path).exists():
+        rel = self.nb.relpath(path)
+        if rel not in self.summaries and not sidecar_path(path).exists():
             return
-        self.known.pop(path, None)
-        self.last.pop(path, None)
-        self.nb.pm.hook.masstrail_remove_result(
-            entry_path=path, relpath=self.nb.relpath(path), root=self.root, config=self.nb.config
-        )
-        self.echo(
-            f"{time.strftime('%H:%M:%S')} {self.nb.relpath(path)}: deleted; its results removed"
-        )
+        self.summaries.pop(rel, None)
+        self.open_gaps.pop(path, None)
+        self._note_logs(path, ())
+        self.nb.pm.hook.masstrail_remove_result(entry_path=path, relpath=rel, root=self.root,
+                                                config=self.nb.config)  # fmt: skip
+        self.echo(f"{time.strftime('%H:%M:%S')} {rel}: deleted; its results removed")
 
     def handle(self, path: Path, why: str = "changed") -> None:
         """Bring the results for ``path`` (an entry or a balance log) up to date."""
-        if path in self.logs and not self._is_entry(path):
-            sha = self._sha(path)
-            if sha is not None and sha == self.log_sha.get(path):
-                return
-            self.log_sha[path] = sha
+        if path in self.logs and not self.nb.is_entry(path):
             for entry in sorted(self.logs[path]):
                 if entry.exists():
-                    self._compute(entry, f"balance log {self.nb.relpath(path)} changed")
+                    self.update(entry, f"balance log {self.nb.relpath(path)} changed")
             return
-        if not self._is_entry(path):
+        if not self.nb.is_entry(path):
             return
         if not path.exists():
             self._removed(path)
             return
-        sha = self._sha(path)
-        if sha is None:
-            return
-        if self.known.get(path) == sha:
-            return  # same content: nothing to do (duplicate events, saves without changes)
-        self._compute(path, why)
+        self.update(path, why)
 
     def clean_temp_files(self) -> int:
         """Remove temp files that a killed sidecar write left behind (ours only)."""
@@ -230,42 +216,38 @@ class Watcher:
         return n
 
     def catch_up(self, why: str = "catch-up") -> int:
-        """Compute every entry whose sidecar does not match its content; return how many."""
-        self.suffixes = {
-            s.lower()
-            for answer in self.nb.pm.hook.masstrail_entry_suffixes(config=self.nb.config)
-            for s in answer
-        }
-        done = 0
-        present = set()
-        changed_logs = {log for log in self.logs if self._sha(log) != self.log_sha.get(log)}
-        for path in self.nb.entry_files():
-            path = path.resolve()
-            present.add(path)
-            sha = self._sha(path)
-            if sha is None:
-                continue
-            logs = [log for log, entries in self.logs.items() if path in entries]
-            if self.known.get(path) == sha and not (changed_logs & set(logs)):
-                continue
-            side = sidecar_path(path)
-            recorded = None
-            if path not in self.known and side.exists():
-                with contextlib.suppress(OSError, ValueError, KeyError, TypeError):
-                    data = json.loads(side.read_text(encoding="utf-8"))
-                    recorded = data["entry"]["sha256"]
-                    has_logs = bool(data.get("readings")) or any(
-                        g["kind"].startswith("balance_log") for g in data.get("gaps", [])
-                    )
-                    if recorded == sha and not has_logs:
-                        self.known[path] = sha
-                        continue
-            self._compute(path, why)
-            done += 1
-        for path in list(self.known):
-            if path not in present:
-                self._removed(path)
-        return done
+        """A reusing scan: every entry whose result is not current is computed again, results
+        of entries that are gone are removed; return how many entries were computed."""
+        nb = self.nb
+        known = self.summaries or nb.pm.hook.masstrail_previous_results(
+            root=self.root, config=nb.config) or {}  # fmt: skip
+
+        def computed(path: Path, s: EntrySummary) -> None:
+            if s.recomputed:
+                self.open_gaps.pop(path, None)
+                self._say(nb.relpath(path), s, why)
+
+        report = scan(nb, progress=computed, reuse=True, keep=False, jobs=self.jobs,
+                      previous=dict(known))  # fmt: skip
+        self.summaries = {s.path: s for s in report.summaries}
+        self.logs = {}
+        for s in report.summaries:
+            if s.logs:
+                self._note_logs(self.root / s.path, s.logs)
+        for rel in set(known) - set(self.summaries):
+            self._removed(self.root / rel)
+        return report.recomputed
+
+    def _say(self, rel: str, s: EntrySummary, why: str) -> None:
+        stamp = time.strftime("%H:%M:%S")
+        if s.status == "error":
+            self.echo(f"{stamp} {rel}: could not be read: {s.error}")
+            return
+        e_text = "E-factor —" if s.e_factor is None else f"E-factor {s.e_factor:.3g}"
+        counts = ", ".join(f"{n} {sev}" for sev, n in
+                           (("blocking", s.blocking), ("major", s.major), ("minor", s.minor))
+                           if n) or "none"  # fmt: skip
+        self.echo(f"{stamp} {rel}: {e_text}; gaps: {counts} [{why}]")
 
     # -------------------------------------------------------------- events
     def _start_observer(self) -> None:
@@ -313,11 +295,6 @@ class Watcher:
 
     def run(self) -> None:
         """Catch up, then follow events until SIGINT/SIGTERM or ``stop`` is set."""
-        self.suffixes = {
-            s.lower()
-            for answer in self.nb.pm.hook.masstrail_entry_suffixes(config=self.nb.config)
-            for s in answer
-        }
         self._start_observer()  # before catching up: edits made meanwhile are queued
         self.clean_temp_files()
         n = self.catch_up()
@@ -360,11 +337,11 @@ class Watcher:
                 self.observer.join(timeout=2)
 
 
-def watch(root: Path, settle: float, rescan: float, poll: bool, echo=print) -> None:
+def watch(root: Path, settle: float, rescan: float, poll: bool, echo=print, jobs: int = 1) -> None:
     """Run the watcher on ``root`` until SIGINT or SIGTERM; the lock is released on exit."""
     nb = Notebook.open(root)
     lock = acquire_lock(nb.root)
-    w = Watcher(nb, settle=settle, rescan=rescan, poll=poll, echo=echo)
+    w = Watcher(nb, settle=settle, rescan=rescan, poll=poll, echo=echo, jobs=jobs)
 
     def stop(signum, _frame) -> None:
         w.stop.set()

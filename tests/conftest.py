@@ -9,7 +9,8 @@ from pathlib import Path
 import pytest
 from hypothesis import settings
 
-from capture.pipeline import Notebook, ScanReport, scan
+from capture.notebook import Notebook
+from capture.scan import ScanReport, scan
 
 settings.register_profile("ci", derandomize=True, max_examples=50, deadline=None, database=None)
 settings.register_profile("long", max_examples=2000, deadline=None)

@@ -16,7 +16,7 @@ from hypothesis import strategies as st
 
 from capture.config import BalanceLayout, LabConfig
 from capture.safeio import InputError
-from masstrail_plugins.balance import parse_date, read_csv_export, read_log
+from masstrail_plugins.balance.csv_log import parse_date, read_csv_export, read_log
 
 from helpers import entry_md
 
@@ -280,7 +280,8 @@ def test_a_lab_plugin_reads_its_own_balance_format(notebook):
     """masstrail_read_balance_log: a lab's balance with its own format."""
     from capture.hookspecs import hookimpl
     from capture.models import BalanceReading
-    from capture.pipeline import Notebook, scan
+    from capture.notebook import Notebook
+    from capture.scan import scan
 
     class PrinterTape:
         @hookimpl(tryfirst=True)

@@ -17,7 +17,8 @@ def test_the_generator_makes_varied_entries_that_scan(tmp_path):
     sys.path.insert(0, str(ROOT / "bench"))
     from scale import generate
 
-    from capture.pipeline import Notebook, scan
+    from capture.notebook import Notebook
+    from capture.scan import scan
 
     generate(tmp_path, 30)
     report = scan(Notebook.open(tmp_path), keep=False)

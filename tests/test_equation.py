@@ -6,8 +6,8 @@ import pytest
 
 from capture.chem import molar_mass
 from capture.config import LabConfig
-from capture.equation import Equation, EquationError, andraos, atom_economy
-from masstrail_plugins.materials import resolve_builtin
+from masstrail_plugins.metrics.equation import Equation, EquationError, andraos, atom_economy
+from masstrail_plugins.resolve.materials import resolve_builtin
 
 from helpers import entry_md
 
@@ -160,7 +160,7 @@ def test_waste_stream_rule(line, stream):
     # Prudent Practices in the Laboratory (NRC 2011, ch. 8): halogenated apart from other
     # organics, aqueous apart, metals apart, contaminated solids labelled; reactive flagged
     from capture.models import MaterialLine
-    from masstrail_plugins.waste import stream_of
+    from masstrail_plugins.metrics.waste import stream_of
 
     assert stream_of(MaterialLine(origin="front-matter", **line), LabConfig()) == stream
     cfg = LabConfig.model_validate({"waste_streams": {"assign": {line["name"]: "solid"}}})

@@ -34,7 +34,8 @@ def test_the_text_corpus_non_materials_produce_no_gap(tmp_path):
     from corpus.score_text import CORPUS as TEXT_CORPUS
     from corpus.score_text import load as load_text
 
-    from capture.pipeline import Notebook, scan
+    from capture.notebook import Notebook
+    from capture.scan import scan
 
     items = [i for i in load_text(TEXT_CORPUS) if not i.expected]
     assert len(items) >= 25
@@ -56,9 +57,9 @@ def test_each_rule_acts_only_on_sentences_holding_one_of_its_words():
 
     from capture.config import LabConfig
     from capture.models import ProductOut
-    from capture.pipeline import Notebook
+    from capture.notebook import Notebook
     from masstrail_plugins.gaps.operations import _RULES, Context
-    from masstrail_plugins.text import _sentences
+    from masstrail_plugins.prose import sentences
 
     from conftest import EXAMPLES
 
@@ -69,7 +70,7 @@ def test_each_rule_acts_only_on_sentences_holding_one_of_its_words():
     ctx = Context([], ProductOut(name=None, mass_g=None), nb.resolve, LabConfig())
     acted = 0
     for body in texts:
-        for _, sentence in _sentences(body):
+        for _, sentence in sentences(body):
             text = " ".join(sentence.split())
             for rule, words in _RULES:
                 if rule(ctx, text, set()):

@@ -11,7 +11,7 @@ from capture.models import Gap, MaterialLine, ProductOut
 from masstrail_plugins.gaps import allowances as al
 from masstrail_plugins.gaps.grading import grade_by_estimate
 from masstrail_plugins.gaps.operations import Context, check_operations, drying, filtration
-from masstrail_plugins.materials import resolve_builtin
+from masstrail_plugins.resolve.materials import resolve_builtin
 
 from helpers import entry_md
 
@@ -173,7 +173,8 @@ def test_a_lab_plugin_adds_its_own_check_and_grades_gaps_its_own_way(notebook):
     """masstrail_check_records and masstrail_grade_gaps are open to a lab's plugin."""
     from capture.hookspecs import hookimpl
     from capture.models import RecordCheck
-    from capture.pipeline import Notebook, scan
+    from capture.notebook import Notebook
+    from capture.scan import scan
 
     class GloveboxRules:
         @hookimpl

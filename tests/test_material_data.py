@@ -9,11 +9,8 @@ import pytest
 
 from capture.chem import material_key, molar_mass
 from capture.config import ExtraMaterial, LabConfig
-from masstrail_plugins.materials import (
-    builtin_data,
-    resolve_builtin,
-    resolve_from_lab,
-)
+from masstrail_plugins.resolve.knowledge import builtin_data
+from masstrail_plugins.resolve.materials import resolve_builtin, resolve_from_lab
 
 DATA = builtin_data()
 
@@ -88,7 +85,7 @@ def test_lab_materials_and_density_overrides_win():
 
 def test_chemicals_fallback_needs_a_real_name():
     pytest.importorskip("chemicals")
-    from masstrail_plugins.names import resolve_with_chemicals
+    from masstrail_plugins.resolve.names import resolve_with_chemicals
 
     assert resolve_with_chemicals("3", LabConfig()) is None
     info = resolve_with_chemicals("3-iodotoluene", LabConfig())
@@ -199,7 +196,7 @@ def test_name_lookups_are_kept_between_runs(tmp_path, monkeypatch):
     """The chemicals library's name table loads whole (seconds, ~200 MB); its answers are
     kept in a per-user cache so a later run with the same names never loads it."""
     pytest.importorskip("chemicals")
-    import masstrail_plugins.names as M
+    import masstrail_plugins.resolve.names as M
 
     monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
     monkeypatch.setattr(M, "_name_cache", M._NameCache())

@@ -6,7 +6,7 @@ import pytest
 
 from capture.config import LabConfig
 from capture.models import Gap, MaterialLine, ProductOut
-from masstrail_plugins.metrics import mass_metrics, sector_context
+from masstrail_plugins.metrics.mass import mass_metrics, sector_context
 
 
 def _line(name, mass, category="reagent", stage="reaction", water=None):

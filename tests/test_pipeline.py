@@ -12,7 +12,8 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from capture.config import ConfigError
-from capture.pipeline import Notebook, scan
+from capture.notebook import Notebook
+from capture.scan import scan
 
 from conftest import EXAMPLES, NotebookDir
 from helpers import entry_md

@@ -8,7 +8,7 @@ from pathlib import Path
 import pytest
 
 from capture.safeio import InputError
-from masstrail_plugins.readers import (
+from masstrail_plugins.read.entries import (
     read_json,
     read_markdown,
     read_notebook,

@@ -87,14 +87,16 @@ def test_report_renders_in_headless_chromium(lab, tmp_path):
 
 
 def test_streamed_figures_equal_the_reference_summaries(lab):
-    """The report counts gaps as it reads results one by one; capture.reports.summarise,
+    """The report counts gaps as it reads results one by one; capture.views.gaplist.summarise,
     which holds every result, is the reference."""
     import json
 
     from capture.paths import sidecar_path
-    from capture.pipeline import Notebook, scan
-    from capture.report import figures
-    from capture.reports import GapFilter, summarise
+    from capture.notebook import Notebook
+    from capture.scan import scan
+    from capture.views.report import figures
+    from capture.views.filters import GapFilter
+    from capture.views.gaplist import summarise
 
     nb = Notebook.open(lab)
     results = scan(nb).results

@@ -9,8 +9,11 @@ import json
 from click.testing import CliRunner
 
 from capture.cli import cli
-from capture.pipeline import Notebook, scan
-from capture.reports import GapFilter, audit, gap_rows, rows_to_csv, summarise
+from capture.notebook import Notebook
+from capture.scan import scan
+from capture.views.audit import audit
+from capture.views.filters import GapFilter
+from capture.views.gaplist import gap_rows, rows_to_csv, summarise
 
 from helpers import entry_md
 

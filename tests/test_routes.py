@@ -6,8 +6,9 @@ import pytest
 from click.testing import CliRunner
 
 from capture.cli import cli
-from capture.pipeline import Notebook, scan
-from capture.routes import RouteError, build_route
+from capture.notebook import Notebook
+from capture.scan import scan
+from capture.views.routes import RouteError, build_route
 
 from helpers import entry_md
 

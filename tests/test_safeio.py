@@ -87,7 +87,7 @@ def test_fifo_is_not_opened(tmp_path):
     fifo = tmp_path / "pipe.md"
     os.mkfifo(fifo)
     with pytest.raises(InputError, match="not a regular file"):
-        read_bounded(fifo)
+        read_bounded(fifo, 1024)
 
 
 def test_atomic_write_skips_identical_content(tmp_path):

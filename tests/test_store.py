@@ -13,7 +13,8 @@ import pytest
 from click.testing import CliRunner
 
 from capture.cli import cli
-from capture.pipeline import Notebook, scan
+from capture.notebook import Notebook
+from capture.scan import scan
 from capture.store import (
     connect,
     current_tables,
@@ -266,12 +267,26 @@ def test_what_changes_a_fingerprint_is_recomputed(notebook):
     assert _reuse(notebook).recomputed == 0
 
 
-def test_without_a_store_every_entry_is_recomputed(notebook):
+def test_without_a_store_the_sidecars_say_what_is_current(notebook):
+    """[store] enabled = false: the sidecars answer masstrail_previous_results, so a rescan
+    (or the watcher's catch-up) still skips unchanged entries, and sees changed ones."""
     notebook.write("masstrail.toml", "[store]\nenabled = false\n")
-    notebook.write("a.md", ENTRY)
+    a = notebook.write("a.md", ENTRY)
+    notebook.write("b.md", ENTRY.replace("3.00 g", "4.00 g"))
     nb = Notebook.open(notebook.root)
-    assert nb.pm.hook.masstrail_previous_results(root=nb.root, config=nb.config) is None
-    assert _reuse(notebook).recomputed == 1 and _reuse(notebook).recomputed == 1
+    assert nb.pm.hook.masstrail_previous_results(root=nb.root, config=nb.config) == {}
+    first = _reuse(notebook)
+    assert first.recomputed == 2
+    known = nb.pm.hook.masstrail_previous_results(root=nb.root, config=nb.config)
+    assert sorted(known) == ["a.md", "b.md"] and known["b.md"].product_g == 1.0
+    again = _reuse(notebook)
+    # DCM 10 mL × 1.3266 g/mL (FIELD.md) + 3.00 g (or 4.00 g) of A, for 1.00 g of product
+    assert [s.e_factor for s in again.summaries] == [pytest.approx(15.266), pytest.approx(16.266)]
+    assert again.recomputed == 0
+    a.write_text(ENTRY.replace("3.00 g", "3.50 g"))
+    (notebook.root / "b.waste.json").unlink()
+    assert [s.path for s in _reuse(notebook).summaries if s.recomputed] == ["a.md", "b.md"]
+    assert not (notebook.root / ".masstrail" / "records.db").exists()
 
 
 def test_a_scan_drops_rows_of_entries_that_are_gone_and_keeps_their_history(notebook):
@@ -286,7 +301,7 @@ def test_a_scan_drops_rows_of_entries_that_are_gone_and_keeps_their_history(note
 
 
 def test_batched_scan_writes_equal_one_by_one_writes(notebook, tmp_path, monkeypatch):
-    import masstrail_plugins.store as store_plugin
+    import masstrail_plugins.write.store_writer as store_plugin
 
     for i in range(7):
         notebook.write(f"e{i}.md", ENTRY.replace("3.00 g", f"3.{i}0 g"))
@@ -298,7 +313,7 @@ def test_batched_scan_writes_equal_one_by_one_writes(notebook, tmp_path, monkeyp
     from capture.store import write_results
 
     for f in nb.entry_files():
-        write_results(conn, [nb.process(f, write=False)], config=nb.config)
+        write_results(conn, [nb.process(f, write=False)])
     assert current_tables(conn) == batched and len(batched["entries"]) == 7
     assert store_plugin._pending == {}  # nothing left held after masstrail_scan_done
 
@@ -308,7 +323,7 @@ def test_held_results_reach_the_store_at_masstrail_flush_results(notebook):
     notebook.write("b.md", ENTRY.replace("3.00 g", "4.00 g"))
     nb = Notebook.open(notebook.root)
     for f in nb.entry_files():
-        nb.process(f, batch=True)  # as a scan's worker does: the store holds them
+        nb.write(nb.process(f, write=False), f, batch=True)  # as a scan's worker does
     assert _db(notebook).execute("SELECT COUNT(*) FROM entries").fetchone() == (0,)
     nb.pm.hook.masstrail_flush_results(root=nb.root, config=nb.config)
     rows = _db(notebook).execute("SELECT path, product_g FROM entries ORDER BY path").fetchall()
@@ -316,9 +331,10 @@ def test_held_results_reach_the_store_at_masstrail_flush_results(notebook):
 
 
 def test_an_entry_whose_stat_is_unchanged_is_not_read_again(notebook, monkeypatch):
-    import capture.pipeline as pipeline
+    import capture.fingerprint as fingerprint
+    import capture.run as run
 
-    monkeypatch.setattr(pipeline, "RACY_NS", 0)  # these files were written just now
+    monkeypatch.setattr(fingerprint, "RACY_NS", 0)  # these files were written just now
     a = notebook.write("a.md", ENTRY)
     notebook.write("b.md", ENTRY.replace("3.00 g", "4.00 g"))
     assert _reuse(notebook).recomputed == 2
@@ -326,8 +342,9 @@ def test_an_entry_whose_stat_is_unchanged_is_not_read_again(notebook, monkeypatc
     st = a.stat()
     assert stats["a.md"] == f"{st.st_mtime_ns}:{st.st_ctime_ns}:{st.st_ino}:{st.st_size}"
     reads = []
-    real = pipeline.read_bounded
-    monkeypatch.setattr(pipeline, "read_bounded", lambda p, *k: reads.append(p) or real(p, *k))
+    real = run.read_bounded
+    for module in (run, fingerprint):  # neither computed nor hashed
+        monkeypatch.setattr(module, "read_bounded", lambda p, *k: reads.append(p) or real(p, *k))
     assert _reuse(notebook).recomputed == 0 and reads == []
     a.write_text(ENTRY.replace("3.00 g", "3.50 g"))  # same size, a new stat
     again = _reuse(notebook)
@@ -337,14 +354,14 @@ def test_an_entry_whose_stat_is_unchanged_is_not_read_again(notebook, monkeypatc
 def test_a_file_changed_just_before_it_was_read_is_hashed_next_time(notebook, monkeypatch):
     """Racy files (as git calls them): a second same-size change within one time stamp
     tick of the read would leave the stat as it was, so no stat is kept for them."""
-    import capture.pipeline as pipeline
+    import capture.fingerprint as fingerprint
 
-    monkeypatch.setattr(pipeline, "RACY_NS", 60_000_000_000)  # "just before": within 60 s
+    monkeypatch.setattr(fingerprint, "RACY_NS", 60_000_000_000)  # "just before": within 60 s
     a = notebook.write("a.md", ENTRY)
     first = _reuse(notebook)
     assert first.recomputed == 1
     assert _db(notebook).execute("SELECT entry_stat FROM entries").fetchone() == (None,)
-    assert pipeline.file_stat(a) is None
+    assert fingerprint.file_stat(a) is None
     st = a.stat()
     a.write_text(ENTRY.replace("3.00 g", "3.50 g"))  # same size, and the old times put back
     os.utime(a, ns=(st.st_atime_ns, st.st_mtime_ns))
@@ -380,11 +397,11 @@ def test_an_old_store_gains_the_new_columns_and_keeps_its_history(tmp_path):
                 "VALUES ('a.md', 'a', 'ok', '0', 't', 'f')")  # fmt: skip
     assert previous_results(new) == {}
     new.execute("UPDATE entries SET gaps_blocking = 0, gaps_major = 2, gaps_minor = 1")
-    assert previous_results(new)["a.md"].summary().major == 2
+    assert previous_results(new)["a.md"].major == 2
 
 
 def test_a_scan_fsyncs_each_folder_once_and_the_watcher_path_every_time(notebook, monkeypatch):
-    import masstrail_plugins.sidecar as sidecar
+    import masstrail_plugins.write.sidecar as sidecar
 
     synced = []
     monkeypatch.setattr(sidecar, "sync_folder", synced.append)
@@ -408,7 +425,7 @@ def test_a_sidecar_that_could_not_be_written_stops_the_scan_before_the_store_rec
 ):
     """A scan's sidecars are written by a thread while it goes on; a failed write must
     surface, and the store must not say that an entry whose sidecar is missing is current."""
-    import masstrail_plugins.sidecar as sidecar
+    import masstrail_plugins.write.sidecar as sidecar
 
     real = sidecar.replace_atomically
 

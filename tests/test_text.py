@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from masstrail_plugins.text import extract
+from masstrail_plugins.extract.text import extract
 
 
 def _found(body: str):

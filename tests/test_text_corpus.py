@@ -10,8 +10,9 @@ from hypothesis import example, given
 from hypothesis import strategies as st
 
 from capture.quantities import parse_amount
-from masstrail_plugins.materials import builtin_data
-from masstrail_plugins.text import _clean_name, extract
+from masstrail_plugins.resolve.knowledge import builtin_data
+from masstrail_plugins.extract.text import extract
+from masstrail_plugins.prose import clean_name
 
 ITEMS = load(CORPUS)
 
@@ -125,7 +126,7 @@ _NAMES = sorted(
         n
         for rec in builtin_data().records
         for n in [rec["name"], *rec.get("synonyms", [])]
-        if _clean_name(n) == n
+        if clean_name(n) == n
         and "(" not in n
         and "%" not in n
         and " M " not in f" {n} "
@@ -158,7 +159,7 @@ def test_generated_phrases_come_back_exactly(name, number, unit, template):
 
 
 def _brackets() -> list[str]:
-    from masstrail_plugins.text import _DIGIT, _GROUP
+    from masstrail_plugins.extract.text import _DIGIT, _GROUP
 
     out = []
     for path in (CORPUS, HELD_OUT):
@@ -172,7 +173,7 @@ def _dump(groups) -> list:
 
 
 def test_the_shortcuts_agree_with_the_part_reader_on_the_corpora():
-    from masstrail_plugins.text import _MAYBE_AMOUNT, _plain_group, _read_parts
+    from masstrail_plugins.extract.text import _MAYBE_AMOUNT, _plain_group, _read_parts
 
     contents = _brackets()
     plain = skipped = 0
@@ -212,7 +213,7 @@ _PART = st.one_of(
 
 @given(st.lists(_PART, min_size=1, max_size=4), st.sampled_from([", ", "; ", ",", " , "]))
 def test_the_shortcuts_agree_with_the_part_reader_on_generated_brackets(parts, sep):
-    from masstrail_plugins.text import _MAYBE_AMOUNT, _plain_group, _read_parts
+    from masstrail_plugins.extract.text import _MAYBE_AMOUNT, _plain_group, _read_parts
 
     content = sep.join(parts)
     general = _read_parts(content, 0, "toluene", None)

@@ -229,7 +229,7 @@ def test_falls_back_to_polling_when_native_watching_cannot_start(notebook, monke
 
     import watchdog.observers
 
-    from capture.pipeline import Notebook
+    from capture.notebook import Notebook
     from capture.watch import Watcher
 
     class NoInotify:

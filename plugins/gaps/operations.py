@@ -31,7 +31,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, Gap, MaterialInfo, MaterialLine, ProductOut, RecordCheck
 from masstrail_plugins.gaps import allowances as al
-from masstrail_plugins.text import _CHARACTERISATION, _clean_name, _sentences
+from masstrail_plugins.prose import CHARACTERISATION, clean_name, operation_of, sentences
 
 LIQUID_CATEGORIES = {"solvent", "water", "aqueous"}
 
@@ -237,9 +237,6 @@ _LIST_LEAD = re.compile(r"^(?:successively|portions of|\d+\s+portions of|each)\s
 _TRAILING_JOIN = re.compile(r"(?:\s*,|\s+and|\s+then|\s+or)+\s*$", re.I)
 _TIMES = {"twice": 2, "two": 2, "three": 3, "thrice": 3, "four": 4, "2": 2, "3": 3, "4": 4}
 _TIMES_RE = re.compile(r"\b(twice|thrice|(two|three|four|[234])\s+(?:times|portions))\b", re.I)
-_OP_OF_VERB = {"wash": "wash", "rins": "wash", "extr": "extraction", "back": "extraction",
-               "quen": "quench", "dilu": "extraction", "part": "extraction",
-               "acid": "extraction", "basi": "extraction", "neut": "extraction"}  # fmt: skip
 
 
 def _names_in(rest: str) -> list[str]:
@@ -250,7 +247,7 @@ def _names_in(rest: str) -> list[str]:
     for piece in _LIST_SPLIT.split(head.strip().rstrip(".")):
         piece = _LIST_LEAD.sub("", piece.strip())
         piece = re.sub(r"\s+(?:twice|thrice|three times|two times|several times)$", "", piece)
-        name = _clean_name(piece) if piece else None
+        name = clean_name(piece) if piece else None
         if name:
             names.append(name)
     return names
@@ -260,7 +257,7 @@ def liquids(ctx: Context, text: str) -> list[RecordCheck]:
     """Each liquid a wash, extraction or quench uses needs its volume."""
     checks = []
     for m in _LIQUID_OP.finditer(text):
-        op = _OP_OF_VERB[m.group("verb").lower()[:4]]
+        op = operation_of(m.group("verb"))
         times = _TIMES_RE.search(text[m.start() : m.end() + 40])
         n = _TIMES.get((times.group(2) or times.group(1)).lower(), 1) if times else 1
         for name in _names_in(m.group("rest")):
@@ -452,7 +449,7 @@ def unquantified(ctx: Context, text: str) -> list[RecordCheck]:
     for m in _UNQUANTIFIED.finditer(text):
         q = m.group("q") or m.group("q2")
         raw = m.group("name") or m.group("name2")
-        name = _clean_name(raw) if raw else None
+        name = clean_name(raw) if raw else None
         if not name or ctx.recorded(name):
             continue
         grams, basis = _quantity_allowance(q, name, ctx)
@@ -478,9 +475,9 @@ def check_operations(
     ctx = Context(materials, product, resolve, config)
     checks: list[RecordCheck] = []
     seen: set[str] = set()
-    for _, sentence in _sentences(entry.body):
+    for _, sentence in sentences(entry.body):
         text = " ".join(sentence.split())
-        if text.startswith("|") or _CHARACTERISATION.search(text):
+        if text.startswith("|") or CHARACTERISATION.search(text):
             continue
         low = text.lower()
         for rule, words in _RULES:

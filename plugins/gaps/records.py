@@ -1,9 +1,10 @@
-"""Gaps in the records the core itself needs: the product and each material's mass.
+"""Gaps in the records every figure needs: the product and each material's mass.
 
 - ``product_mass_gaps``: no product mass (blocking), or one that cannot be read;
 - ``weighing_gaps``: a material with no amount, an amount that cannot be read, a
   volume with no density, moles or equivalents with no molar mass, equivalents
   with no limiting reagent; each with an allowance where one can be estimated;
+- ``recovered_gaps``: recovered material that cannot be weighed is not credited;
 - ``product_sanity_gaps``: a product heavier than all recorded inputs together
   (blocking: a record is wrong), a yield above 100 % (major).
 """
@@ -12,11 +13,10 @@ from __future__ import annotations
 
 import re
 
+from capture.chem import material_key
 from capture.config import LabConfig
-from capture.equation import reaction_figures
 from capture.hookspecs import hookimpl
-from capture.models import Entry, Gap, MaterialLine, ProductOut
-from capture.pipeline import choose_limiting
+from capture.models import Entry, Gap, MaterialLine, ProductOut, ReactionFigures, RecordCheck
 from masstrail_plugins.gaps import allowances as al
 
 
@@ -104,13 +104,22 @@ def _allowance(
 
 @hookimpl(specname="masstrail_find_gaps")
 def weighing_gaps(
-    materials: list[MaterialLine], product: ProductOut, config: LabConfig
+    materials: list[MaterialLine],
+    product: ProductOut,
+    checks: list[RecordCheck],
+    config: LabConfig,
 ) -> list[Gap]:
-    """Inputs that have no mass: no amount, an unreadable amount, no density, no molar mass."""
+    """Inputs that have no mass: no amount, an unreadable amount, no density, no molar mass.
+
+    An input that an operation's check already reports ("a crystal of DMAP") gets that
+    check's gap, which says more than "listed with no amount"."""
     scale = al.Scale.of(materials, product)
+    specific = {material_key(c.gap.item) for c in checks if c.gap is not None}
     gaps = []
     for line in materials:
         if line.mass_g is not None:
+            continue
+        if line.stated is None and material_key(line.name) in specific:
             continue
         where = line.evidence or f"{line.origin}: {line.name}: {line.stated or '(no amount)'}"
         if line.stated is None:
@@ -135,8 +144,24 @@ def weighing_gaps(
 
 
 @hookimpl(specname="masstrail_find_gaps")
+def recovered_gaps(recovered: list[MaterialLine]) -> list[Gap]:
+    """Recovered material without a mass is not credited against the waste."""
+    return [
+        Gap(kind=line.problem_kind or "unweighed", item=line.name, severity="minor",
+            evidence=f"recovered: {line.name}: {line.stated}",
+            message=(line.problem or "no mass") + "; it is not credited")
+        for line in recovered
+        if line.mass_g is None
+    ]  # fmt: skip
+
+
+@hookimpl(specname="masstrail_find_gaps")
 def product_sanity_gaps(
-    entry: Entry, materials: list[MaterialLine], product: ProductOut, resolve
+    entry: Entry,
+    materials: list[MaterialLine],
+    product: ProductOut,
+    limiting: MaterialLine | None,
+    reaction: ReactionFigures | None,
 ) -> list[Gap]:
     """A product heavier than every recorded input together, or a yield above 100 %."""
     if product.mass_g is None:
@@ -158,17 +183,13 @@ def product_sanity_gaps(
         )
     y, basis = None, ""
     if entry.equation:
-        try:
-            fig = reaction_figures(entry.equation, materials, product, resolve)
-        except ValueError:
-            fig = None  # the reaction metrics say why
-        if fig is not None and fig.yield_ is not None:
+        fig = reaction
+        if fig is not None and fig.yield_ is not None:  # else the reaction metrics say why
             y = fig.yield_
             basis = (f"{product.mass_g:g} g of product against {fig.theoretical_yield_g:.4g} g "
                      f"theoretical from {fig.limiting} (the entry's equation)")  # fmt: skip
     else:
-        limiting = choose_limiting(materials)
-        if limiting is not None and product.molar_mass:
+        if limiting is not None and limiting.moles_mmol and product.molar_mass:
             product_mmol = product.mass_g / product.molar_mass * 1000
             y = product_mmol / limiting.moles_mmol
             basis = (f"{product_mmol:.4g} mmol of product from {limiting.moles_mmol:g} mmol of "

@@ -13,8 +13,9 @@ from pathlib import Path
 
 from capture.chem import material_key
 from capture.config import LabConfig
-from capture.pipeline import Notebook, scan
-from masstrail_plugins.materials import resolve_builtin
+from capture.notebook import Notebook
+from capture.scan import scan
+from masstrail_plugins.resolve.materials import resolve_builtin
 
 CORPUS = Path(__file__).with_name("gap_paragraphs.txt")
 HELD_OUT = Path(__file__).with_name("gap_held_out.txt")

@@ -12,7 +12,7 @@ from pathlib import Path
 
 from capture.chem import material_key
 from capture.quantities import parse_amount
-from masstrail_plugins.text import extract
+from masstrail_plugins.extract.text import extract
 
 CORPUS = Path(__file__).with_name("procedure_sentences.txt")
 HELD_OUT = Path(__file__).with_name("held_out_sentences.txt")

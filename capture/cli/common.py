@@ -1,0 +1,120 @@
+"""What the commands share: the command group, exit codes, opening a notebook, formatting.
+
+Heavy imports happen inside the commands, so that ``masstrail --help`` is quick.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import click
+
+from capture import __version__
+
+EXIT_FINDINGS = 1
+EXIT_USAGE = 2
+TABLE_ROWS = 200  # above this many entries, the scan table lists only those needing action
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, prog_name="masstrail")
+def cli() -> None:
+    """masstrail: waste records and mass metrics (E-factor, PMI) next to each notebook entry."""
+
+
+def fail(message: str) -> None:
+    """Say what is wrong and exit 2 (usage or configuration)."""
+    click.echo(f"masstrail: {message}", err=True)
+    sys.exit(EXIT_USAGE)
+
+
+def open_notebook(path: Path):
+    """The notebook at ``path``; configuration and plugin errors exit 2 with their message."""
+    from capture.config import ConfigError
+    from capture.notebook import Notebook
+    from capture.plugin_manager import PluginError
+
+    try:
+        return Notebook.open(path)
+    except ConfigError as exc:
+        fail(f"configuration error:\n{exc}")
+    except PluginError as exc:
+        fail(str(exc))
+
+
+def notebook_of(entry: Path):
+    """The notebook an entry belongs to: the nearest folder above it that holds a
+    masstrail.toml, else the entry's own folder."""
+    from capture.config import CONFIG_NAME
+
+    entry = entry.resolve()
+    root = next((folder for folder in [entry.parent, *entry.parent.parents]
+                 if (folder / CONFIG_NAME).is_file()), entry.parent)  # fmt: skip
+    return open_notebook(root)
+
+
+def num(x: float | None, spec: str = ".3g") -> str:
+    """A figure for a table: '—' for none, thousands separated above 1000."""
+    if x is None:
+        return "—"
+    if abs(x) >= 1000:
+        return f"{x:,.0f}"  # 16,043 g, not 1.6e+04 g
+    return format(x, spec)
+
+
+def esc(text: str) -> str:
+    """Text from entries and plugins, escaped so rich shows [brackets] as written."""
+    from rich.markup import escape
+
+    return escape(text)
+
+
+def console():
+    from rich.console import Console
+
+    return Console(highlight=False)
+
+
+def entry_filters(fn):
+    """The entry filters that gaps and report share: --author, --group, --project, --since,
+    --until."""
+    for option in reversed((
+        click.option("--author", help="Only entries by this author."),
+        click.option("--group", "group_", help="Only entries of this group."),
+        click.option("--project", help="Only entries of this project."),
+        click.option("--since", help="Only entries dated on or after YYYY-MM-DD."),
+        click.option("--until", help="Only entries dated on or before YYYY-MM-DD."),
+    )):  # fmt: skip
+        fn = option(fn)
+    return fn
+
+
+def gap_filter(author, group_, project, since, until, severity: str = "minor"):
+    """The filter the entry-filter options describe."""
+    from capture.views.filters import GapFilter
+
+    return GapFilter(author=author, group=group_, project=project, severity=severity,
+                     since=_date(since, "--since"), until=_date(until, "--until"))  # fmt: skip
+
+
+def _date(value: str | None, option: str):
+    import datetime as dt
+
+    if value is None:
+        return None
+    try:
+        return dt.date.fromisoformat(value)
+    except ValueError:
+        raise click.BadParameter(
+            f"{value!r} is not a date; write YYYY-MM-DD", param_hint=option
+        ) from None
+
+
+def jobs_option(fn):
+    """--jobs, for the commands that scan (0: :func:`capture.scan.default_jobs`)."""
+    return click.option(
+        "--jobs", type=click.IntRange(min=0), default=0, show_default=True,
+        help="Worker processes for the computing (0: one per core and one more, as each waits "
+        "for its writes part of the time; at most 8; 1: none). The results are the same "
+        "either way.")(fn)  # fmt: skip

@@ -1,0 +1,156 @@
+"""``masstrail gaps PATH`` and ``masstrail audit PATH``: what the records lack."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import click
+
+from capture.cli.common import (
+    EXIT_FINDINGS,
+    cli,
+    console,
+    entry_filters,
+    esc,
+    fail,
+    gap_filter,
+    num,
+    open_notebook,
+)
+
+
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@entry_filters
+@click.option(
+    "--severity",
+    type=click.Choice(["blocking", "major", "minor"]),
+    default="minor",
+    show_default=True,
+    help="Show gaps of this severity or worse.",
+)
+@click.option(
+    "--by",
+    type=click.Choice(["author", "group", "project"]),
+    help="Count gaps per author, group or project.",
+)
+@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
+@click.option(
+    "--late",
+    is_flag=True,
+    help="Also flag amounts first recorded long after the experiment date "
+    "(the store's history; [store] late_record_days).",
+)
+@click.option(
+    "--csv",
+    "csv_file",
+    type=click.Path(dir_okay=False, allow_dash=True),
+    help="Write the gaps as CSV to FILE ('-' for standard output).",
+)
+def gaps(path, author, group_, project, since, until, severity, by, as_json, late, csv_file):
+    """List the entries under PATH that lack records, with what is missing.
+
+    Exits 1 when any blocking gap is listed, so a scheduled job can alert.
+    Nothing is written next to the entries.
+    """
+    from capture.views.gaplist import gap_list, rows_to_csv, summarise
+
+    flt = gap_filter(author, group_, project, since, until, severity)
+    rows, results = gap_list(open_notebook(path), flt, late=late)
+    if csv_file:
+        text = rows_to_csv(rows)
+        if csv_file == "-":
+            click.echo(text, nl=False)
+        else:
+            Path(csv_file).write_text(text, encoding="utf-8")
+    if by:
+        summary = summarise(results, flt, by)
+        if as_json:
+            click.echo(json.dumps([s.model_dump() for s in summary], indent=2))
+        elif csv_file != "-":
+            _print_summary(by, summary)
+    elif as_json:
+        click.echo(json.dumps([r.model_dump() for r in rows], indent=2))
+    elif csv_file != "-":
+        _print_rows(path, rows)
+    if any(r.severity == "blocking" for r in rows):
+        sys.exit(EXIT_FINDINGS)
+
+
+def _print_summary(by: str, summary) -> None:
+    from rich.table import Table
+
+    t = Table(title=f"record gaps by {by}", title_justify="left")
+    for col in (by, "entries", "with gaps", "blocking", "major", "minor", "allowance g"):
+        t.add_column(col, justify="left" if col == by else "right")
+    for s in summary:
+        t.add_row(esc(s.key), str(s.entries), str(s.entries_with_gaps), str(s.blocking),
+                  str(s.major), str(s.minor), num(s.allowance_g, ".4g"))  # fmt: skip
+    console().print(t)
+
+
+def _print_rows(path: Path, rows) -> None:
+    from rich.table import Table
+
+    from capture.run import CAUTION
+
+    t = Table(title=f"record gaps under {path}", title_justify="left")
+    for col in ("entry", "author", "severity", "missing", "about", "what to do"):
+        t.add_column(col, overflow="fold", justify="right" if col == "about" else "left")
+    for r in rows:
+        t.add_row(esc(r.entry), esc(r.author or "—"), r.severity, esc(f"{r.item} ({r.kind})"),
+                  f"{num(r.allowance_g, '.3g')} g" if r.allowance_g else "?",
+                  esc(r.message))  # fmt: skip
+    out = console()
+    out.print(t)
+    entries = len({r.entry for r in rows})
+    out.print(f"{len(rows)} gap(s) in {entries} entr{'y' if entries == 1 else 'ies'}. "
+              "'about' is an estimate of the missing mass, not a record.")  # fmt: skip
+    out.print(f"[dim]{esc(CAUTION)}[/dim]")
+
+
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.option("--group", "group_", required=True, help="The group (front-matter 'group') to audit.")
+@click.option(
+    "--markdown",
+    "markdown_file",
+    type=click.Path(dir_okay=False),
+    help="Also write the audit as a Markdown handout to FILE.",
+)
+def audit(path, group_, markdown_file):
+    """Audit the records of one group: a checklist per entry, completeness, what to record next.
+
+    For teaching labs: each entry shows the operations found with ✓ recorded or
+    ✗ missing, its completeness (recorded mass ÷ recorded + estimated missing
+    mass), and the three records most worth taking next time.
+    """
+    from capture.run import CAUTION
+    from capture.views.audit import audit_markdown, audit_notebook
+
+    report = audit_notebook(open_notebook(path), group_)
+    if not report.entries:
+        fail(f"no entries of group {group_!r} under {path}")
+    out = console()
+    med = report.median_completeness
+    pct = num(med * 100 if med is not None else None, ".1f")
+    out.print(f"[bold]Record audit: {esc(report.group)}[/bold] — {len(report.entries)} entries, "
+              f"median completeness {pct}%")  # fmt: skip
+    for e in report.entries:
+        comp = num(e.completeness * 100 if e.completeness is not None else None, ".1f")
+        heading = f"[bold]{esc(e.title or e.entry)}[/bold] ({esc(e.entry)})"
+        out.print(f"\n{heading}, completeness {comp}%")
+        for c in e.checklist:
+            mark = "[green]✓[/green]" if c.recorded else "[red]✗[/red]"
+            out.print(f"  {mark} {esc(c.operation)}: {esc(c.needs)} — {esc(c.item)}")
+        for n, line in enumerate(e.next_time, 1):
+            out.print(f"  next time {n}. {esc(line)}")
+    if report.most_missed:
+        out.print("\nMost often missing: "
+                  + "; ".join(f"{esc(w)} ({n})" for w, n in report.most_missed))  # fmt: skip
+    if markdown_file:
+        Path(markdown_file).write_text(audit_markdown(report, CAUTION), encoding="utf-8")
+        out.print(f"Markdown handout written to {esc(markdown_file)}")
+    out.print(f"[dim]{esc(CAUTION)}[/dim]")

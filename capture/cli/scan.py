@@ -1,0 +1,140 @@
+"""``masstrail scan PATH``: every entry's results, and a table of what needs action."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import click
+
+from capture.cli.common import (
+    EXIT_FINDINGS,
+    TABLE_ROWS,
+    cli,
+    console,
+    esc,
+    jobs_option,
+    num,
+    open_notebook,
+)
+
+
+@cli.command()
+@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.option(
+    "--json", "as_json", is_flag=True, help="Print one JSON object per entry instead of a table."
+)
+@click.option(
+    "--fail-on",
+    type=click.Choice(["blocking", "major"]),
+    help="Exit 1 when a gap of this severity (or worse) is found; for scheduled checks.",
+)
+@click.option(
+    "--recompute",
+    is_flag=True,
+    help="Compute every entry again, even those unchanged since the last scan.",
+)
+@jobs_option
+def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: int) -> None:
+    """Process every entry under PATH and write NAME.waste.json next to each.
+
+    Entries unchanged since the last scan (the same text, balance logs, lab
+    config and masstrail version, as the store remembers them) are not computed
+    again. Prints a summary table: product mass, E-factor, PMI and the record
+    gaps of each entry (above 200 entries, only those with a blocking gap or an
+    error). Exits 0 when the scan completed, whatever it found.
+    """
+    from capture.scan import default_jobs
+    from capture.scan import scan as run_scan
+
+    nb = open_notebook(path)
+    files = nb.entry_files()
+    bar = None
+    if not as_json and len(files) > 50 and sys.stderr.isatty():
+        from rich.progress import Progress
+
+        bar = Progress(transient=True)
+        task = bar.add_task("scanning", total=len(files))
+        bar.start()
+    try:
+        report = run_scan(nb, progress=(lambda *_: bar.advance(task)) if bar else None,
+                          files=files, reuse=not recompute, keep=False,
+                          jobs=jobs or default_jobs())  # fmt: skip
+    finally:
+        if bar is not None:
+            bar.stop()
+    if as_json:
+        _print_json(nb, report)
+    else:
+        _print_table(path, report)
+    if fail_on:
+        worst = report.count("blocking") + (report.count("major") if fail_on == "major" else 0)
+        if worst:
+            sys.exit(EXIT_FINDINGS)
+
+
+def _print_json(nb, report) -> None:
+    from capture.paths import sidecar_path
+
+    for s in report.summaries:
+        side = sidecar_path(nb.root / s.path)
+        try:  # the full metrics are in the sidecar, just written or still current
+            metrics = json.loads(side.read_text(encoding="utf-8")).get("metrics")
+        except (OSError, ValueError):
+            metrics = None
+        click.echo(json.dumps({
+            "entry": s.path,
+            "status": s.status,
+            "error": {"message": s.error, "location": s.location} if s.error else None,
+            "sidecar": side.relative_to(nb.root).as_posix(),
+            "product_g": s.product_g,
+            "metrics": metrics,
+            "gaps": {"blocking": s.blocking, "major": s.major, "minor": s.minor},
+            "recomputed": s.recomputed,
+        }, sort_keys=True))  # fmt: skip
+
+
+def _print_table(path: Path, report) -> None:
+    from rich.table import Table
+
+    from capture.run import CAUTION
+
+    out = console()
+    rows = report.summaries
+    title = f"masstrail scan of {path}"
+    if len(rows) > TABLE_ROWS:
+        rows = [s for s in rows if s.status == "error" or s.blocking]
+        title += f": the {len(rows)} entries with a blocking gap or an error"
+        if len(rows) > TABLE_ROWS:
+            title += f" (the first {TABLE_ROWS} shown; masstrail gaps lists them all)"
+            rows = rows[:TABLE_ROWS]
+    table = Table(title=title, title_justify="left")
+    table.add_column("entry", overflow="fold",
+                     min_width=min(24, max([len(s.path) for s in rows] or [5])))  # fmt: skip
+    for col in ("product g", "E-factor", "PMI"):
+        table.add_column(col, justify="right", no_wrap=True)
+    table.add_column("record gaps")
+    for s in rows:
+        if s.status == "error":
+            table.add_row(esc(s.path), "", "", "", "[red]could not be read[/red]")
+            continue
+        counts = [("blocking", s.blocking), ("major", s.major), ("minor", s.minor)]
+        gaps = ", ".join(f"{n} {sev}" for sev, n in counts if n) or "none"
+        if s.blocking:
+            gaps = f"[red]{gaps}[/red]"
+        table.add_row(esc(s.path), num(s.product_g, ".4g"), num(s.e_factor), num(s.pmi), gaps)
+    out.print(table)
+    n = len(report.summaries)
+    unchanged = n - report.recomputed
+    out.print(
+        f"{n} entr{'y' if n == 1 else 'ies'}"
+        + (f" ({unchanged} unchanged since the last scan)" if unchanged else "")
+        + f", {len(report.written)} result file(s) written, "
+        f"{len(report.errors)} could not be read. Details: masstrail show ENTRY"
+        + ("; every entry: masstrail report or masstrail export." if len(rows) < n else ".")
+    )
+    for s in report.errors[:TABLE_ROWS]:
+        where = f" ({s.location})" if s.location else ""
+        out.print(f"[red]{esc(s.path + where)}:[/red] {esc(s.error or '')}")
+    out.print(f"[dim]{esc(CAUTION)}[/dim]")

@@ -1,0 +1,42 @@
+"""Which entries and gaps a view covers: the filters that gaps, report and export share."""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import Literal
+
+from pydantic import BaseModel
+
+from capture.models import Result
+
+GroupKey = Literal["author", "group", "project"]
+
+
+class GapFilter(BaseModel):
+    """Which entries and gaps a report covers; None means any."""
+
+    author: str | None = None
+    group: str | None = None
+    project: str | None = None
+    since: dt.date | None = None
+    until: dt.date | None = None
+    severity: Literal["blocking", "major", "minor"] = "minor"
+
+    def keeps(self, r: Result) -> bool:
+        """True when the entry ``r`` belongs in the report."""
+        return self.keeps_meta(r.meta)
+
+    def keeps_meta(self, meta: dict) -> bool:
+        """True when an entry with this ``meta`` (title, author, group, project, date)
+        belongs in the report."""
+        for key in ("author", "group", "project"):
+            want = getattr(self, key)
+            if want is not None and (meta.get(key) or "").casefold() != want.casefold():
+                return False
+        if self.since or self.until:
+            if not meta.get("date"):
+                return False
+            day = dt.date.fromisoformat(meta["date"])
+            if (self.since and day < self.since) or (self.until and day > self.until):
+                return False
+        return True

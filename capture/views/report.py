@@ -1,0 +1,194 @@
+"""The lab manager's report: one self-contained HTML file (no network, no CDN).
+
+Sections: the lab overview (entries, median E-factor and PMI by group, project and
+month; waste by stream; the largest contributors), gaps by author and group, and
+a card per entry with its waste breakdown. Charts are drawn by matplotlib and
+inlined as SVG. Filters (group, project, author, date range) are those of
+:class:`capture.views.filters.GapFilter`.
+"""
+
+from __future__ import annotations
+
+import heapq
+import json
+import statistics
+from collections import Counter
+from collections.abc import Iterable
+from typing import TYPE_CHECKING
+
+from capture.models import SEVERITY_RANK, Result
+from capture.views.charts import CardChart, bar_chart
+from capture.views.filters import GapFilter
+from capture.views.gaplist import GroupSummary
+
+if TYPE_CHECKING:
+    from capture.notebook import Notebook
+
+
+_ZERO = {"entries": 0, "with_gaps": 0, "blocking": 0, "major": 0, "minor": 0, "allowance_g": 0.0}
+
+
+def _median(values: list[float]) -> float | None:
+    return round(statistics.median(values), 3) if values else None
+
+
+def build(
+    results: Iterable[dict | Result], flt: GapFilter, caution: str, title: str, cards: int = 100
+) -> str:
+    """The report's HTML text: :func:`figures` rendered with the report template."""
+    import jinja2
+
+    env = jinja2.Environment(
+        loader=jinja2.PackageLoader("capture", "templates"),
+        autoescape=jinja2.select_autoescape(["html", "j2"]),
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
+    ctx = figures(results, flt, cards)
+    return env.get_template("report.html.j2").render(title=title, caution=caution, **ctx)
+
+
+class _Tally:
+    """The report's figures, added up one entry at a time (a report over 100,000 entries
+    holds their figures, not their results)."""
+
+    def __init__(self, flt: GapFilter, cards: int) -> None:
+        self.flt, self.cards = flt, cards
+        self.n_kept = self.n_errors = 0
+        self.e_all: list[float] = []
+        self.pmi_all: list[float] = []
+        self.by: dict[str, dict[str, list]] = {"group": {}, "project": {}, "month": {}}
+        self.streams: Counter[str] = Counter()
+        self.contributors: Counter[str] = Counter()
+        self.gap_sums: dict[str, dict[str, dict]] = {"author": {}, "group": {}}
+        self.heap: list[tuple] = []  # the `cards` entries most in need: (rank key, n, result)
+        self.errors: list[dict] = []
+
+    def add(self, n: int, r: dict) -> None:
+        meta = r.get("meta") or {}
+        if not self.flt.keeps_meta(meta):
+            return
+        self.n_kept += 1
+        gaps = r.get("gaps") or []
+        if r.get("status") == "error":
+            self.n_errors += 1
+            if len(self.errors) < 1000:
+                self.errors.append(r)
+            rows = [("blocking", 0.0)]  # an unreadable entry counts as one blocking gap
+        else:
+            self._figures(r, meta)
+            wanted = SEVERITY_RANK[self.flt.severity]
+            rows = [(g["severity"], g.get("allowance_g") or 0.0) for g in gaps
+                    if SEVERITY_RANK[g["severity"]] <= wanted]  # fmt: skip
+        for label in ("author", "group"):
+            cell = self.gap_sums[label].setdefault(meta.get(label) or "(none)", dict(_ZERO))
+            cell["entries"] += 1
+            cell["with_gaps"] += bool(rows)
+            for severity, allowance in rows:
+                cell[severity] += 1
+                cell["allowance_g"] += allowance
+        if r.get("status") == "ok":
+            count = Counter(g["severity"] for g in gaps)
+            key = (count["blocking"], count["major"], count["minor"], meta.get("date") or "", -n)
+            if len(self.heap) < self.cards:
+                heapq.heappush(self.heap, (key, n, r))
+            elif key > self.heap[0][0]:
+                heapq.heapreplace(self.heap, (key, n, r))
+
+    def _figures(self, r: dict, meta: dict) -> None:
+        m = r.get("metrics") or {}
+        e, pmi = m.get("e_factor"), m.get("pmi")
+        self.e_all += [e] if e is not None else []
+        self.pmi_all += [pmi] if pmi is not None else []
+        month = (meta.get("date") or "")[:7] or None
+        for label, key in (("group", meta.get("group")), ("project", meta.get("project")),
+                           ("month", month)):  # fmt: skip
+            cell = self.by[label].setdefault(key or "(none)", [0, [], []])
+            cell[0] += 1
+            if e is not None:
+                cell[1].append(e)
+            if pmi is not None:
+                cell[2].append(pmi)
+        self.streams.update((r.get("waste") or {}).get("streams") or {})
+        for x in r.get("materials") or []:
+            if x.get("mass_g"):
+                self.contributors[x.get("resolved") or x["name"]] += x["mass_g"]
+
+    def cards_drawn(self) -> list[dict]:
+        n_ok = self.n_kept - self.n_errors
+        chosen = [r for _, _, r in sorted(self.heap, reverse=True)] if n_ok > self.cards else \
+            [r for _, _, r in sorted(self.heap, key=lambda t: t[1])]  # fmt: skip
+        chart = CardChart()
+        try:
+            return [{"r": r, "chart": chart.draw(cats) if cats else ""}
+                    for r in chosen
+                    for cats in [(r.get("breakdown") or {}).get("by_category") or {}]]  # fmt: skip
+        finally:
+            chart.close()
+
+    def table(self, label: str) -> list[tuple[str, int, float | None, float | None]]:
+        return [(k, c[0], _median(c[1]), _median(c[2])) for k, c in sorted(self.by[label].items())]
+
+    def gap_table(self, label: str) -> list[GroupSummary]:
+        return [
+            GroupSummary(key=k, entries=c["entries"], entries_with_gaps=c["with_gaps"],
+                         blocking=c["blocking"], major=c["major"], minor=c["minor"],
+                         allowance_g=round(c["allowance_g"], 4))
+            for k, c in sorted(self.gap_sums[label].items())
+        ]  # fmt: skip
+
+
+def figures(results: Iterable[dict | Result], flt: GapFilter, cards: int = 100) -> dict:
+    """Every figure of the report, from results given one at a time (sidecar dicts as read from
+    ``NAME.waste.json``, or :class:`Result` objects), kept no longer than needed.
+
+    Every section covers every entry the filter keeps; cards (with their waste-breakdown
+    chart) are drawn for at most ``cards`` entries: all of them when there are no more,
+    else those with the most serious gaps first (then the newest).
+    """
+    t = _Tally(flt, cards)
+    for n, r in enumerate(results):
+        t.add(n, json.loads(r.sidecar_json()) if isinstance(r, Result) else r)
+    streams, top = t.streams.most_common(), t.contributors.most_common(10)
+    return dict(
+        flt=flt,
+        n_entries=t.n_kept,
+        n_errors=t.n_errors,
+        n_ok=t.n_kept - t.n_errors,
+        medians={"e_factor": _median(t.e_all), "pmi": _median(t.pmi_all)},
+        by_group=t.table("group"),
+        by_project=t.table("project"),
+        by_month=t.table("month"),
+        streams=sorted(t.streams.items(), key=lambda kv: -kv[1]),
+        stream_chart=bar_chart([k for k, _ in streams], [v for _, v in streams], "waste, g")
+        if streams else "",
+        top=top,
+        top_chart=bar_chart([k for k, _ in top], [v for _, v in top], "input mass, g")
+        if top else "",
+        gaps_by_author=t.gap_table("author"),
+        gaps_by_group=t.gap_table("group"),
+        cards=t.cards_drawn(),
+        errors=t.errors,
+    )  # fmt: skip
+
+
+def lab_report(nb: Notebook, flt: GapFilter, title: str, cards: int = 100,
+               jobs: int = 1) -> tuple[str, int]:  # fmt: skip
+    """The notebook's report as HTML, and how many entries it covers. Entries changed since
+    the last scan are computed (and written) first; the figures come from the sidecars."""
+    from capture.paths import sidecar_path
+    from capture.run import CAUTION
+    from capture.scan import scan
+
+    done = scan(nb, reuse=True, keep=False, jobs=jobs)
+
+    def sidecars():
+        for s in done.summaries:
+            try:
+                yield json.loads(sidecar_path(nb.root / s.path).read_text(encoding="utf-8"))
+            except (OSError, ValueError):  # gone or damaged since the scan: say so in the report
+                why = s.error or "its result file could not be read"
+                yield {"status": "error", "entry": {"path": s.path, "id": s.path}, "meta": {},
+                       "error": {"message": why}}  # fmt: skip
+
+    return build(sidecars(), flt, CAUTION, title, cards=cards), len(done.summaries)

@@ -1,0 +1,226 @@
+"""Reading procedure prose: the helpers and the one operation vocabulary that the text
+reader (``extract/text.py``) and the gap rules (``gaps/operations.py``) share.
+
+- :func:`sentences` splits a procedure into sentences (not at ``sat. aq.`` or ``ca.``);
+- :func:`clean_name` takes the material name out of a phrase, without grades and
+  descriptions, or says it is none (equipment, intermediates, operations);
+- :data:`CHARACTERISATION` recognises characterisation data (NMR, MS, IR, mp, Rf);
+- the vocabulary: :data:`OPERATION_STEMS` (word stem → operation), :data:`OPERATION_STAGE`
+  (operation → stage), :data:`ROLE_STAGE` and :data:`CATEGORY_STAGE` (a material's role or
+  category → stage), and :func:`operation_of` for one word.
+
+A public module, not a plugin: it implements no hook.
+"""
+
+from __future__ import annotations
+
+import functools
+import re
+
+from capture.models import Stage
+
+# ---------------------------------------------------------------------- the vocabulary
+# the stage each operation belongs to
+OPERATION_STAGE: dict[str, Stage] = {
+    "reaction": "reaction",
+    "quench": "workup",
+    "extraction": "workup",
+    "wash": "workup",
+    "drying": "workup",
+    "filtration": "workup",
+    "chromatography": "purification",
+    "recrystallisation": "purification",
+    "trituration": "purification",
+    "distillation": "purification",
+}
+
+# operation word stems → operation; a word names the operation when it starts with the stem
+OPERATION_STEMS: dict[str, str] = {
+    "chromatograph": "chromatography",
+    "column": "chromatography",
+    "elut": "chromatography",
+    "eluent": "chromatography",
+    "flash": "chromatography",
+    "recrystalli": "recrystallisation",
+    "crystalli": "recrystallisation",
+    "triturat": "trituration",
+    "distil": "distillation",
+    "quench": "quench",
+    "extract": "extraction",
+    "partition": "extraction",
+    "wash": "wash",
+    "rins": "wash",
+    "dried": "drying",
+    "drying": "drying",
+    "filt": "filtration",
+    "celite": "filtration",
+    "suction": "filtration",
+    "dilut": "extraction",
+    "poured": "extraction",
+    "separat": "extraction",
+    "acidif": "extraction",
+    "basif": "extraction",
+    "neutrali": "extraction",
+}
+_STEMS_LONGEST_FIRST = sorted(OPERATION_STEMS, key=len, reverse=True)
+
+
+def operation_of(word: str) -> str | None:
+    """The operation a word names (``washed`` → wash, ``back-extracted`` → extraction)."""
+    low = word.lower()
+    tail = low.split("-", 1)[1] if "-" in low else ""
+    for stem in _STEMS_LONGEST_FIRST:
+        if low.startswith(stem) or tail.startswith(stem):
+            return OPERATION_STEMS[stem]
+    return None
+
+
+# a material's role (front matter, tables) → the stage it belongs to
+ROLE_STAGE: dict[Stage, set[str]] = {
+    "reaction": {"reactant", "limiting reagent", "limiting reactant", "limiting", "reagent",
+                 "catalyst", "ligand", "solvent", "additive", "starting material", "substrate",
+                 "base", "acid", "reaction solvent"},
+    "workup": {"workup", "work-up", "quench", "extraction", "extraction solvent", "wash",
+               "drying", "drying agent", "filtration", "filter aid", "filter medium"},
+    "purification": {"purification", "chromatography", "eluent", "stationary phase",
+                     "recrystallisation", "recrystallization", "trituration", "distillation",
+                     "crystallisation", "crystallization", "antisolvent", "anti-solvent"},
+}  # fmt: skip
+# a material's category → its stage, when its role does not say
+CATEGORY_STAGE: dict[str, Stage] = {
+    "drying agent": "workup",
+    "aqueous": "workup",
+    "filter aid": "workup",
+    "filter medium": "workup",
+    "sorbent": "purification",
+}
+LIMITING_ROLES = {"limiting reagent", "limiting reactant", "limiting"}
+REACTANT_ROLES = {"reactant", "starting material", "substrate"}
+
+
+def stage_of_role(role: str | None) -> Stage | None:
+    """The stage a role names (``eluent`` → purification), or None."""
+    if role:
+        low = role.strip().casefold()
+        for stage, roles in ROLE_STAGE.items():
+            if low in roles:
+                return stage
+    return None
+
+
+# ---------------------------------------------------------------------- sentences
+# a sentence ends at the space after . ! or ? before a capital, a digit or a bracket; at a
+# blank line; or before a list item ("- ", "* ", "3. ") (the group marks where the space starts)
+_SENTENCE_END = re.compile(r"[.!?](\s+)(?=[A-Z0-9(\[])|\n\s*\n|\n(?=\s*(?:[-*] |\d+\.\s))")
+
+# words that end in a full stop without ending the sentence
+_ABBREVIATIONS = {"sat.", "satd.", "aq.", "ca.", "approx.", "conc.", "dil.", "e.g.", "i.e.",
+                  "equiv.", "eq.", "min.", "max.", "no.", "fig.", "vs.", "anh.", "abs.", "temp.",
+                  "soln.", "vol.", "wt.", "c.", "resp.", "cf.", "ref.", "mp.", "bp.", "m.p.",
+                  "b.p.", "rt.", "st.", "approx", "ca", "et al.", "al."}  # fmt: skip
+
+_NUMBERED = re.compile(r"\d+\.")
+
+
+@functools.lru_cache(maxsize=8)  # the amount reader and the gap rules split the same body
+def sentences(body: str) -> tuple[tuple[int, str], ...]:
+    """(offset, text) of each sentence of ``body`` (a shared answer: do not change it)."""
+    out, start = [], 0
+    for m in _SENTENCE_END.finditer(body):
+        end = m.start(1) if m.group(1) is not None else m.start()
+        if "\n\n" not in m.group(0):
+            words = body[max(start, end - 16) : end].split()
+            last_word = words[-1].casefold().lstrip("([") if words else ""
+            if last_word in _ABBREVIATIONS or _NUMBERED.fullmatch(last_word):
+                continue
+        out.append((start, body[start:end]))
+        start = m.end()
+    out.append((start, body[start:]))
+    return tuple((s, t) for s, t in out if t.strip())
+
+
+# ---------------------------------------------------------------------- characterisation
+CHAR_HINTS = ("NMR", "δ", "m/z", "HRMS", "LRMS", "ESI", "IR", "cm", "mp", "m.p", "Rf", "RF",
+               "b.p", "bp", "[α]")  # fmt: skip
+
+CHAR_HINT = re.compile("|".join(map(re.escape, CHAR_HINTS)))
+
+CHARACTERISATION = re.compile(
+    r"\b(1H|13C|19F|31P|11B)\s*NMR\b|\bNMR\s*\(|δ|\bm/z\b|\bHRMS\b|\bLRMS\b|\bESI\b|^\s*IR\b|"
+    r"cm[-−]1|\bm\.?p\.?\s*\d|\bmp\b|\bR[fF]\s*[=\d(]|\bb\.?p\.?\s*\d|\[α\]",
+)
+
+
+# ---------------------------------------------------------------------- names
+_LEADING = re.compile(
+    r"^(?:a|an|the|to|then|next|finally|additional|more|fresh|further|dry|anhydrous|"
+    r"freshly\s+distilled|degassed|distilled|cold|ice-cold|hot|warm|chilled|solid|neat|"
+    r"another|excess|wet|little|small\s+amount\s+of|catalyst|reagent|ligand|"
+    r"portions?\s+of)\s+",
+    re.I,
+)
+
+# a name with one of these words is never an input: equipment, intermediates, outputs
+_NOT_MATERIAL = {"vial", "vials", "flask", "flasks", "tube", "tubes", "schlenk", "beaker",
+                 "beakers", "funnel", "funnels", "syringe", "syringes", "cylinder", "cylinders",
+                 "vessel", "vessels", "reactor", "reactors", "bottle", "bottles", "ampoule",
+                 "ampoules", "jar", "jars", "cartridge", "cartridges", "crude", "residue",
+                 "filtrate", "filtrates", "layer", "layers", "phase", "phases", "extract",
+                 "extracts", "combined", "aliquot", "aliquots", "sample", "samples", "bath",
+                 "condenser", "concentrate", "eluate", "fraction", "fractions", "liquor",
+                 "liquors", "supernatant", "product", "compound", "total", "volume", "yield",
+                 "sealed", "dried", "portion", "portions", "washing", "washings"}  # fmt: skip
+
+# words that describe a material's form, not which material it is; dropped from names
+_GENERIC = {"mixture", "solution", "suspension", "slurry", "solid", "oil", "foam", "gum",
+            "material", "precipitate", "reaction", "batch", "white", "yellow", "colourless",
+            "colorless", "pale", "brown", "orange", "red", "off-white", "clear", "viscous",
+            "beige", "light", "dark", "green", "amorphous", "crystalline", "powder", "resulting",
+            "above", "this", "that", "it"}  # fmt: skip
+
+_OIL_KEEPERS = {"mineral", "silicone", "paraffin"}
+
+_OPERATION_NAMES = re.compile(
+    r"^(?:[\w-]+\s+)*chromatography$|^(?:flash\s+)?(?:column\s+)?(?:chromatography|"
+    r"chromatographed|column|purified|purification|filtered|filtration|dried|drying|washed|"
+    r"washing|extracted|extraction|recrystallised|recrystallized|triturated|distilled|eluted|"
+    r"elution|eluent|concentrated|stirred|added|treated|quenched|plug|pad)$",
+    re.I,
+)
+
+_LETTER = re.compile(r"[A-Za-z]")
+
+_PUNCT = "()[]{},;:.!?\"'"
+
+
+@functools.lru_cache(maxsize=8192)
+def clean_name(name: str) -> str | None:
+    """The material name in ``name``, without grades and descriptions; None if it is none."""
+    name = name.strip(" ,;:")
+    while True:
+        stripped = _LEADING.sub("", name)
+        if stripped == name:
+            break
+        name = stripped
+    name = name.strip(" ,;:")
+    if not name or len(name) > 80 or not _LETTER.search(name):
+        return None
+    words = name.split()
+    if len(words) > 6:
+        return None
+    lowered = [w.strip(_PUNCT).lower() for w in words]
+    parts = {p for w in lowered for p in w.split("-")}
+    if parts & _NOT_MATERIAL or _OPERATION_NAMES.match(name):
+        return None
+    if parts & _GENERIC:
+        kept = [
+            w
+            for i, (w, low) in enumerate(zip(words, lowered, strict=True))
+            if low not in _GENERIC or (low == "oil" and i and lowered[i - 1] in _OIL_KEEPERS)
+        ]
+        name = _LEADING.sub("", " ".join(kept) + " ").strip()
+        if not name or name.lower() in {"a", "an", "the", "of", "aqueous", "organic"}:
+            return None
+    if name.endswith(" of"):
+        return None
+    return name

@@ -1,0 +1,1 @@
+"""Reading entries: bytes of a notebook file → an Entry (plugin ``readers``, in ``entries``)."""

@@ -1,0 +1,126 @@
+"""Names no other resolver knows, through the ``chemicals`` library's offline name database.
+
+The last resolver of ``masstrail_resolve_material`` (see plugins/resolve/materials.py): when the
+``chemicals`` library is installed (``pip install -e '.[names]'``), a name that neither
+the lab's config nor masstrail's material data knows gets the formula and molar mass the
+library gives (no density). Block it with ``[plugins] block = ["names"]``.
+"""
+
+from __future__ import annotations
+
+import functools
+from pathlib import Path
+
+from capture.chem import material_key, molar_mass
+from capture.config import LabConfig
+from capture.hookspecs import hookimpl
+from capture.models import MaterialInfo
+from masstrail_plugins.resolve.knowledge import GENERIC_CLASS_NAMES, apply_lab_density
+
+
+class _NameCache:
+    """The chemicals library's answers, kept on disk between runs.
+
+    Its name database is a large table that the library loads whole on the first
+    unknown name (about 2.5 s and 200 MB). Its answers only change with its version,
+    so each is kept in ``$XDG_CACHE_HOME/masstrail/names-<version>.json`` (default
+    ``~/.cache``); a run whose names are all there never loads the table. The file is
+    a cache: deleting it costs one load; a damaged one is ignored and rewritten.
+    """
+
+    def __init__(self) -> None:
+        self.path: Path | None = None
+        self.names: dict[str, list | None] | None = None
+
+    def _load(self, version: str) -> dict[str, list | None]:
+        import json
+        import os
+
+        base = Path(os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache")
+        self.path = base / "masstrail" / f"names-{version}.json"
+        try:
+            data = json.loads(self.path.read_text(encoding="utf-8"))
+            return data if isinstance(data, dict) else {}
+        except (OSError, ValueError):
+            return {}
+
+    def get(self, name: str, version: str) -> tuple[bool, list | None]:
+        if self.names is None:
+            self.names = self._load(version)
+        return (name in self.names, self.names.get(name))
+
+    def put(self, name: str, answer: list | None) -> None:
+        import json
+
+        from capture.safeio import atomic_write
+
+        assert self.names is not None and self.path is not None
+        self.names[name] = answer
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+            atomic_write(self.path, json.dumps(self.names, sort_keys=True), sync_dir=False)
+        except OSError:
+            pass  # a cache that cannot be written only costs time
+
+
+_name_cache = _NameCache()
+
+
+@functools.lru_cache(maxsize=1)
+def _chemicals_version() -> str | None:
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("chemicals")
+    except PackageNotFoundError:
+        return None
+
+
+def _chemicals_lookup(name: str) -> tuple[str, str, float] | None:
+    lib = _chemicals_version()
+    if lib is None:
+        return None
+    known, answer = _name_cache.get(name, lib)
+    if not known:
+        answer = _ask_chemicals(name)
+        _name_cache.put(name, answer)
+    return None if answer is None else (answer[0], answer[1], float(answer[2]))
+
+
+def _ask_chemicals(name: str) -> list | None:
+    try:
+        from chemicals.identifiers import search_chemical
+    except ImportError:
+        return None
+    try:
+        found = search_chemical(name)
+    except Exception:  # the library raises plain Exceptions for unknown names
+        return None
+    if not found or not found.formula:
+        return None
+    return [found.common_name or name, found.formula, float(found.MW)]
+
+
+@hookimpl(trylast=True, specname="masstrail_resolve_material")
+def resolve_with_chemicals(name: str, config: LabConfig) -> MaterialInfo | None:
+    """The `chemicals` library's offline name database, if installed."""
+    if sum(c.isalpha() for c in name) < 3:
+        return None  # "3" is lithium to a name database; a real name has letters
+    if material_key(name) in GENERIC_CLASS_NAMES:
+        return None  # "the alcohol" is a class, not ethanol; "salt" is not NaCl
+    hit = _chemicals_lookup(name.strip())
+    if hit is None:
+        return None
+    common, formula, _mw = hit
+    try:
+        mm = molar_mass(formula)
+    except Exception:
+        return None
+    info = MaterialInfo(
+        name=common,
+        formula=formula,
+        molar_mass=round(mm, 4),
+        category="reagent",
+        source="chemicals library, offline name database (formula only; no density)",
+    )
+    return apply_lab_density(info, name, config)

@@ -1,0 +1,98 @@
+"""The product and its mass: what the front matter records, the text reports, the balance read.
+
+Plugin ``product`` (``masstrail_product``):
+
+- the front matter's ``product.mass`` is weighed like any amount (a mass as recorded; a
+  volume with the product's density; mmol with its molar mass from ``product.formula``,
+  from ``product.smiles`` through RDKit when installed, or from its name);
+- without one, the mass the text reports (``… to give the amide (2.41 g, 86%)``) is used,
+  and its basis quotes the sentence;
+- when both exist and differ by more than 0.5 %, the front matter wins and a minor
+  ``conflicting_product_mass`` gap names both;
+- a balance reading labelled ``product`` (or with the product's name) wins over both: the
+  balance is the original record.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+from capture.chem import formula_from_smiles
+from capture.config import LabConfig
+from capture.hookspecs import hookimpl
+from capture.models import (
+    BalanceMass,
+    Entry,
+    Gap,
+    MaterialInfo,
+    MaterialLine,
+    ProductFinding,
+    ProductOut,
+)
+from capture.quantities import AmountError, parse_amounts
+from masstrail_plugins.resolve.knowledge import info_from_formula
+
+
+def _recorded_line(name: str, mass: str) -> MaterialLine:
+    line = MaterialLine(name=name, role="product", stated=mass, origin="front-matter",
+                        evidence=f"front matter: product.mass: {mass}")  # fmt: skip
+    try:
+        line.amounts = parse_amounts(mass)
+    except AmountError as exc:
+        line.problem = f"amount could not be read: {exc}"
+        line.problem_kind = "unreadable_amount"
+    return line
+
+
+def _from_text(entry: Entry, formula: str | None, mention: MaterialLine) -> ProductOut:
+    said = mention.amounts[0]
+    mm = info_from_formula(entry.product.name or "product", formula) if formula else None
+    return ProductOut(
+        name=entry.product.name,
+        formula=formula,
+        mass_g=round(said.total, 4),
+        basis=f"{said.text} as reported in the text: {mention.evidence}",
+        molar_mass=mm.molar_mass if mm else None,
+    )
+
+
+@hookimpl(trylast=True, specname="masstrail_product")
+def product_of_entry(
+    entry: Entry,
+    mention: MaterialLine | None,
+    reading: BalanceMass | None,
+    resolve: Callable[[str], MaterialInfo | None],
+    weigh: Callable[[MaterialLine, MaterialInfo | None], None],
+    config: LabConfig,
+) -> ProductFinding:
+    """The balance's reading, else the front matter's mass, else the text's."""
+    p = entry.product
+    formula = p.formula or (formula_from_smiles(p.smiles) if p.smiles else None)
+    said = mention.amounts[0] if mention is not None and mention.amounts else None
+    gaps: list[Gap] = []
+    if not p.mass:
+        if said is None:
+            out = ProductOut(name=p.name, mass_g=None, formula=formula)
+        else:
+            out = _from_text(entry, formula, mention)
+    else:
+        info = info_from_formula(p.name or "product", formula) if formula else None
+        if info is None and p.name:
+            info = resolve(p.name)
+        line = _recorded_line(p.name or "product", p.mass)
+        weigh(line, info)
+        out = ProductOut(name=p.name, formula=formula, mass_g=line.mass_g,
+                         basis=line.basis or line.problem,
+                         molar_mass=info.molar_mass if info and formula else None)  # fmt: skip
+        if said is not None and out.mass_g is not None and \
+                abs(said.total - out.mass_g) > 0.005 * out.mass_g:  # fmt: skip
+            gaps.append(Gap(kind="conflicting_product_mass", item=p.name or "product",
+                            severity="minor", evidence=mention.evidence,
+                            message=f"the front matter gives {p.mass} and the text {said.text}; "
+                            "the front matter is used. Correct whichever is wrong"))  # fmt: skip
+    if reading is not None:
+        typed = f"; the front matter says {p.mass}" if p.mass else ""
+        out = out.model_copy(update={"mass_g": round(reading.mass_g, 4),
+                                     "basis": reading.basis + typed})  # fmt: skip
+        gaps = []  # the balance settles what the typed records disagree on
+    return ProductFinding(product=out, gaps=gaps)

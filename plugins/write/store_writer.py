@@ -1,0 +1,111 @@
+"""The store writer (plugin ``store``): every result goes to the lab's SQLite store too.
+
+The store itself (schema, writes, history) is :mod:`capture.store`; this plugin hands it
+the results of scans and of the watcher, and answers ``masstrail_previous_results``.
+"""
+
+from __future__ import annotations
+
+import functools
+import sqlite3
+import sys
+import threading
+from pathlib import Path
+
+from capture.config import LabConfig
+from capture.hookspecs import hookimpl
+from capture.models import Result
+from capture.store import (
+    connect,
+    previous_results,
+    remove_absent,
+    remove_entry,
+    store_path,
+    write_results,
+)
+
+_conns: dict[tuple[Path, int], sqlite3.Connection] = {}
+_told: set[Path] = set()
+
+
+@functools.lru_cache(maxsize=64)
+def _where(root: Path, configured: str | None) -> tuple[Path, str | None]:
+    return store_path(root, configured)  # reads /proc/mounts: once per notebook
+
+
+def connection(root: Path, config: LabConfig) -> sqlite3.Connection:
+    """This thread's connection to the notebook's store (one writer per thread)."""
+    db, message = _where(root, config.store.path)
+    if message and db not in _told:
+        print(f"masstrail: {message}", file=sys.stderr)
+        _told.add(db)
+    key = (db, threading.get_ident())
+    if key not in _conns:
+        _conns[key] = connect(db)
+    return _conns[key]
+
+
+# results a scan has handed over and not yet written, per connection
+_pending: dict[tuple[Path, int], list[Result]] = {}
+# a scan flushes after every share of 32 entries (masstrail_flush_results: the sidecars are
+# in place first); this cap only bounds what a caller that never flushes makes us hold
+BATCH = 100
+
+
+def _key(root: Path, config: LabConfig) -> tuple[Path, int]:
+    return (_where(root, config.store.path)[0], threading.get_ident())
+
+
+def _flush(root: Path, config: LabConfig) -> None:
+    held = _pending.pop(_key(root, config), None)
+    if held:
+        write_results(connection(root, config), held)
+
+
+# trylast: the chemist's sidecar is written first; the store follows in the same step
+@hookimpl(trylast=True, specname="masstrail_write_result")
+def write_to_store(result: Result, root: Path, config: LabConfig, batch: bool) -> list[Path]:
+    """Replace the entry's current rows and append to its history (if the store is on).
+
+    A scan's results (``batch``) are written BATCH at a time, each batch one transaction.
+    """
+    if not config.store.enabled:
+        return []
+    if not batch:
+        write_results(connection(root, config), [result])
+        return []
+    held = _pending.setdefault(_key(root, config), [])
+    held.append(result)
+    if len(held) >= BATCH:
+        _flush(root, config)
+    return []
+
+
+@hookimpl(trylast=True, specname="masstrail_flush_results")
+def flush_store(root: Path, config: LabConfig) -> None:
+    """Write the results held from a scan (``batch``), in one transaction."""
+    if config.store.enabled:
+        _flush(root, config)
+
+
+@hookimpl(specname="masstrail_scan_done")
+def finish_scan(root: Path, config: LabConfig, present: list[str]) -> None:
+    """Drop the rows of entries no longer in the notebook (their history stays)."""
+    if config.store.enabled:
+        _flush(root, config)  # in case a caller did not flush first
+        remove_absent(connection(root, config), set(present))
+
+
+@hookimpl(specname="masstrail_previous_results")
+def previous(root: Path, config: LabConfig) -> dict | None:
+    """The fingerprint and summary of every entry's last result, from the store."""
+    if not config.store.enabled:
+        return None
+    return previous_results(connection(root, config))
+
+
+@hookimpl(specname="masstrail_remove_result")
+def remove_from_store(relpath: str, root: Path, config: LabConfig) -> None:
+    """Drop a deleted entry's current rows; its history stays."""
+    if config.store.enabled:
+        remove_entry(connection(root, config), relpath)
