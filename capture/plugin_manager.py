@@ -4,7 +4,9 @@ The built-in plugins are registered through the ``masstrail`` entry-point
 group (see ``pyproject.toml``), the same way a lab's own plugin is. A plugin
 can be blocked by its entry-point name, from ``[plugins] block`` in
 ``masstrail.toml`` or the ``MASSTRAIL_BLOCK`` environment variable
-(comma-separated). ``MASSTRAIL_TRACE=1`` prints every hook call to stderr.
+(comma-separated). ``MASSTRAIL_TRACE=1`` prints every hook call to stderr;
+``MASSTRAIL_HOOK_LOG=FILE`` appends to FILE the name of each hook the first time a
+process calls it with an implementation (the test suite checks that every hook is).
 """
 
 from __future__ import annotations
@@ -75,7 +77,24 @@ def get_plugin_manager(block: Iterable[str] = ()) -> pluggy.PluginManager:
     if os.environ.get("MASSTRAIL_TRACE"):
         pm.trace.root.setwriter(sys.stderr.write)
         pm.enable_tracing()
+    if os.environ.get("MASSTRAIL_HOOK_LOG"):
+        _log_hook_calls(pm, os.environ["MASSTRAIL_HOOK_LOG"])
     return pm
+
+
+_logged: set[str] = set()  # hooks this process has written to MASSTRAIL_HOOK_LOG
+
+
+def _log_hook_calls(pm: pluggy.PluginManager, log: str) -> None:
+    """Append each hook's name to ``log`` the first time it is called with an implementation."""
+
+    def before(hook_name: str, hook_impls: list, kwargs: dict) -> None:
+        if hook_impls and hook_name not in _logged:
+            _logged.add(hook_name)
+            with open(log, "a", encoding="utf-8") as fh:
+                fh.write(hook_name + "\n")
+
+    pm.add_hookcall_monitoring(before, lambda outcome, hook_name, hook_impls, kwargs: None)
 
 
 def describe_plugins(pm: pluggy.PluginManager) -> list[dict[str, object]]:

@@ -12,6 +12,9 @@ from hypothesis import settings
 from capture.notebook import Notebook
 from capture.scan import ScanReport, scan
 
+TESTS = Path(__file__).resolve().parent
+LAST = "test_every_hook_is_called_with_an_implementation_during_the_suite"
+
 settings.register_profile("ci", derandomize=True, max_examples=50, deadline=None, database=None)
 settings.register_profile("long", max_examples=2000, deadline=None)
 settings.load_profile("ci")
@@ -41,6 +44,45 @@ class NotebookDir:
         p = self.root / rel_entry
         stem = p.name[: -len(p.suffix)]
         return json.loads((p.parent / f"{stem}.waste.json").read_text(encoding="utf-8"))
+
+
+def pytest_configure(config):
+    """Every process the suite starts (the watcher, scan workers, the installed command)
+    logs the hooks it calls (MASSTRAIL_HOOK_LOG); test_meta.py reads the log at the end."""
+    import os
+    import tempfile
+
+    fd, log = tempfile.mkstemp(prefix="masstrail-hooks-", suffix=".log")
+    os.close(fd)
+    os.environ["MASSTRAIL_HOOK_LOG"] = log
+
+
+def pytest_unconfigure(config):
+    import contextlib
+    import os
+
+    with contextlib.suppress(KeyError, OSError):
+        os.unlink(os.environ.pop("MASSTRAIL_HOOK_LOG"))
+
+
+@pytest.hookimpl(trylast=True)  # after -k and --deselect have dropped their items
+def pytest_collection_modifyitems(session, config, items):
+    """The hook-call check runs last, and only counts when the whole suite runs."""
+    last = [item for item in items if item.name == LAST]
+    for item in last:
+        items.remove(item)
+        items.append(item)
+    files = {Path(str(item.fspath)).name for item in items}
+    config.stash[WHOLE_SUITE] = (
+        files == {p.name for p in TESTS.glob("test_*.py")}
+        and not config.option.keyword
+        and not config.option.markexpr
+        and not config.getoption("deselect")
+        and not config.getoption("lf")
+    )
+
+
+WHOLE_SUITE = pytest.StashKey[bool]()
 
 
 @pytest.fixture(autouse=True, scope="session")

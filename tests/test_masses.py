@@ -7,8 +7,8 @@ import pytest
 from capture.config import LabConfig
 from capture.models import MassContext, MaterialLine
 from capture.quantities import parse_amounts
-from masstrail_plugins.weigh.masses import weigh_line
 from masstrail_plugins.resolve.materials import resolve_builtin
+from masstrail_plugins.weigh.masses import weigh_line
 
 CFG = LabConfig()
 

@@ -12,8 +12,8 @@ import pytest
 from capture import hookspecs
 from capture.hookspecs import hookimpl
 from capture.notebook import Notebook
-from capture.scan import scan
 from capture.plugin_manager import DEFAULT_PLUGINS, describe_plugins, get_plugin_manager
+from capture.scan import scan
 
 from helpers import entry_md
 

@@ -91,12 +91,12 @@ def test_streamed_figures_equal_the_reference_summaries(lab):
     which holds every result, is the reference."""
     import json
 
-    from capture.paths import sidecar_path
     from capture.notebook import Notebook
+    from capture.paths import sidecar_path
     from capture.scan import scan
-    from capture.views.report import figures
     from capture.views.filters import GapFilter
     from capture.views.gaplist import summarise
+    from capture.views.report import figures
 
     nb = Notebook.open(lab)
     results = scan(nb).results

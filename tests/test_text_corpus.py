@@ -10,9 +10,9 @@ from hypothesis import example, given
 from hypothesis import strategies as st
 
 from capture.quantities import parse_amount
-from masstrail_plugins.resolve.knowledge import builtin_data
 from masstrail_plugins.extract.text import extract
 from masstrail_plugins.prose import clean_name
+from masstrail_plugins.resolve.knowledge import builtin_data
 
 ITEMS = load(CORPUS)
 

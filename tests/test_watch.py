@@ -251,3 +251,53 @@ def test_falls_back_to_polling_when_native_watching_cannot_start(notebook, monke
     finally:
         w.observer.stop()
         w.observer.join()
+
+
+def test_the_watcher_takes_the_entry_rule_of_the_scan(notebook, watched):
+    """[scan] ignore: what the scan skips, the watcher skips too (at its catch-up and on
+    events); the rule is capture.paths.EntryRule, used by both."""
+    notebook.write("masstrail.toml", '[scan]\nignore = ["drafts/**"]\n')
+    draft = notebook.write("drafts/d1.md", ENTRY)
+    kept = notebook.write("e.md", ENTRY)
+    w = watched()
+    assert _side(kept) is not None and _side(draft) is None  # the catch-up
+    notebook.write("drafts/d2.md", ENTRY)
+    draft.write_text(ENTRY.replace("1.00 g", "1.50 g"))
+    kept.write_text(ENTRY.replace("1.00 g", "1.50 g"))  # an event the watcher must act on
+    w.wait_for(lambda: _mass(kept) == 1.5, what="the entry that is not ignored")
+    time.sleep(0.5)  # the drafts' events, settled and passed over
+    assert sorted(p.name for p in (notebook.root / "drafts").iterdir()) == ["d1.md", "d2.md"]
+    assert w.count("drafts/") == 0
+
+
+def test_the_catch_up_recomputes_what_a_config_change_affects(notebook, watched):
+    """The catch-up is a reusing scan: a result is current only when its fingerprint (entry,
+    balance logs, lab config, versions) is, so switching cards on writes the cards."""
+    from capture.notebook import Notebook
+    from capture.scan import scan
+
+    a = notebook.write("a.md", ENTRY)
+    notebook.write("sub/b.md", ENTRY.replace("1.00 g", "1.20 g"))
+    scan(Notebook.open(notebook.root), reuse=True)
+    assert not list(notebook.root.rglob("*.waste.md"))
+    notebook.write("masstrail.toml", "[output]\ncard = true\n")
+    w = watched()
+    assert (notebook.root / "a.waste.md").exists() and (notebook.root / "sub/b.waste.md").exists()
+    assert w.count("E-factor") == 2 and w.count("2 entries brought up to date") == 1
+    stamp = (notebook.root / "a.waste.md").stat().st_mtime_ns
+    w.stop()
+    again = watched()  # nothing changed since: nothing is computed
+    assert again.count("0 entries brought up to date") == 1
+    assert (notebook.root / "a.waste.md").stat().st_mtime_ns == stamp and _mass(a) == 1.0
+
+
+def test_results_of_an_entry_deleted_while_no_watcher_ran_are_removed(notebook, watched):
+    a = notebook.write("a.md", ENTRY)
+    b = notebook.write("b.md", ENTRY)
+    w = watched()
+    assert _side(b) is not None
+    w.stop()
+    b.unlink()
+    w2 = watched()
+    assert _side(a) is not None and not (notebook.root / "b.waste.json").exists()
+    assert w2.count("b.md: deleted") == 1

@@ -192,21 +192,18 @@ def parse_date(text: str, order: str | None) -> dt.date | None:
     return None
 
 
-def read_log(data: bytes, relpath: str, layout: BalanceLayout) -> list[BalanceReading]:
-    """Readings from one balance CSV export; InputError with the line for what cannot be read."""
-    text = decode(data, layout).replace("\r\n", "\n").replace("\r", "\n")
-    lines = text.split("\n")
-    head, delimiter, cells = _find_header(lines, layout)
-    cols = _columns(cells, layout)
-    if "label" not in cols or not ({"net", "gross"} & set(cols)):
-        raise InputError("the header has no label or no mass column", location=f"line {head + 1}")
-    header_unit = None
+def _header_unit(cells: list[str], cols: dict[str, int]) -> str | None:
+    """The unit the mass column's header names (``Netto [g]``), if any."""
     for role in ("net", "gross"):
         if role in cols:
             m = _HEADER_UNIT.search(cells[cols[role]])
             if m:
-                header_unit = m.group("unit")
-                break
+                return m.group("unit")
+    return None
+
+
+def _body(lines: list[str], head: int, delimiter: str) -> list[tuple[int, list[str]]]:
+    """(line number, cells) of each data line after the header, up to a summary line."""
     body = []
     for n in range(head + 1, len(lines)):
         line = lines[n]
@@ -215,6 +212,19 @@ def read_log(data: bytes, relpath: str, layout: BalanceLayout) -> list[BalanceRe
         if _SUMMARY.match(line):
             break
         body.append((n + 1, _split(line, delimiter)))
+    return body
+
+
+def read_log(data: bytes, relpath: str, layout: BalanceLayout) -> list[BalanceReading]:
+    """Readings from one balance CSV export; InputError with the line for what cannot be read."""
+    text = decode(data, layout).replace("\r\n", "\n").replace("\r", "\n")
+    lines = text.split("\n")
+    head, delimiter, cells = _find_header(lines, layout)
+    cols = _columns(cells, layout)
+    if "label" not in cols or not ({"net", "gross"} & set(cols)):
+        raise InputError("the header has no label or no mass column", location=f"line {head + 1}")
+    header_unit = _header_unit(cells, cols)
+    body = _body(lines, head, delimiter)
     mass_col = cols.get("net", cols.get("gross"))
     decimal = _decimal([r for _, r in body], mass_col, delimiter, layout)
     readings = []

@@ -83,8 +83,17 @@ def assign(
     product_keys = {"product", "produkt", "produit", "prodotto", "producto"}
     if product_name:
         product_keys.add(key(product_name))
-
     gaps: list[Gap] = []
+    usable = _usable(readings, gaps)
+    plain, diff = _grouped(usable, key)
+    results = _masses(plain, diff, gaps)
+    assigned, product = _targets(results, line_by_key, product_keys, gaps)
+    gaps += _date_gaps(usable, entry_date, max_days)
+    return assigned, product, gaps
+
+
+def _usable(readings: list[BalanceReading], gaps: list[Gap]) -> list[BalanceReading]:
+    """The readings with a mass; a gap for each without."""
     usable = []
     for r in readings:
         if r.mass_g is None:
@@ -94,11 +103,16 @@ def assign(
                             "correct the log or weigh again"))  # fmt: skip
         else:
             usable.append(r)
+    return usable
 
-    # group by (target name, role): plain, before/after, vessel / vessel + X
+
+def _grouped(
+    usable: list[BalanceReading], key: Callable[[str], str]
+) -> tuple[dict[str, list[BalanceReading]], dict[str, dict[str, list[BalanceReading]]]]:
+    """Readings by material: plain ones, and the sides of a difference (before/after,
+    vessel + X as gross, the vessel alone as tare)."""
     plain: dict[str, list[BalanceReading]] = {}
     diff: dict[str, dict[str, list[BalanceReading]]] = {}
-    vessels: dict[str, list[BalanceReading]] = {}
     for r in usable:
         label = " ".join(r.label.split())
         m = _BEFORE_AFTER.match(label)
@@ -112,16 +126,18 @@ def assign(
             r.assigned_to = f"vessel {m.group('vessel').strip()}"  # provisional
             continue
         plain.setdefault(key(label), []).append(r)
-
     # a plain label that is the vessel of a "vessel + X" pair is the tare of that pair
-    for name_key, sides in diff.items():
+    for sides in diff.values():
         if "gross" in sides:
             vessel = _VESSEL_PLUS.match(" ".join(sides["gross"][-1].label.split())).group("vessel")
             tare = plain.pop(key(vessel), None)
             if tare:
                 sides["tare"] = tare
-                vessels[name_key] = tare
+    return plain, diff
 
+
+def _masses(plain: dict, diff: dict, gaps: list[Gap]) -> dict[str, Assignment]:
+    """The balance's mass for each material: its last stable reading, or a difference."""
     results: dict[str, Assignment] = {}
     for name_key, group in plain.items():
         r = _pick(group)
@@ -149,7 +165,16 @@ def assign(
                                     message=f"'{r.label}' has no matching before/after or "
                                     "vessel reading, so no difference can be taken; add the "
                                     "other weighing or relabel it"))  # fmt: skip
+    return results
 
+
+def _targets(
+    results: dict[str, Assignment],
+    line_by_key: dict[str, MaterialLine],
+    product_keys: set[str],
+    gaps: list[Gap],
+) -> tuple[dict[int, Assignment], Assignment | None]:
+    """Each balance mass to its line (by id) or the product; a gap for those no one claims."""
     assigned: dict[int, Assignment] = {}
     product: Assignment | None = None
     for name_key, a in results.items():
@@ -181,19 +206,28 @@ def assign(
                             evidence=_where(chosen[-1]),
                             message=f"the balance marked the reading for {target} unstable; "
                             "it is used, but weigh again if you can"))  # fmt: skip
-    if entry_date is not None:
-        for r in usable:
-            if not r.timestamp:
-                continue
-            day = dt.date.fromisoformat(r.timestamp[:10])
-            if abs((day - entry_date).days) > max_days:
-                gaps.append(Gap(kind="balance_reading_date", item=r.label, severity="minor",
-                                evidence=_where(r),
-                                message=f"the reading is dated {day}, "
-                                f"{abs((day - entry_date).days)} "
-                                f"days from the entry's date {entry_date}; check it belongs to "
-                                "this experiment"))  # fmt: skip
-    return assigned, product, gaps
+    return assigned, product
+
+
+def _date_gaps(
+    usable: list[BalanceReading], entry_date: dt.date | None, max_days: float
+) -> list[Gap]:
+    """Readings dated more than ``max_days`` from the entry's date."""
+    gaps: list[Gap] = []
+    if entry_date is None:
+        return gaps
+    for r in usable:
+        if not r.timestamp:
+            continue
+        day = dt.date.fromisoformat(r.timestamp[:10])
+        if abs((day - entry_date).days) > max_days:
+            gaps.append(Gap(kind="balance_reading_date", item=r.label, severity="minor",
+                            evidence=_where(r),
+                            message=f"the reading is dated {day}, "
+                            f"{abs((day - entry_date).days)} "
+                            f"days from the entry's date {entry_date}; check it belongs to "
+                            "this experiment"))  # fmt: skip
+    return gaps
 
 
 @hookimpl(trylast=True, specname="masstrail_place_readings")

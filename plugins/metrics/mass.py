@@ -60,6 +60,28 @@ def _simple(line: MaterialLine) -> bool:
     return line.category in {"reagent", "catalyst", None}
 
 
+def breakdown(weighed: list[MaterialLine], inputs: float) -> Breakdown:
+    """Where the input mass goes: by category, by stage, and the largest single input."""
+    by_category: dict[str, float] = {}
+    by_stage: dict[str, float] = {}
+    for m in weighed:
+        cat = m.category or "unknown"
+        by_category[cat] = by_category.get(cat, 0.0) + m.mass_g
+        stage = m.stage or "unassigned"
+        by_stage[stage] = by_stage.get(stage, 0.0) + m.mass_g
+    largest = None
+    if weighed and inputs > 0:
+        top = max(weighed, key=lambda m: m.mass_g)
+        largest = (
+            f"{top.resolved or top.name}, {top.mass_g:.4g} g ({top.mass_g / inputs:.0%} of inputs)"
+        )
+    return Breakdown(
+        by_category={k: round(v, 4) for k, v in sorted(by_category.items())},
+        by_stage={k: round(v, 4) for k, v in sorted(by_stage.items())},
+        largest=largest,
+    )
+
+
 @hookimpl(specname="masstrail_compute_metrics")
 def mass_metrics(
     materials: list[MaterialLine],
@@ -75,21 +97,6 @@ def mass_metrics(
     credit = sum(r.mass_g for r in recovered if r.mass_g is not None)
     p = product.mass_g
     allowance = sum(g.allowance_g for g in gaps if g.allowance_g and g.in_estimate)
-
-    by_category: dict[str, float] = {}
-    by_stage: dict[str, float] = {}
-    for m in weighed:
-        cat = m.category or "unknown"
-        by_category[cat] = by_category.get(cat, 0.0) + m.mass_g
-        stage = m.stage or "unassigned"
-        by_stage[stage] = by_stage.get(stage, 0.0) + m.mass_g
-    largest = None
-    if weighed and inputs > 0:
-        top = max(weighed, key=lambda m: m.mass_g)
-        largest = (
-            f"{top.resolved or top.name}, {top.mass_g:.4g} g ({top.mass_g / inputs:.0%} of inputs)"
-        )
-
     metrics: dict[str, float | None] = {
         "e_factor": None,
         "e_factor_simple": None,
@@ -138,10 +145,6 @@ def mass_metrics(
             waste_g=_r(waste),
             water_g=round(water, 4),
         ),
-        breakdown=Breakdown(
-            by_category={k: round(v, 4) for k, v in sorted(by_category.items())},
-            by_stage={k: round(v, 4) for k, v in sorted(by_stage.items())},
-            largest=largest,
-        ),
+        breakdown=breakdown(weighed, inputs),
         context=context,
     )

@@ -1,4 +1,4 @@
-"""The lab manager's gap list and the teaching-lab audit (library and commands)."""
+"""The lab manager's gap list (library and command)."""
 
 from __future__ import annotations
 
@@ -11,14 +11,13 @@ from click.testing import CliRunner
 from capture.cli import cli
 from capture.notebook import Notebook
 from capture.scan import scan
-from capture.views.audit import audit
 from capture.views.filters import GapFilter
 from capture.views.gaplist import gap_rows, rows_to_csv, summarise
 
 from helpers import entry_md
 
 
-def _lab(notebook):
+def lab_of_three(notebook):
     notebook.write(
         "a/one.md",
         entry_md(
@@ -57,7 +56,7 @@ def _lab(notebook):
 
 
 def test_gap_rows_filter_by_author_date_and_severity(notebook):
-    results = _lab(notebook)
+    results = lab_of_three(notebook)
     every = gap_rows(results, GapFilter())
     assert {(r.entry, r.kind) for r in every} == {
         ("a/one.md", "liquid_volume"), ("a/one.md", "drying_agent_mass"),
@@ -74,7 +73,7 @@ def test_gap_rows_filter_by_author_date_and_severity(notebook):
 
 
 def test_summary_by_group_counts_entries_and_gaps(notebook):
-    results = _lab(notebook)
+    results = lab_of_three(notebook)
     rows = {s.key: s for s in summarise(results, GapFilter(), "group")}
     assert (rows["Alder"].entries, rows["Alder"].entries_with_gaps, rows["Alder"].blocking) == (
         2,
@@ -85,14 +84,14 @@ def test_summary_by_group_counts_entries_and_gaps(notebook):
 
 
 def test_csv_defuses_formulas(notebook):
-    text = rows_to_csv(gap_rows(_lab(notebook), GapFilter()))
+    text = rows_to_csv(gap_rows(lab_of_three(notebook), GapFilter()))
     rows = list(csv.DictReader(io.StringIO(text)))
     # OWASP / CWE-1236: a cell that starts with = is prefixed with '
     assert {r["author"] for r in rows if r["entry"] == "a/one.md"} == {"'=HYPERLINK(1)"}
 
 
 def test_gaps_command_exit_codes_json_and_csv(notebook, tmp_path):
-    _lab(notebook)
+    lab_of_three(notebook)
     runner = CliRunner()
     res = runner.invoke(cli, ["gaps", str(notebook.root), "--json"])
     assert res.exit_code == 1  # a blocking gap exists
@@ -109,30 +108,3 @@ def test_gaps_command_exit_codes_json_and_csv(notebook, tmp_path):
     res = runner.invoke(cli, ["gaps", str(notebook.root), "--since", "2026-13-01"])
     assert res.exit_code == 2 and "is not a date" in res.output
     assert not list(notebook.root.rglob("*.waste.json"))  # gaps writes nothing
-
-
-def test_audit_checklist_and_markdown(notebook, tmp_path):
-    results = _lab(notebook)
-    report = audit(results, "alder")
-    assert report.group == "Alder" and len(report.entries) == 2
-    one = report.entries[0]
-    assert [(c.needs, c.item, c.recorded) for c in one.checklist] == [
-        ("drying agent mass", "MgSO4", False),
-        ("liquid volume", "brine", False),
-        ("product mass", "p", True),
-    ]
-    assert len(one.next_time) == 2 and {n.split(":")[0] for n in one.next_time} == {
-        "brine",
-        "MgSO4",
-    }
-    md = tmp_path / "audit.md"
-    res = CliRunner().invoke(
-        cli, ["audit", str(notebook.root), "--group", "Alder", "--markdown", str(md)]
-    )
-    assert res.exit_code == 0, res.output
-    text = md.read_text()
-    assert (
-        "| ✗ | drying | drying agent mass | MgSO4 |" in text and "not a hazard assessment" in text
-    )
-    res = CliRunner().invoke(cli, ["audit", str(notebook.root), "--group", "Nobody"])
-    assert res.exit_code == 2 and "no entries of group" in res.output

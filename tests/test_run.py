@@ -5,11 +5,8 @@ from __future__ import annotations
 import hashlib
 import json
 import shutil
-from dataclasses import asdict
 
 import pytest
-from hypothesis import given
-from hypothesis import strategies as st
 
 from capture.config import ConfigError
 from capture.notebook import Notebook
@@ -237,23 +234,6 @@ def test_bad_amounts_are_gaps_and_the_rest_is_computed(notebook, amount, kind, m
     assert side["context"]["lower_bound"].startswith("1 input(s) have no mass (B)")
 
 
-def test_same_stem_is_an_error_for_both_never_an_overwrite(notebook):
-    notebook.write("x/run.md", GOOD)
-    notebook.write("x/run.yaml", "title: y\n")
-    report = notebook.scan()
-    assert [r.status for r in report.results] == ["error", "error"]
-    side = notebook.sidecar("x/run.md")
-    assert "run.md, run.yaml" in side["error"]["message"]
-
-
-def test_outputs_temp_files_and_hidden_folders_are_not_entries(notebook):
-    notebook.write("a.md", GOOD)
-    for name in [".a.md.swp", "a.md~", ".#a.md", ".~lock.a.md#", "a.md.tmp", ".masstrail/x.md",
-                 ".git/y.md", "a.waste.md"]:  # fmt: skip
-        notebook.write(name, GOOD)
-    assert [p.name for p in Notebook.open(notebook.root).entry_files()] == ["a.md"]
-
-
 def test_bad_config_key_names_the_key_and_file(notebook):
     notebook.write("masstrail.toml", "[e_factor]\ninclude_watr = false\n")
     with pytest.raises(
@@ -425,77 +405,3 @@ def test_a_known_commercial_solution_uses_its_own_density(notebook):
     # 0.693 g/mL: supplier value for 2.5 M n-BuLi in hexanes (FIELD.md, from memory)
     assert line["mass_g"] == pytest.approx(8.8 * 0.693, abs=1e-4)
     assert "n-BuLi 2.5 M in hexanes" in line["basis"] and line["moles_mmol"] == 22.0
-
-
-def test_a_parallel_scan_writes_exactly_what_a_serial_scan_writes(tmp_path):
-    """Two worker processes compute and write (sidecars, cards and store), a share each at a
-    time. Sidecars, cards and the store's current tables must be the same as a serial
-    scan's, byte for byte and row for row."""
-    import shutil
-
-    from capture.store import connect, current_tables
-
-    def copy(name):
-        root = tmp_path / name
-        shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.*"))
-        entries = [p for p in root.rglob("*") if p.suffix in {".md", ".yaml", ".json", ".ipynb"}
-                   and "templates" not in p.parts]  # fmt: skip
-        for i in range(8):  # 90 entries: enough for the workers to be used
-            for p in entries:
-                shutil.copy(p, p.with_name(f"{p.stem}-copy{i}{p.suffix}"))
-        return root
-
-    serial, parallel = copy("serial"), copy("parallel")
-    a = scan(Notebook.open(serial), keep=False, jobs=1)
-    b = scan(Notebook.open(parallel), keep=False, jobs=2)
-    assert len(a.summaries) == 90
-    assert [asdict(s) for s in a.summaries] == [asdict(s) for s in b.summaries]
-    outputs = sorted(p.relative_to(serial) for p in serial.rglob("*.waste.*"))
-    assert len(outputs) == 180
-    assert outputs == sorted(p.relative_to(parallel) for p in parallel.rglob("*.waste.*"))
-    for rel in outputs:
-        assert (serial / rel).read_bytes() == (parallel / rel).read_bytes(), rel
-    tables = [current_tables(connect(r / ".masstrail" / "records.db")) for r in (serial, parallel)]
-    assert tables[0] == tables[1] and len(tables[0]["entries"]) == 90
-
-
-def test_ignore_globs_skip_files_and_folders(notebook):
-    notebook.write("masstrail.toml", '[scan]\nignore = ["templates/**", "*.draft.md", "old/*"]\n')
-    for rel in ("a.md", "b.draft.md", "templates/t.md", "templates/deep/u.md", "old/c.md",
-                "sub/d.draft.md", "sub/e.md", "templates.md"):  # fmt: skip
-        notebook.write(rel, GOOD)
-    found = [
-        Notebook.open(notebook.root).relpath(p) for p in Notebook.open(notebook.root).entry_files()
-    ]
-    assert found == ["a.md", "templates.md", "sub/e.md"]
-
-
-_NAME_CHARS = st.text(alphabet="ab.~#_-*/?[]swpg34139 ", max_size=14)
-
-
-@given(_NAME_CHARS, st.lists(st.sampled_from(["*.md", "a/**", "*~", "[ab]*", "?.md", "b/*"]),
-                             max_size=3))  # fmt: skip
-def test_temp_and_ignore_matching_agree_with_fnmatch(name, patterns):
-    """The combined regular expressions give what the standard library's fnmatchcase gives,
-    one pattern at a time (Python's fnmatch is the reference)."""
-    import fnmatch
-
-    from capture.paths import _TEMP_PATTERNS, is_ignored, is_temp_file
-
-    assert is_temp_file(name) == any(fnmatch.fnmatchcase(name, p) for p in _TEMP_PATTERNS)
-    expected = any(
-        fnmatch.fnmatchcase(name, p) or (p.endswith("/**") and (name + "/").startswith(p[:-2]))
-        for p in patterns
-    )
-    assert is_ignored(name, patterns) == expected
-
-
-@pytest.mark.parametrize("name", ["a/b.md", "a/.md", "a/x.", "a/x.tar.md", "y.ipynb", "a/b"])
-def test_the_string_sidecar_name_follows_pathlib(name):
-    """The scan's string form and the writers' pathlib form name the same sidecar (the
-    stem follows pathlib's suffix rule, the reference)."""
-    from pathlib import Path
-
-    from capture.paths import sidecar_name, sidecar_path
-
-    assert sidecar_name(name) == str(sidecar_path(Path(name)))
