@@ -7,7 +7,7 @@ from typing import Literal
 
 from pydantic import BaseModel
 
-from capture.models import Result
+from capture.models import Result, Severity
 
 GroupKey = Literal["author", "group", "project"]
 
@@ -20,7 +20,7 @@ class GapFilter(BaseModel):
     project: str | None = None
     since: dt.date | None = None
     until: dt.date | None = None
-    severity: Literal["blocking", "major", "minor"] = "minor"
+    severity: Severity = "minor"
 
     def keeps(self, r: Result) -> bool:
         """True when the entry ``r`` belongs in the report."""

@@ -57,7 +57,6 @@ _VALUE = re.compile(
     r"(?P<flag>[?*])?\s*$"
 )
 _HEADER_UNIT = re.compile(r"[\[(]\s*(?P<unit>[a-zA-Zµμ]+)\s*[\])]")
-MAX_LOG_BYTES = 5 * 1024 * 1024
 
 
 def decode(data: bytes, layout: BalanceLayout) -> str:
