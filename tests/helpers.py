@@ -8,3 +8,13 @@ import textwrap
 def entry_md(front: str, body: str = "") -> str:
     """A Markdown entry from a front-matter block and a body."""
     return f"---\n{textwrap.dedent(front).strip()}\n---\n{textwrap.dedent(body)}"
+
+
+# a small complete entry: 2.00 g of A in 10 mL of toluene give 1.00 g of product
+GOOD = entry_md("""
+    title: good
+    product: {name: amide, mass: 1.00 g}
+    materials:
+      - {name: A, amount: 2.00 g, role: reactant}
+      - {name: toluene, amount: 10 mL, role: solvent}
+    """)

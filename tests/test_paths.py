@@ -8,15 +8,7 @@ from hypothesis import strategies as st
 
 from capture.notebook import Notebook
 
-from helpers import entry_md
-
-GOOD = entry_md("""
-    title: good
-    product: {name: amide, mass: 1.00 g}
-    materials:
-      - {name: A, amount: 2.00 g, role: reactant}
-      - {name: toluene, amount: 10 mL, role: solvent}
-    """)
+from helpers import GOOD
 
 
 def test_outputs_temp_files_and_hidden_folders_are_not_entries(notebook):

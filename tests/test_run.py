@@ -13,15 +13,7 @@ from capture.notebook import Notebook
 from capture.scan import scan
 
 from conftest import EXAMPLES, NotebookDir
-from helpers import entry_md
-
-GOOD = entry_md("""
-    title: good
-    product: {name: amide, mass: 1.00 g}
-    materials:
-      - {name: A, amount: 2.00 g, role: reactant}
-      - {name: toluene, amount: 10 mL, role: solvent}
-    """)
+from helpers import GOOD, entry_md
 
 
 @pytest.fixture

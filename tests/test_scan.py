@@ -8,15 +8,7 @@ from capture.notebook import Notebook
 from capture.scan import scan
 
 from conftest import EXAMPLES
-from helpers import entry_md
-
-GOOD = entry_md("""
-    title: good
-    product: {name: amide, mass: 1.00 g}
-    materials:
-      - {name: A, amount: 2.00 g, role: reactant}
-      - {name: toluene, amount: 10 mL, role: solvent}
-    """)
+from helpers import GOOD
 
 
 def test_same_stem_is_an_error_for_both_never_an_overwrite(notebook):
