@@ -386,6 +386,7 @@ def masstrail_find_gaps(
     product: ProductOut,
     recovered: list[MaterialLine],
     checks: list[RecordCheck],
+    set_aside: list[MaterialLine],
     limiting: MaterialLine | None,
     reaction: ReactionFigures | None,
     resolve: Callable[[str], MaterialInfo | None],
@@ -400,6 +401,8 @@ def masstrail_find_gaps(
     :param product: the product with its mass (None when not recorded).
     :param recovered: what the entry credits as recovered, weighed.
     :param checks: the operations' checks (``masstrail_check_records``).
+    :param set_aside: the quantities that are not inputs, with their roles (``unread`` ones
+        among them).
     :param limiting: the limiting reagent's line, or None.
     :param reaction: the reaction figures, or None without an equation.
     :param resolve: the material knowledge (name → properties, or None).

@@ -245,6 +245,9 @@ class MaterialLine(_Model):
     note: str | None = Field(
         None, description="how the amount was derived before weighing (e.g. a mixture's share)"
     )
+    stated_yield: float | None = Field(
+        None, description="for the product's mention: the yield the text states, 0–1"
+    )
     # set by masstrail_waste_stream; read by the waste figures and the store's materials
     # table. Kept out of the sidecar, whose format it would change (the streams' totals are
     # in its `waste.streams`).
@@ -394,6 +397,12 @@ class Result(_Model):
     recovered: list[MaterialLine] = Field(
         default_factory=list, description="credited as recovered, not counted as waste"
     )
+    set_aside: list[MaterialLine] = Field(
+        default_factory=list,
+        description="every other quantity the text states, with its role: the product's "
+        "mentions, intermediates and crude masses, samples, equipment, conditions, "
+        "characterisation, and unread quantities (each unread one is also a gap)",
+    )
     gaps: list[Gap] = Field(default_factory=list)
     readings: list[BalanceReading] = Field(
         default_factory=list, description="balance readings from the entry's balance_log files"
@@ -455,6 +464,12 @@ class MetricsReport(_Model):
 # --------------------------------------------------------------------------------------
 # What the stages of one entry's run hand each other (see capture.hookspecs)
 # --------------------------------------------------------------------------------------
+# roles that mark a line of masstrail_extract_amounts as not an input: every quantity of an
+# entry is an input, recovered, or one of these
+SET_ASIDE_ROLES = frozenset({"product", "intermediate", "sample", "equipment", "condition",
+                             "characterisation", "unread"})  # fmt: skip
+
+
 class MergedMaterials(_Model):
     """The entry's material lines after the text was merged with the structured records."""
 
@@ -462,6 +477,9 @@ class MergedMaterials(_Model):
     recovered: list[MaterialLine] = Field(default_factory=list, description="credited lines")
     product_mention: MaterialLine | None = Field(
         None, description="the product as the text reports it (`... to give X (2.41 g)`)"
+    )
+    set_aside: list[MaterialLine] = Field(
+        default_factory=list, description="the quantities that are not inputs (SET_ASIDE_ROLES)"
     )
     gaps: list[Gap] = Field(default_factory=list, description="conflicting records")
 

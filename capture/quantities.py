@@ -34,18 +34,20 @@ def _add(names: str, pint_unit: str, kind: Kind) -> None:
         _UNITS[name] = (pint_unit, kind)
 
 
+# the spellings real write-ups use ("0.010 gm", "450 mgs", "0.044 mMol", "10 cm3") are listed
+# too; a unit followed by a full stop ("52.4 g.") is read by parse_amount
 _add("ug mcg μg", "microgram", "mass")
-_add("mg", "milligram", "mass")
-_add("g gram grams", "gram", "mass")
-_add("kg", "kilogram", "mass")
-_add("uL ul μL μl", "microliter", "volume")
-_add("mL ml cm3 cc", "milliliter", "volume")
+_add("mg mgs milligram milligrams", "milligram", "mass")
+_add("g gm gms gram grams", "gram", "mass")
+_add("kg kgs kilogram kilograms", "kilogram", "mass")
+_add("uL ul μL μl microliter microliters microlitre microlitres", "microliter", "volume")
+_add("mL ml cm3 cc milliliter milliliters millilitre millilitres", "milliliter", "volume")
 _add("cL cl", "centiliter", "volume")
 _add("dL dl", "deciliter", "volume")
-_add("L l", "liter", "volume")
-_add("umol μmol", "micromole", "amount")
-_add("mmol", "millimole", "amount")
-_add("mol", "mole", "amount")
+_add("L l liter liters litre litres", "liter", "volume")
+_add("umol μmol μmole μmoles micromol micromole micromoles", "micromole", "amount")
+_add("mmol mMol mmole mmoles mmols millimol millimole millimoles", "millimole", "amount")
+_add("mol mole moles mols", "mole", "amount")
 _add("equiv equiv. eq eq. equivalent equivalents equivs", "equivalent", "equivalents")
 _add("M mol/L mol/l", "molar", "concentration")
 _add("mM mmol/L mmol/l", "millimolar", "concentration")
@@ -209,6 +211,8 @@ def parse_amount(text: str, span: tuple[int, int] | None = None) -> AmountMentio
     if not m:
         raise AmountError(f"{original!r} is not an amount; write a number and a unit, e.g. '2.5 g'")
     unit = (m.group("unit") or "").strip()
+    if unit.endswith(".") and unit not in _UNITS and unit[:-1] in _UNITS:
+        unit = unit[:-1]  # "52.4 g." at the end of a sentence
     if not unit:
         raise AmountError(f"{original!r} has no unit; write e.g. '{s} g' or '{s} mL'")
     if unit in _REFUSED:

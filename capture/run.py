@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING
 
 from capture.fingerprint import GENERATOR, file_stat
 from capture.models import (
+    SET_ASIDE_ROLES,
     SEVERITY_RANK,
     AmountMention,
     BalanceMass,
@@ -120,7 +121,8 @@ def compute(nb: Notebook, entry: Entry) -> Result:
               "recovered": merged.recovered, "limiting": limiting, "reaction": reaction,
               "resolve": resolve, "config": config}  # fmt: skip
     checks = flatten(hook.masstrail_check_records(**common))
-    gaps = (flatten(hook.masstrail_find_gaps(checks=checks, **common))
+    found = hook.masstrail_find_gaps(checks=checks, set_aside=merged.set_aside, **common)
+    gaps = (flatten(found)
             + [c.gap for c in checks if c.gap is not None] + gaps)  # fmt: skip
     graded = hook.masstrail_grade_gaps(entry=entry, gaps=gaps, materials=materials,
                                        product=product, config=config)  # fmt: skip
@@ -136,6 +138,7 @@ def compute(nb: Notebook, entry: Entry) -> Result:
         product=product,
         materials=materials,
         recovered=merged.recovered,
+        set_aside=merged.set_aside,
         gaps=gaps,
         readings=readings,
         checks=checks,
@@ -151,11 +154,13 @@ def _meta(entry: Entry) -> dict[str, str | None]:
 
 
 def _unmerged(lines: list[MaterialLine]) -> MergedMaterials:
-    """Without a merging plugin every input line counts (the product's mention is not one)."""
+    """Without a merging plugin every input line counts (the set-aside lines are none)."""
+    set_aside = [m for m in lines if m.role in SET_ASIDE_ROLES]
     return MergedMaterials(
-        materials=[m for m in lines if m.role not in {"product", "recovered"}],
+        materials=[m for m in lines if m.role not in SET_ASIDE_ROLES | {"recovered"}],
         recovered=[m for m in lines if m.role == "recovered"],
-        product_mention=next((m for m in lines if m.role == "product"), None),
+        product_mention=next((m for m in set_aside if m.role == "product"), None),
+        set_aside=set_aside,
     )
 
 
@@ -166,8 +171,8 @@ def describe(nb: Notebook, line: MaterialLine) -> MaterialInfo | None:
     return the knowledge it is weighed with. The product's mention is an output, and a
     recovered line is credited, not waste: it takes only its name and category."""
     hook, config = nb.pm.hook, nb.config
-    if line.role == "product":
-        return None
+    if line.role in SET_ASIDE_ROLES:
+        return None  # not an input: the product's mention, an intermediate, unread …
     if line.role == "recovered":
         info = nb.resolve(line.name)
         if info is not None:

@@ -160,16 +160,20 @@ _LEADING = re.compile(
     re.I,
 )
 
-# a name with one of these words is never an input: equipment, intermediates, outputs
-_NOT_MATERIAL = {"vial", "vials", "flask", "flasks", "tube", "tubes", "schlenk", "beaker",
-                 "beakers", "funnel", "funnels", "syringe", "syringes", "cylinder", "cylinders",
-                 "vessel", "vessels", "reactor", "reactors", "bottle", "bottles", "ampoule",
-                 "ampoules", "jar", "jars", "cartridge", "cartridges", "crude", "residue",
-                 "filtrate", "filtrates", "layer", "layers", "phase", "phases", "extract",
-                 "extracts", "combined", "aliquot", "aliquots", "sample", "samples", "bath",
-                 "condenser", "concentrate", "eluate", "fraction", "fractions", "liquor",
-                 "liquors", "supernatant", "product", "compound", "total", "volume", "yield",
-                 "sealed", "dried", "portion", "portions", "washing", "washings"}  # fmt: skip
+# words that make a phrase something other than a material, by what it is instead
+EQUIPMENT_WORDS = {"vial", "vials", "flask", "flasks", "tube", "tubes", "schlenk", "beaker",
+                   "beakers", "funnel", "funnels", "syringe", "syringes", "cylinder", "cylinders",
+                   "vessel", "vessels", "reactor", "reactors", "bottle", "bottles", "ampoule",
+                   "ampoules", "jar", "jars", "cartridge", "cartridges", "bath", "condenser",
+                   "autoclave", "bomb", "pot", "kettle", "container", "sealed"}  # fmt: skip
+INTERMEDIATE_WORDS = {"crude", "residue", "filtrate", "filtrates", "layer", "layers", "phase",
+                      "phases", "extract", "extracts", "combined", "concentrate", "eluate",
+                      "fraction", "fractions", "liquor", "liquors", "supernatant", "washing",
+                      "washings", "portion", "portions"}  # fmt: skip
+SAMPLE_WORDS = {"aliquot", "aliquots", "sample", "samples"}
+PRODUCT_WORDS = {"product", "compound", "yield"}
+_NOT_MATERIAL = (EQUIPMENT_WORDS | INTERMEDIATE_WORDS | SAMPLE_WORDS | PRODUCT_WORDS
+                 | {"total", "volume", "dried"})  # fmt: skip
 
 # words that describe a material's form, not which material it is; dropped from names
 _GENERIC = {"mixture", "solution", "suspension", "slurry", "solid", "oil", "foam", "gum",
@@ -179,6 +183,21 @@ _GENERIC = {"mixture", "solution", "suspension", "slurry", "solid", "oil", "foam
             "above", "this", "that", "it"}  # fmt: skip
 
 _OIL_KEEPERS = {"mineral", "silicone", "paraffin"}
+_FORMS = {
+    "solid",
+    "oil",
+    "foam",
+    "gum",
+    "precipitate",
+    "powder",
+    "material",
+    "crystals",
+    "mixture",
+    "solution",
+    "suspension",
+    "slurry",
+    "batch",
+}
 
 _OPERATION_NAMES = re.compile(
     r"^(?:[\w-]+\s+)*chromatography$|^(?:flash\s+)?(?:column\s+)?(?:chromatography|"
@@ -196,6 +215,26 @@ _PUNCT = "()[]{},;:.!?\"'"
 @functools.lru_cache(maxsize=8192)
 def clean_name(name: str) -> str | None:
     """The material name in ``name``, without grades and descriptions; None if it is none."""
+    return _clean(name, 80)[0]
+
+
+@functools.lru_cache(maxsize=8192)
+def read_name(name: str) -> tuple[str | None, str | None]:
+    """(the material name in ``name``, None), or (None, what the phrase names instead:
+    "equipment", "intermediate", "sample" or "product"), or (None, None). Systematic names
+    of any length are kept (up to 300 characters)."""
+    return _clean(name, 300)
+
+
+def _what(parts: set[str]) -> str | None:
+    for what, words in (("intermediate", INTERMEDIATE_WORDS), ("sample", SAMPLE_WORDS),
+                        ("product", PRODUCT_WORDS), ("equipment", EQUIPMENT_WORDS)):  # fmt: skip
+        if parts & words:
+            return what
+    return None
+
+
+def _clean(name: str, max_len: int) -> tuple[str | None, str | None]:
     name = name.strip(" ,;:")
     while True:
         stripped = _LEADING.sub("", name)
@@ -203,15 +242,17 @@ def clean_name(name: str) -> str | None:
             break
         name = stripped
     name = name.strip(" ,;:")
-    if not name or len(name) > 80 or not _LETTER.search(name):
-        return None
+    if not name or len(name) > max_len or not _LETTER.search(name):
+        return None, None
     words = name.split()
     if len(words) > 6:
-        return None
+        return None, None
     lowered = [w.strip(_PUNCT).lower() for w in words]
     parts = {p for w in lowered for p in w.split("-")}
-    if parts & _NOT_MATERIAL or _OPERATION_NAMES.match(name):
-        return None
+    if _OPERATION_NAMES.match(name):
+        return None, None
+    if parts & _NOT_MATERIAL:
+        return None, _what(parts)
     if parts & _GENERIC:
         kept = [
             w
@@ -220,7 +261,8 @@ def clean_name(name: str) -> str | None:
         ]
         name = _LEADING.sub("", " ".join(kept) + " ").strip()
         if not name or name.lower() in {"a", "an", "the", "of", "aqueous", "organic"}:
-            return None
+            # "the solid", "a yellow oil": a mass of what the experiment made, not an input
+            return None, "intermediate" if parts & _FORMS else None
     if name.endswith(" of"):
-        return None
-    return name
+        return None, None
+    return name, None

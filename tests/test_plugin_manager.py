@@ -118,7 +118,13 @@ def outside_plugin(tmp_path):
 
 
 def test_an_outside_plugin_takes_effect(notebook, outside_plugin):
-    notebook.write("a.md", entry_md("product: {name: p, mass: 1 g}", "Weighed in the glovebox."))
+    notebook.write(
+        "a.md",
+        entry_md(
+            "product: {name: p, mass: 1 g}\nmaterials: [{name: A, amount: 3 g}]",
+            "Weighed in the glovebox.",
+        ),
+    )
     (result,) = scan(Notebook.open(notebook.root)).results
     assert [g.kind for g in result.gaps] == ["glovebox_gloves"]
     rows = {r["name"]: r for r in describe_plugins(get_plugin_manager())}

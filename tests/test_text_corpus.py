@@ -173,17 +173,17 @@ def _dump(groups) -> list:
 
 
 def test_the_shortcuts_agree_with_the_part_reader_on_the_corpora():
-    from masstrail_plugins.extract.text import _MAYBE_AMOUNT, _plain_group, _read_parts
+    from masstrail_plugins.extract.brackets import MAYBE_AMOUNT, plain_group, read_parts
 
     contents = _brackets()
     plain = skipped = 0
     for content in contents:
-        general = _read_parts(content, 100, "toluene", None)
-        fast = _plain_group(content, 100, "toluene")
+        general = read_parts(content, 100, "toluene", None)
+        fast = plain_group(content, 100, "toluene")
         if fast is not None:
             plain += 1
             assert _dump([fast]) == _dump(general), content
-        if content.isascii() and not _MAYBE_AMOUNT.search(content):
+        if content.isascii() and not MAYBE_AMOUNT.search(content):
             skipped += 1
             assert general == [], content
     # both shortcuts are exercised (figures from the corpora as committed)
@@ -213,12 +213,12 @@ _PART = st.one_of(
 
 @given(st.lists(_PART, min_size=1, max_size=4), st.sampled_from([", ", "; ", ",", " , "]))
 def test_the_shortcuts_agree_with_the_part_reader_on_generated_brackets(parts, sep):
-    from masstrail_plugins.extract.text import _MAYBE_AMOUNT, _plain_group, _read_parts
+    from masstrail_plugins.extract.brackets import MAYBE_AMOUNT, plain_group, read_parts
 
     content = sep.join(parts)
-    general = _read_parts(content, 0, "toluene", None)
-    fast = _plain_group(content, 0, "toluene")
+    general = read_parts(content, 0, "toluene", None)
+    fast = plain_group(content, 0, "toluene")
     if fast is not None:
         assert _dump([fast]) == _dump(general)
-    if content.isascii() and not _MAYBE_AMOUNT.search(content):
+    if content.isascii() and not MAYBE_AMOUNT.search(content):
         assert general == []

@@ -10,8 +10,11 @@ Plugin ``merge`` (``masstrail_merge_materials``):
   is a second line;
 - the same material at another stage (the reaction solvent, then the recrystallisation
   solvent) is a second use and counts;
-- a text mention named like the entry's product is not an input; the first product mention
-  (``… to give the amide (2.41 g)``) is handed on as the product's text record.
+- a text mention named like the entry's product is not an input: it is set aside as a
+  mention of the product, with every other quantity that is not an input (intermediates,
+  samples, equipment, conditions, characterisation, unread);
+- the product's text record is its last isolated mention (``… to give the amide (2.41 g)``),
+  else its last crude one: a recrystallised product wins over the crude mass before it.
 
 Stages are compared only when both lines know theirs: ``washed with ice-cold ethanol
 (2 × 5 mL)`` is not the ``ethanol, 10 mL`` used as the reaction solvent.
@@ -22,7 +25,14 @@ from __future__ import annotations
 from capture.chem import material_key
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
-from capture.models import AmountMention, Entry, Gap, MaterialLine, MergedMaterials
+from capture.models import (
+    SET_ASIDE_ROLES,
+    AmountMention,
+    Entry,
+    Gap,
+    MaterialLine,
+    MergedMaterials,
+)
 
 STRUCTURED = {"front-matter", "table"}
 
@@ -57,21 +67,29 @@ def _conflict(kept: MaterialLine, line: MaterialLine) -> Gap:
     )
 
 
+def _product_mention(set_aside: list[MaterialLine]) -> MaterialLine | None:
+    """The last isolated mention of the product, else the last crude one."""
+    mentions = [m for m in set_aside if m.role == "product" and m.amounts]
+    isolated = [m for m in mentions if m.note != "crude"]
+    return (isolated or mentions or [None])[-1]
+
+
 @hookimpl(specname="masstrail_merge_materials")
 def merge_text_with_records(
     entry: Entry, lines: list[MaterialLine], config: LabConfig
 ) -> MergedMaterials:
-    """Structured lines first; the text's lines that add a use; the product's mention apart."""
-    apart = {"recovered", "product"}
+    """Structured lines first; the text's lines that add a use; the rest set aside."""
+    apart = SET_ASIDE_ROLES | {"recovered"}
     structured = [m for m in lines if m.origin in STRUCTURED and m.role not in apart]
     recovered = [m for m in lines if m.role == "recovered"]
-    mention = next((m for m in lines if m.role == "product"), None)
+    set_aside = [m for m in lines if m.role in SET_ASIDE_ROLES]
     product_key = material_key(entry.product.name) if entry.product.name else None
     materials, gaps = list(structured), []
     for line in lines:
         if line.origin in STRUCTURED or line.role in apart:
             continue
         if _key(line) == product_key:
+            set_aside.append(line.model_copy(update={"role": "product", "stage": None}))
             continue
         same = [o for o in structured if _key(o) == _key(line) and same_stage(o, line)]
         if not same:
@@ -84,5 +102,7 @@ def merge_text_with_records(
             materials.append(line)  # e.g. a mass in the text, a volume in the table
             continue
         gaps.append(_conflict(same[0], line))
-    return MergedMaterials(materials=materials, recovered=recovered, product_mention=mention,
+    set_aside.sort(key=lambda m: min((a.span[0] for a in m.amounts if a.span), default=0))
+    return MergedMaterials(materials=materials, recovered=recovered,
+                           product_mention=_product_mention(set_aside), set_aside=set_aside,
                            gaps=gaps)  # fmt: skip

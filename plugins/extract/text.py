@@ -1,108 +1,106 @@
-"""Amounts in procedure text, read the way chemists write them.
+"""Amounts in procedure text, read the way chemists write them, each one accounted for.
 
-The extractor works sentence by sentence, in this order:
+Plugin ``text`` (``masstrail_extract_amounts``). The reader works sentence by sentence:
 
-1. **Sentences.** The text is split at full stops that end a sentence (not
-   the one in ``sat. aq.`` or ``ca.``). Characterisation sentences (NMR, MS,
-   IR, mp, Rf, TLC) are passed over whole.
-2. **Bracket groups.** Each ``(…)`` whose parts include an amount is a
-   mention. Its parts are read one by one: amounts (``4.36 g``, ``3 × 40 mL``,
-   ``2.0 equiv``), solution descriptions (``1.4 M in cyclohexane``,
-   ``60% in mineral oil``), mixture descriptions (``cyclohexane/acetone 9:1``)
-   and material names (``SiO2`` in ``(SiO2, 35 g; …)``). A name inside the
-   bracket starts a new material; amounts attach to the material before them.
-3. **The name before the bracket** is the text back to the nearest boundary
-   word (with, in, over, of, and, …) or comma-and-space, with grades
-   (``dry``, ``anhydrous``) dropped. Operation words (``dried``,
-   ``chromatography``), equipment (``vial``, ``flask``), intermediates
-   (``the crude residue``, ``the combined filtrates``), aliquots and baths are
-   not materials.
-4. **Mixtures** (``20% acetone in heptane``, ``toluene/MeOH 19:1``,
-   ``1:1 pentane/Et2O``) are split by volume fraction into one line per
-   component (ideal mixing, said in the line's ``note``).
-5. **Operation and stage** come from the nearest operation word before the
-   mention in its sentence (else the first one after it): reaction, quench,
-   extraction, wash, drying, filtration, chromatography, recrystallisation,
-   trituration, distillation.
-6. **The product** (``to give … (2.84 g, 81%)``) comes back as a line with
-   role ``product``; the pipeline uses it for the product mass when the front
-   matter gives none, and never counts it as an input.
+1. **Sentences** are split at full stops that end a sentence (not the one in ``sat. aq.``
+   or ``ca.``); table rows are left to the readers.
+2. **Characterisation** (``; mp 71–72 °C``, ``, Rf 0.4``, ``: 1H NMR (…)``, HRMS, IR) is the
+   tail of a sentence: it is cut off there, and what comes before is read.
+3. **The ledger**: every quantity with a mass, volume or amount-of-substance unit
+   (``4.36 g``, ``3 × 40 mL``, ``50 ml×2``, ``6–8 mL``, ``0.044 mMol``, ``52.4 g.``) is listed,
+   and each must end in exactly one class: an input, the product, an intermediate or crude
+   mass, a sample, equipment, a condition, characterisation, or **unread**.
+4. **Quantities before their name** (``0.8 g (3.93 mmol) of X``, ``in 10 mL EtOH``,
+   ``8.16 g ammonium acetate (106 mmol)``) are read with the name after them
+   (:func:`masstrail_plugins.extract.names.name_after`); a bracket of amounts right after
+   the quantity or the name belongs to the same mention.
+5. **Bracket groups** (``X (2.0 g, 5.0 mmol)``) are read with the name before them
+   (:mod:`~masstrail_plugins.extract.brackets`, :func:`~masstrail_plugins.extract.names.name_before`);
+   mixtures (``toluene/MeOH 19:1 (300 mL)``) are split by volume fraction.
+6. **Classes.** A mention after a product word (``to give``, ``afforded``, ``to obtain``; not
+   ``obtained in Example 3``) up to the end of its clause, one named ``the title compound``,
+   one followed by ``was obtained``, or a bracket with a yield (``(2.41 g, 86%)``) is the
+   product; crude masses, residues and fractions are intermediates; aliquots are samples;
+   flasks and vials are equipment; ``concentrated to 50 mL`` and rates (``5 mL/min``) are
+   conditions. Inputs get the operation and stage of the nearest operation word.
+
+Lines come back with their ``role``: None for inputs, else ``product``, ``intermediate``,
+``sample``, ``equipment``, ``condition``, ``characterisation`` or ``unread``; the merge
+keeps the inputs and sets the rest aside, and each unread quantity becomes a gap.
 """
 
 from __future__ import annotations
 
-import contextlib
 import functools
 import re
+from dataclasses import dataclass
 
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import AmountMention, Entry, MaterialLine, Stage
-from capture.quantities import UNITS, AmountError, normalise, parse_amount, plain_amount
-from masstrail_plugins.prose import (
-    CHAR_HINT,
-    CHARACTERISATION,
-    OPERATION_STAGE,
-    OPERATION_STEMS,
-    clean_name,
-    sentences,
+from capture.quantities import UNITS, AmountError, parse_amount
+from masstrail_plugins.extract.brackets import (
+    MAYBE_AMOUNT,
+    PERCENT_ONLY,
+    Group,
+    mixture_before,
+    parts,
+    read_group,
 )
-
-# The hot path works on words, not on large case-insensitive regular expressions:
-# a sentence is cut into words once, and each word is looked up in small tables.
-
+from masstrail_plugins.extract.names import name_after, name_before
+from masstrail_plugins.prose import CHARACTERISATION, OPERATION_STAGE, OPERATION_STEMS, sentences
 
 # words that introduce the product: the mention after them is an output, not an input
-_PRODUCT_WORDS = {"give", "gave", "giving", "afford", "afforded", "affording", "provide",
-                  "provided", "providing", "furnish", "furnished", "furnishing", "yielded",
-                  "yielding", "obtained", "leaving", "left"}  # fmt: skip
-# a bracket group, allowing one level of nested brackets inside
-_GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtracking
-_WORD = re.compile(r"\S+")
-# "… and the product was recrystallised": an operation after this belongs to another clause
-_NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
-# a name ends at the word after one of these (or after a word ending in , ; :)
-_BOUNDARY_WORDS = {"with", "in", "over", "of", "and", "to", "from", "using", "by", "into", "onto",
-                   "added", "then", "was", "were", "is", "are", "through", "on", "at", "for",
-                   "containing", "followed", "via", "after", "before", "under", "as", "or",
-                   "plus", "while", "whereupon", "which", "that", "dropwise", "portionwise",
-                   "slowly", "treated", "charged", "eluting", "eluted", "afforded", "gave",
-                   "between", "washing", "rinsing", "quenched", "diluted", "extracted", "washed",
-                   "rinsed", "dissolved", "suspended", "stirred", "heated", "cooled",
-                   "recrystallised", "recrystallized", "triturated", "flushed", "poured",
-                   "loaded", "passed", "filtered", "dried", "purified", "including", "namely",
-                   "also"}  # fmt: skip
-_SOLUTION_PART = re.compile(
-    r"^(?P<c>\d+(?:[.,]\d+)?)\s*(?P<u>M|mM|mol/L)\s+(?:solution\s+)?in\s+(?P<solv>.+)$"
+_PRODUCT_WORDS = {"give", "gave", "giving", "gives", "afford", "afforded", "affording", "affords",
+                  "provide", "provided", "providing", "provides", "furnish", "furnished",
+                  "furnishing", "yielded", "yielding", "obtained", "obtain", "obtaining",
+                  "leaving", "left", "to yield"}  # fmt: skip
+# "obtained in Example 3", "obtained from step 2": a reference, not the product
+_NOT_PRODUCT_AFTER = re.compile(
+    r"\s+(?:in|from|as\s+(?:described|in)|according|above|by\s+the|following|under)\b", re.I
 )
-_FRACTION_PART = re.compile(
-    r"^(?P<p>\d+(?:[.,]\d+)?)\s*(?:wt\s*)?%\s*(?:w/w\s+|wt\s+)?(?:dispersion\s+|suspension\s+|"
-    r"solution\s+)?in\s+(?P<solv>.+)$",
+# a product word's reach ends with its clause
+_CLAUSE_END = re.compile(r",\s*which\b|;|\band\s+then\b|\bthen\b|,\s*and\s+(?=\w+\s+(?:was|were))")
+# "(ca. 30 mL remained)", "(24 L collected for reuse)", "30 mL of solvent were distilled off":
+# what left the flask, not an input
+_TAKEN_OUT = re.compile(
+    r"^\s*(?:was|were|had\s+been|has\s+been|is|are)\s+(?:then\s+)?(?:collected|distilled|"
+    r"evaporated|removed|recovered|withdrawn|taken\s+out)\b",
     re.I,
 )
+_TAKEN_OUT_INSIDE = re.compile(
+    r"^\s*(?:remained|remaining|left|collected|distilled|evaporated|removed|recovered)\b", re.I
+)
+_PASSIVE_PRODUCT = re.compile(
+    r"^\s*(?:was|were)\s+(?:then\s+)?(?:obtained|isolated|collected|afforded|produced|formed)\b"
+)
+# a bracket group, allowing one level of nested brackets inside
+_GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtracking
+# "… and the product was recrystallised": an operation after this belongs to another clause
+_NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
 _DIGIT = re.compile(r"\d")
-# what an amount can start with: a digit, a qualifier (ca., approx., ~, ≈) or a decimal point
-_AMOUNT_START = re.compile(r"[\d.,~≈∼<>]|(?:ca|c\.|approx|about|circa)", re.I)
-_PART_SEP = re.compile(r";|,(?=\s)")
-_BARE_NUMBERS = re.compile(r"[\d.,:\s]+")
-_PERCENT_ONLY = re.compile(r"^[<>~≈]?\s*\d+(?:[.,]\d+)?\s*%(?:\s*\w+)?$")
-_NAME_TOKEN = r"[A-Za-z0-9(\[][\w\-'·,()\[\]]*"
-_RATIO = r"\d+(?:\.\d+)?(?:\s*:\s*\d+(?:\.\d+)?)+"
-_MIX_PERCENT = re.compile(
-    rf"(?P<p>\d+(?:\.\d+)?)\s*%\s*(?:v/v\s+)?(?P<a>{_NAME_TOKEN}(?:\s+[a-z][\w\-]*)?)\s+in\s+"
-    rf"(?P<b>{_NAME_TOKEN}(?:\s+[a-z][\w\-]*)?)\s*$"
-)
-_MIX_SLASH_RATIO = re.compile(
-    rf"(?P<names>{_NAME_TOKEN}(?:\s*/\s*{_NAME_TOKEN})+)\s*\(?(?P<r>{_RATIO})\)?\s*(?:v/v)?\s*$"
-)
-_MIX_RATIO_SLASH = re.compile(
-    rf"(?P<r>{_RATIO})\s*(?:v/v\s+)?(?P<names>{_NAME_TOKEN}(?:\s*/\s*{_NAME_TOKEN})+)\s*$"
-)
+_GLASSWARE_DRIED = re.compile(r"\b(?:oven|flame|heat)[- ]$", re.I)
 _AQUEOUS_SOLUTION = re.compile(
     r"^(?:\d+(?:\.\d+)?\s*(?:M|N)\s+\S|\d+(?:\.\d+)?\s*%\s*(?:aq\.?|aqueous)\s+\S|"
     r"(?:sat\.?|saturated)\s+(?:aq\.?|aqueous)\s+\S|(?:aq\.?|aqueous)\s+\S)"
 )
-
+# the ledger's units: mass, volume, amount of substance (as written, longest first)
+_LEDGER_UNITS = "|".join(
+    sorted((re.escape(u) for u, (_, kind) in UNITS.items() if kind in {"mass", "volume", "amount"}),
+           key=len, reverse=True)
+)  # fmt: skip
+_QUANTITY = re.compile(
+    r"(?<![\w.,/-])(?P<q>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?(?:\d+\s*[×xX*]\s*)?"
+    r"(?:\d+(?:[.,]\d+)?|[.,]\d+)(?:\s*(?:-|–|—|to)\s*\d+(?:[.,]\d+)?)?"
+    rf"\s*(?P<unit>{_LEDGER_UNITS}))(?![\w/])(?P<dot>\.(?!\d))?"
+    r"(?:\s*[×x]\s*(?P<times>\d)(?![\d.]))?"
+)
+# "concentrated to 50 mL", "to a volume of 10 mL", "diluted to ca. 100 mL": a condition
+_CONDITION_BEFORE = re.compile(
+    r"\b(?:to|until)\s+(?:a\s+)?(?:total\s+)?(?:final\s+)?(?:volume\s+of\s+)?"
+    r"(?:about\s+|ca\.?\s+|approx(?:imately|\.)?\s+|~\s*)?$|\bvolume\s+of\s+(?:about\s+|ca\.?\s+)?$",
+    re.I,
+)
 
 # one regular expression over the lower-cased sentence finds the operation and product words
 _KEYWORDS = re.compile(
@@ -111,28 +109,40 @@ _KEYWORDS = re.compile(
 )
 
 
+@dataclass(slots=True)
+class _Quantity:
+    start: int  # in the sentence
+    end: int
+    amount: AmountMention | None  # None when it cannot be read (its text is kept)
+    text: str
+
+
 class _Sentence:
-    """One sentence read once: where its operation words and its product word are."""
+    """One sentence read once: its operation words and where its product clauses are."""
 
     def __init__(self, text: str) -> None:
         self.text = text
         self._evidence: str | None = None
         self.operations: list[tuple[int, str, Stage]] = []
-        self.product_at: int | None = None
-        self.product_end = 0
+        self.products: list[tuple[int, int]] = []  # (product word's end, its clause's end)
         for m in _KEYWORDS.finditer(text.lower()):
             stem = m.group("op")
             if stem is not None:
+                if stem == "dried" and _GLASSWARE_DRIED.search(text, 0, m.start()):
+                    continue  # "an oven-dried vial": glassware, not a drying step
                 op = OPERATION_STEMS[stem]
                 self.operations.append((m.start(), op, OPERATION_STAGE[op]))
-            elif self.product_at is None:
-                self.product_at, self.product_end = m.start(), m.end()
+            elif not _NOT_PRODUCT_AFTER.match(text, m.end()):
+                end = _CLAUSE_END.search(text, m.end())
+                self.products.append((m.end(), end.start() if end else len(text)))
+
+    def in_product_clause(self, pos: int) -> bool:
+        return any(a <= pos < b for a, b in self.products)
 
     @property
     def evidence(self) -> str:
         """The sentence with its white space folded, as evidence for its mentions."""
         if self._evidence is None:
-            # fold the white space of the first 600 characters; all of it if that is too short
             folded = " ".join(self.text[:600].split())
             if len(folded) < 300 and len(self.text) > 600:
                 folded = " ".join(self.text.split())
@@ -156,185 +166,30 @@ class _Sentence:
         return (hit[1], hit[2]) if hit else ("reaction", "reaction")
 
 
-_MAX_NAME_WORDS = 6
-
-
-def _name_before(text: str) -> str | None:
-    """The material name that ends where ``text`` ends, or None.
-
-    Walks back word by word to the nearest boundary: a boundary word (with, in, over, …)
-    or a word that ends in a comma, semicolon or colon.
-    """
-    # the walk below looks at no more than the last _MAX_NAME_WORDS + 3 words
-    words = text[-200:].rsplit(None, _MAX_NAME_WORDS + 3)
-    if words and (len(text) > 200 or len(words) > _MAX_NAME_WORDS + 3):
-        words = words[1:]  # the first word may be cut, or holds all the words out of reach
-    start = 0
-    for i in range(len(words) - 1, -1, -1):
-        w = words[i]
-        if w.lower() in _BOUNDARY_WORDS:
-            start = i + 1
-            break
-        if w[-1] in ",;:":
-            start = i + 1
-            break
-        if len(words) - i > _MAX_NAME_WORDS + 2:
-            return None  # no boundary in reach: not a name
-    else:
-        if len(text) > 200:
-            return None
-    return clean_name(" ".join(words[start:]))
-
-
-def _mixture_before(text: str) -> tuple[str, list[tuple[str, float]]] | None:
-    """A mixture named at the end of ``text``: (as written, [(component, volume fraction)])."""
-    text = text[-120:]
-    if "%" not in text and "/" not in text:
-        return None
-    m = _MIX_PERCENT.search(text) if "%" in text else None
-    if m:
-        p = float(m.group("p")) / 100
-        if 0 < p < 1:
-            a, b = clean_name(m.group("a")), clean_name(m.group("b"))
-            if a and b:
-                return m.group(0).strip(), [(a, p), (b, 1 - p)]
-    if "/" not in text:
-        return None
-    for rx in (_MIX_SLASH_RATIO, _MIX_RATIO_SLASH):
-        m = rx.search(text)
-        if not m:
-            continue
-        names = [n.strip() for n in m.group("names").split("/")]
-        ratio = [float(x) for x in m.group("r").replace(" ", "").split(":")]
-        if len(names) != len(ratio) or sum(ratio) <= 0:
-            continue
-        cleaned = [clean_name(n) for n in names]
-        if all(cleaned):
-            total = sum(ratio)
-            return m.group(0).strip(), [(c, r / total) for c, r in zip(cleaned, ratio, strict=True)]
-    return None
-
-
-def _parts(content: str, offset: int) -> list[tuple[str, int]]:
-    """Split bracket content at ';' and ', ' (a comma with a space), keeping offsets."""
+def _quantities(text: str, offset: int) -> list[_Quantity]:
+    """Every mass, volume and amount of substance in ``text`` (``offset``: its place in the body)."""
     out = []
-    pos = 0
-    for m in _PART_SEP.finditer(content + ";"):
-        piece = content[pos : m.start()]
-        lead = len(piece) - len(piece.lstrip())
-        if piece.strip():
-            out.append((piece.strip(), offset + pos + lead))
-        pos = m.end()
+    for m in _QUANTITY.finditer(text):
+        core = m.group("q")
+        span = (offset + m.start(), offset + m.end())
+        try:
+            amount = parse_amount(core, span)
+        except AmountError:
+            amount = None
+        written = text[m.start() : m.end()].rstrip(".")
+        if amount is not None and (m.group("times") or m.group("dot")):
+            times = int(m.group("times") or 1)
+            amount = amount.model_copy(update={"multiplier": amount.multiplier * times,
+                                               "text": written})  # fmt: skip
+        out.append(_Quantity(m.start(), m.start() + len(written), amount, written))
     return out
 
 
-class _Group:
-    """One material inside a bracket, as it is being read."""
-
-    __slots__ = ("amounts", "mixture", "name", "solvent", "texts")
-
-    def __init__(self, name: str | None, mixture: tuple[str, list] | None = None) -> None:
-        self.name = name
-        self.mixture = mixture
-        self.amounts: list[AmountMention] = []
-        self.solvent: str | None = None
-        self.texts: list[str] = []
-
-
-# "2.76 g", "3 × 40 mL" or a yield "81%", then ", " or "; " or the end of the bracket
-_PLAIN_AMOUNT = re.compile(r"(?:(\d+) ?[×xX*] ?)?(\d+(?:\.\d+)?) ?([A-Za-z]+|%)(?:[,;] |$)")
-
-
-def _plain_group(content: str, offset: int, name: str) -> _Group | None:
-    """The commonest brackets, "(2.76 g, 20.0 mmol)" and "(3 × 40 mL)": plain amounts only
-    (a percentage among them is a yield or a purity and is passed over), read in one pass.
-    None when the bracket holds anything else; :func:`_read_group` then reads it part by part.
-    """
-    group = _Group(name)
-    pos = 0
-    for m in _PLAIN_AMOUNT.finditer(content):
-        if m.start() != pos:
-            return None
-        pos = m.end()
-        unit = m.group(3)
-        if unit == "%":
-            continue
-        begin = m.start(1) if m.group(1) else m.start(2)
-        text = content[begin : m.end(3)]
-        amount = plain_amount(
-            m.group(2),
-            unit,
-            text,
-            (offset + begin, offset + m.end(3)),
-            int(m.group(1)) if m.group(1) else 1,
-        )
-        if amount is None:
-            return None
-        group.amounts.append(amount)
-        group.texts.append(text)
-    return group if pos == len(content) and group.amounts else None
-
-
-# Every amount in a bracket ends a part (before ";", ", " or the bracket's end) with a number
-# and a unit, or is a solution's "1.4 M in …". An ASCII bracket with neither ("PPh3",
-# "2 h", "24 L collected for reuse") holds no amount and is passed over without reading.
-_UNIT_WORDS = "|".join(sorted((re.escape(u) for u in UNITS if u.isascii()), key=len, reverse=True))
-_MAYBE_AMOUNT = re.compile(
-    rf"\d\s*(?:(?:{_UNIT_WORDS})\s*(?:;|,\s|$)|(?:M|mM|mol/L)\s+(?:solution\s+)?in\s)"
-)
-
-
-def _read_group(content: str, offset: int, name: str | None, mixture) -> list[_Group]:
-    if name is not None and mixture is None:
-        plain = _plain_group(content, offset, name)
-        if plain is not None:
-            return [plain]
-    if content.isascii() and not _MAYBE_AMOUNT.search(content):
-        return []
-    return _read_parts(content, offset, name, mixture)
-
-
-def _read_parts(content: str, offset: int, name: str | None, mixture) -> list[_Group]:
-    """Read a bracket part by part: amounts, solutions, mixtures and names (the general path,
-    which the two shortcuts in :func:`_read_group` must agree with)."""
-    groups = [_Group(name, mixture)]
-    for part, start in _parts(content, offset):
-        span = (start, start + len(part))
-        if _AMOUNT_START.match(part):
-            try:
-                groups[-1].amounts.append(parse_amount(part, span))
-                groups[-1].texts.append(part)
-                continue
-            except AmountError:
-                pass
-        norm = normalise(part)
-        m = _SOLUTION_PART.match(norm)
-        if m:
-            with contextlib.suppress(AmountError):
-                groups[-1].amounts.append(parse_amount(f"{m.group('c')} {m.group('u')}", span))
-            groups[-1].solvent = clean_name(m.group("solv"))
-            groups[-1].texts.append(part)
-            continue
-        m = _FRACTION_PART.match(norm)
-        if m:
-            groups[-1].solvent = clean_name(m.group("solv"))
-            groups[-1].texts.append(part)
-            continue
-        if _PERCENT_ONLY.match(norm) or _BARE_NUMBERS.fullmatch(norm):
-            continue  # a yield, a purity or a bare ratio
-        mix = _mixture_before(norm)
-        if mix is not None:
-            groups.append(_Group(mix[0], mix))
-            continue
-        cleaned = clean_name(norm)
-        if cleaned is None:
-            continue
-        if groups[-1].name is None and not groups[-1].amounts:
-            groups[-1].name = cleaned  # "(Na2SO4, 5 g)" after "dried"
-        elif groups[-1].amounts:
-            groups.append(_Group(cleaned))  # "(SiO2, 35 g; DCM, 250 mL)": the next material
-        # else a description of the material before the bracket: "Carbon dioxide (dry ice, …)"
-    return [g for g in groups if g.amounts and g.name]
+def _line(name: str, amounts: list[AmountMention], role: str | None, op: tuple[str, Stage],
+          evidence: str, **extra) -> MaterialLine:  # fmt: skip
+    return MaterialLine(name=name, role=role, operation=op[0], stage=op[1] if role is None else None,
+                        stated=", ".join(a.text for a in amounts), amounts=amounts,
+                        origin="text", evidence=evidence, **extra)  # fmt: skip
 
 
 @functools.lru_cache(maxsize=4096)
@@ -342,114 +197,260 @@ def _aqueous(name: str | None) -> bool:
     return bool(name and _AQUEOUS_SOLUTION.match(name))
 
 
-def _lines_for(group: _Group, operation: str, stage: Stage, evidence: str) -> list[MaterialLine]:
+def _lines_for(group: Group, operation: str, stage: Stage, evidence: str) -> list[MaterialLine]:
     stated = ", ".join(group.texts)
     if group.solvent is None and _aqueous(group.name):
         group.solvent = "water"  # "3 M NaOH", "10% aq. K2CO3": aqueous by convention
     if group.mixture is None:
-        return [
-            MaterialLine(
-                name=group.name,
-                operation=operation,
-                stage=stage,
-                stated=stated,
-                amounts=group.amounts,
-                origin="text",
-                evidence=evidence,
-                solvent=group.solvent,
-            )
-        ]
+        return [MaterialLine(name=group.name, operation=operation, stage=stage, stated=stated,
+                             amounts=group.amounts, origin="text", evidence=evidence,
+                             solvent=group.solvent)]  # fmt: skip
     written, components = group.mixture
     volumes = [a for a in group.amounts if a.kind == "volume"]
     if not volumes:
         return []
     out = []
     for comp, fraction in components:
-        scaled = [
-            AmountMention(
-                value=a.value * fraction,
-                unit=a.unit,
-                kind=a.kind,
-                multiplier=a.multiplier,
-                approximate=a.approximate,
-                low=None if a.low is None else a.low * fraction,
-                high=None if a.high is None else a.high * fraction,
-                text=a.text,
-                span=a.span,
-            )
-            for a in volumes
-        ]
-        out.append(
-            MaterialLine(
-                name=comp,
-                operation=operation,
-                stage=stage,
-                stated=f"{written}, {stated}",
-                amounts=scaled,
-                origin="text",
-                evidence=evidence,
-                note=f"{fraction:.0%} by volume of {volumes[0].text} of '{written}' "
-                "(ideal mixing assumed)",
-            )
-        )
+        scaled = [a.model_copy(update={
+            "value": a.value * fraction,
+            "low": None if a.low is None else a.low * fraction,
+            "high": None if a.high is None else a.high * fraction,
+        }) for a in volumes]  # fmt: skip
+        out.append(MaterialLine(
+            name=comp, operation=operation, stage=stage, stated=f"{written}, {stated}",
+            amounts=scaled, origin="text", evidence=evidence,
+            note=f"{fraction:.0%} by volume of {volumes[0].text} of '{written}' (ideal mixing "
+            "assumed)",
+        ))  # fmt: skip
     return out
 
 
+_YIELD = re.compile(
+    r"^(?:(?:yield|y\.)\s*[:=]?\s*)?(?P<v>\d+(?:[.,]\d+)?)\s*%(?:\s*(?:yield|overall|isolated))?$",
+    re.I,
+)
+
+
+def _yield_of(content: str) -> float | None:
+    """A yield stated after a mass in a bracket, "(2.41 g, 86%)" or "(26 mg, yield 29%)": 0.86;
+    None if none ("(77%, 2.46 g)" and "(10%, 20 mL)" state a purity or a strength)."""
+    mass_seen = False
+    for part, _ in parts(content, 0):
+        if not mass_seen:
+            try:
+                mass_seen = parse_amount(part).kind == "mass"
+            except AmountError:
+                pass
+            continue
+        m = _YIELD.match(part)
+        if m:
+            value = float(m.group("v").replace(",", "."))
+            if 0 < value <= 1000:
+                return value / 100
+    return None
+
+
+def _characterisation_at(text: str) -> int:
+    """Where the characterisation data of a sentence begin (its length if there are none):
+    at the separator before the first marker (``; mp``, ``: 1H NMR``, ``(m.p. …``)."""
+    m = CHARACTERISATION.search(text)
+    if m is None:
+        return len(text)
+    window = text[max(0, m.start() - 40) : m.start()]
+    cut = max(window.rfind(sep) for sep in (";", ":", ", ", "("))
+    return m.start() - len(window) + cut if cut >= 0 else m.start()
+
+
+def _quantity_end(content: str) -> int:
+    m = _QUANTITY.match(content.lstrip())
+    return (len(content) - len(content.lstrip()) + m.end()) if m else len(content)
+
+
+def _crude(role: str | None, name: str | None) -> str | None:
+    """ "crude" for a product's mention that is a crude mass ("the crude aldehyde (1.9 g)")."""
+    words = set(re.split(r"[\s-]+", (name or "").lower()))
+    return "crude" if role == "product" and words & {"crude", "residue", "concentrate"} else None
+
+
+def _inside_a_word(text: str, m: re.Match) -> bool:
+    """A bracket that is part of a name ("2-(6-(trifluoromethyl)pyridin-2-yl)", "4(3H)-one")."""
+    return (
+        m.start() > 0
+        and text[m.start() - 1] not in " \t\n[/"
+        and not MAYBE_AMOUNT.search(m.group(1))
+    )
+
+
+def _amounts_in(content: str, offset: int) -> list[AmountMention] | None:
+    """The amounts of a bracket that holds nothing else (amounts, a yield, equivalents),
+    e.g. "(3.93 mmol)" or "(106 mmol, 8 eq.)"; None when it holds anything else."""
+    out = []
+    for part, start in parts(content, offset):
+        try:
+            out.append(parse_amount(part, (start, start + len(part))))
+        except AmountError:
+            if not (PERCENT_ONLY.match(part) or _YIELD.match(part)):
+                return None
+    return out
+
+
+class _Reading:
+    """One sentence being read (see the module's docstring for the steps)."""
+
+    def __init__(self, text: str, start: int) -> None:
+        self.start = start
+        cut = _characterisation_at(text)
+        self.head = text[:cut]
+        self.quantities = _quantities(self.head, start)
+        self.tail = _quantities(text[cut:], start + cut)
+        self.s = _Sentence(self.head)
+        self.groups = {m.start(): (m.end(), m.group(1)) for m in _GROUP.finditer(self.head)
+                       if _DIGIT.search(m.group(1)) and not _inside_a_word(self.head, m)}  # fmt: skip
+        self.claimed: set[int] = set()
+        self.lines: list[MaterialLine] = []
+        self.product_taken = False
+
+    def read(self) -> list[MaterialLine]:
+        if self.quantities:
+            self._quantities_before_names()
+        for gs in sorted(self.groups):
+            if gs not in self.claimed:
+                self._bracket(gs)
+        self._leftovers()
+        self.lines.sort(key=_first_position)  # in the order of the text
+        return self.lines
+
+    # ---------------------------------------------------------------- quantities first
+    def _group_after(self, pos: int) -> tuple[int, int, str] | None:
+        """The bracket that starts right after ``pos`` (past white space), if any."""
+        gs = len(self.head[pos:]) - len(self.head[pos:].lstrip()) + pos
+        if gs in self.groups:
+            return gs, *self.groups[gs]
+        return None
+
+    def _joined(self, pos: int, amounts: list[AmountMention]) -> int:
+        """Add the amounts of a bracket of amounts right after ``pos``; return where it ends."""
+        g = self._group_after(pos)
+        if g is not None:
+            more = _amounts_in(g[2], self.start + g[0] + 1)
+            if more is not None:
+                amounts += more
+                self.claimed.add(g[0])
+                return g[1]
+        return pos
+
+    def _inside_group(self, pos: int) -> bool:
+        return any(gs < pos < ge for gs, (ge, _) in self.groups.items())
+
+    def _quantities_before_names(self) -> None:
+        done = -1
+        for q in self.quantities:
+            if q.start < done or q.amount is None or self._inside_group(q.start):
+                continue
+            amounts = [q.amount]
+            pos = self._joined(q.end, amounts)
+            if _CONDITION_BEFORE.search(self.head[max(0, q.start - 50) : q.start]):
+                self._add("", amounts, "condition", q.start)
+                done = pos
+                continue
+            taken = _TAKEN_OUT.match(self.head[pos:])
+            if taken:  # "60 mL was collected for reuse"
+                said = self.head[pos + taken.start() : pos + taken.end() + 30].split(",")[0]
+                self._add(" ".join(said.split()), amounts, "intermediate", q.start)
+                done = pos
+                continue
+            name, what, k = name_after(self.head[pos:])
+            if name is None and what is None:
+                continue  # left for the end: unread, unless a bracket claims it
+            end = self._joined(pos + k, amounts) if name else pos + k
+            role = (
+                "intermediate" if _TAKEN_OUT.match(self.head[end:]) else self._role(q.start, what)
+            )
+            self._add(name or what, amounts, role, q.start, note=_crude(role, name))
+            done = end
+
+    # ---------------------------------------------------------------- brackets
+    def _bracket(self, gs: int) -> None:
+        ge, content = self.groups[gs]
+        before = self.head[max(0, gs - 400) : gs]
+        mixture = mixture_before(before)
+        name, what = (mixture[0], None) if mixture else name_before(before)
+        offset = self.start + gs + 1
+        role = self._role(gs, what, ge, content)
+        inside = _TAKEN_OUT_INSIDE.match(content[_quantity_end(content) :])
+        if inside or _TAKEN_OUT.match(self.head[ge:]):
+            role = "intermediate"
+            if inside:  # "(4.8 L collected for the next run)": named by what it says
+                name = " ".join(content[_quantity_end(content) :].split())
+        if role is None and (name is not None or mixture is not None or what is None):
+            op, stage = self.s.operation(gs)
+            for group in read_group(content, offset, name, mixture):
+                self.lines += _lines_for(group, op, stage, self.s.evidence)
+            return
+        amounts = [q.amount for q in self.quantities if gs < q.start < ge and q.amount]
+        amounts.sort(key=lambda a: a.kind != "mass")  # the mass first: the product's mass
+        if amounts:
+            self._add(name or what or "", amounts, role, gs, stated_yield=_yield_of(content),
+                      note=_crude(role, name))  # fmt: skip
+
+    def _role(self, pos: int, what: str | None, end: int | None = None,
+              content: str = "") -> str | None:  # fmt: skip
+        """None for an input; else the class of the mention at ``pos``. A crude mass in a
+        product clause ("provided the crude aldehyde (1.9 g)") is the product's mention, marked
+        crude: the merge prefers an isolated product's."""
+        if what in {"sample", "equipment"}:
+            return what
+        if what == "intermediate" and (self.product_taken or not self.s.in_product_clause(pos)):
+            return what
+        product = (what in {"product", "intermediate"} or self.s.in_product_clause(pos)
+                   or (end is not None and (_PASSIVE_PRODUCT.match(self.head[end:])
+                                            or _yield_of(content) is not None)))  # fmt: skip
+        if not product:
+            return None
+        if self.product_taken and self.s.in_product_clause(pos) and what != "product":
+            return "intermediate"  # a second output of the same clause: not the product
+        return "product"
+
+    # ---------------------------------------------------------------- the rest
+    def _add(self, name: str, amounts: list[AmountMention], role: str | None, pos: int,
+             **extra) -> None:  # fmt: skip
+        op = self.s.operation(pos) if role is None else ("product" if role == "product"
+                                                          else None, None)  # fmt: skip
+        solvent = "water" if role is None and _aqueous(name) else None
+        self.product_taken |= role == "product"
+        self.lines.append(_line(name or role or "", amounts, role, op, self.s.evidence,
+                                solvent=solvent, **extra))  # fmt: skip
+
+    def _leftovers(self) -> None:
+        """Quantities no mention took are unread; those of the tail are characterisation."""
+        taken = [a.span for line in self.lines for a in line.amounts if a.span]
+        for q in self.quantities:
+            a, b = self.start + q.start, self.start + q.end
+            if any(x < b and a < y for x, y in taken):
+                continue
+            amounts = [q.amount] if q.amount else []
+            problem = None if q.amount else f"{q.text!r} could not be read as an amount"
+            self._add(q.text, amounts, "unread", q.start, problem=problem)
+        for q in self.tail:
+            self._add(q.text, [q.amount] if q.amount else [], "characterisation", q.start)
+
+
+def _first_position(line: MaterialLine) -> int:
+    return min((a.span[0] for a in line.amounts if a.span), default=0)
+
+
 def extract(body: str) -> list[MaterialLine]:
-    """Every material with an amount in ``body``; the product comes back with role 'product'."""
+    """Every quantity in ``body``, as material lines: inputs (role None), the product's
+    mention(s) and the quantities set aside (see the module's docstring)."""
     lines: list[MaterialLine] = []
     for start, text in sentences(body):
-        if "(" not in text or text.lstrip().startswith("|"):
-            continue  # nothing in brackets, or a table row (read by the readers)
-        sentence = None
-        product_taken = False
-        for m in _GROUP.finditer(text):
-            content = m.group(1)
-            if not _DIGIT.search(content):
-                continue
-            if sentence is None:  # the first bracket with a number in it
-                if CHAR_HINT.search(text) and CHARACTERISATION.search(text):
-                    break  # characterisation data
-                sentence = _Sentence(text)
-            before = text[max(0, m.start() - 240) : m.start()]
-            evidence = sentence.evidence
-            if sentence.product_at is not None and m.start() > sentence.product_at:
-                if product_taken:
-                    continue
-                mass = _first_mass(content, start + m.start(1))
-                if mass is not None:
-                    product_taken = True
-                    lines.append(
-                        MaterialLine(
-                            name=_name_before(text[sentence.product_end : m.start()]) or "product",
-                            role="product",
-                            stated=mass.text,
-                            amounts=[mass],
-                            origin="text",
-                            evidence=evidence,
-                        )
-                    )
-                continue
-            mixture = _mixture_before(before)
-            name = mixture[0] if mixture else _name_before(before)
-            operation, stage = sentence.operation(m.start())
-            for group in _read_group(content, start + m.start(1), name, mixture):
-                lines.extend(_lines_for(group, operation, stage, evidence))
+        if not _DIGIT.search(text) or text.lstrip().startswith("|"):
+            continue  # no number, or a table row (read by the readers)
+        lines += _Reading(text, start).read()
     return lines
-
-
-def _first_mass(content: str, offset: int) -> AmountMention | None:
-    for part, start in _parts(content, offset):
-        try:
-            a = parse_amount(part, (start, start + len(part)))
-        except AmountError:
-            continue
-        if a.kind == "mass":
-            return a
-    return None
 
 
 @hookimpl(specname="masstrail_extract_amounts")
 def extract_procedure_amounts(entry: Entry, config: LabConfig) -> list[MaterialLine]:
-    """Read materials and their amounts from the procedure text."""
+    """Read materials and their amounts, and every other quantity, from the procedure text."""
     return extract(entry.body)

@@ -7,7 +7,10 @@ The built-in rules run in this order:
    chromatography, recrystallisation, trituration, aspirators, unmeasured
    additions), each checked against the entry's records;
 2. ``records`` (``masstrail_find_gaps``): the product mass, every material without
-   a mass, a product heavier than its inputs, a yield above 100 %;
+   a mass, no input weighed at all, a product heavier than its inputs, a yield above 100 %;
+   ``reading`` (``masstrail_find_gaps``): quantities the text states that were not read, a
+   procedure written elsewhere, masses that disagree with their moles, stated yields that
+   disagree with the masses;
 3. ``grading`` (``masstrail_grade_gaps``): each gap's severity from its allowance.
 
 Allowances come from ``allowances`` and ``data/allowances.toml``; a lab overrides
@@ -16,12 +19,26 @@ them in ``masstrail.toml``.
 
 from masstrail_plugins.gaps.grading import grade_by_estimate
 from masstrail_plugins.gaps.operations import check_operations
-from masstrail_plugins.gaps.records import product_mass_gaps, product_sanity_gaps, weighing_gaps
+from masstrail_plugins.gaps.reading import (
+    plausibility_gaps,
+    procedure_elsewhere_gaps,
+    unread_gaps,
+)
+from masstrail_plugins.gaps.records import (
+    product_mass_gaps,
+    product_sanity_gaps,
+    recovered_gaps,
+    weighing_gaps,
+)
 
 __all__ = [
     "check_operations",
     "grade_by_estimate",
+    "plausibility_gaps",
+    "procedure_elsewhere_gaps",
     "product_mass_gaps",
     "product_sanity_gaps",
+    "recovered_gaps",
+    "unread_gaps",
     "weighing_gaps",
 ]

@@ -14,12 +14,18 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Gap, MaterialLine, ProductOut
 
-BLOCKING = {"product_mass_missing", "product_mass_unreadable", "product_heavier_than_inputs"}
+BLOCKING = {
+    "product_mass_missing",
+    "product_mass_unreadable",
+    "product_heavier_than_inputs",
+    "no_weighed_input",
+}
 ALWAYS_MINOR = {"conflicting_amounts", "conflicting_product_mass", "eluent_composition",
                 "aspirator_water", "unassigned_reading", "unstable_reading",
-                "balance_reading_date", "balance_row_unreadable"}  # fmt: skip
+                "balance_reading_date", "balance_row_unreadable", "yield_mismatch"}  # fmt: skip
 ALWAYS_MAJOR = {"yield_above_100", "balance_log_refused", "balance_log_unreadable",
-                "balance_difference_not_positive"}  # fmt: skip
+                "balance_difference_not_positive", "mass_moles_mismatch",
+                "procedure_elsewhere"}  # fmt: skip
 
 
 @hookimpl(trylast=True, specname="masstrail_grade_gaps")

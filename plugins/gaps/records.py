@@ -169,7 +169,9 @@ def product_sanity_gaps(
     weighed = [m for m in materials if m.mass_g is not None]
     inputs = sum(m.mass_g for m in weighed)
     gaps = []
-    if weighed and product.mass_g > inputs:
+    if not weighed:
+        gaps.append(_nothing_weighed(materials, product))
+    elif product.mass_g > inputs:
         gaps.append(
             Gap(
                 kind="product_heavier_than_inputs",
@@ -206,3 +208,19 @@ def product_sanity_gaps(
             )
         )
     return gaps
+
+
+def _nothing_weighed(materials: list[MaterialLine], product: ProductOut) -> Gap:
+    """The product has a mass but no input has one: say why, so no figure is silently absent."""
+    if not materials:
+        why = "no input with an amount was found in the entry"
+    else:
+        reasons = "; ".join(f"{m.name}: {m.problem or 'no amount'}" for m in materials[:4])
+        more = f" (and {len(materials) - 4} more)" if len(materials) > 4 else ""
+        why = f"none of the {len(materials)} inputs found could be weighed ({reasons}{more})"
+    return Gap(
+        kind="no_weighed_input", item=product.name or "product", severity="blocking",
+        evidence=f"product {product.mass_g:g} g; no input with a mass",
+        message=f"{why}, so there is no E-factor or PMI; record the inputs' amounts as "
+        "'NAME (amount)' or in the front matter",
+    )  # fmt: skip

@@ -33,6 +33,12 @@ def _item_key(item: str) -> str:
     return material_key(info.name if info else item)
 
 
+# gaps about what was read, not about missing records: the text corpus and the real corpus
+# score those (every paragraph here has the same made-up product mass, 0.50 g)
+READING_KINDS = {"unread_amount", "no_weighed_input", "conflicting_product_mass",
+                 "procedure_elsewhere", "mass_moles_mismatch", "yield_mismatch"}  # fmt: skip
+
+
 def load(path: Path = CORPUS) -> list[Item]:
     items: list[Item] = []
     for raw in path.read_text(encoding="utf-8").splitlines():
@@ -80,7 +86,7 @@ def score(items: list[Item] | None = None) -> Score:
     s = Score(len(items), 0, 0, 0, [])
     for item, result in zip(items, report.results, strict=True):
         assert result.status == "ok", result.error
-        got = [(g.kind, _item_key(g.item)) for g in result.gaps]
+        got = [(g.kind, _item_key(g.item)) for g in result.gaps if g.kind not in READING_KINDS]
         left = list(item.expected)
         matched = 0
         for g in got:

@@ -54,6 +54,8 @@ def found(text: str) -> list[Mention]:
     """What the extractor reads from one item, in the corpus's terms."""
     out = []
     for line in extract(text):
+        if line.role not in {None, "product"}:
+            continue  # set aside: an intermediate, a sample, equipment, unread …
         name = "product" if line.role == "product" else material_key(line.name)
         op = "product" if line.role == "product" else (line.operation or "reaction")
         for a in line.amounts:

@@ -1,0 +1,227 @@
+"""Bracket groups: the amounts, solutions, mixtures and names inside one ``(…)``.
+
+``(4.36 g, 20.0 mmol)`` and ``(3 × 40 mL)`` are read in one pass (:func:`plain_group`);
+anything else part by part (:func:`read_parts`): amounts (``4.36 g``, ``2.0 equiv``),
+solution descriptions (``1.4 M in cyclohexane``, ``60% in mineral oil``), mixtures
+(``cyclohexane/acetone 9:1``) and material names (``SiO2`` in ``(SiO2, 35 g; …)``). A name
+inside the bracket starts a new material; amounts attach to the material before them.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import re
+
+from capture.models import AmountMention
+from capture.quantities import UNITS, AmountError, normalise, parse_amount, plain_amount
+from masstrail_plugins.prose import clean_name
+
+_SOLUTION_PART = re.compile(
+    r"^(?P<c>\d+(?:[.,]\d+)?)\s*(?P<u>M|mM|mol/L)\s+(?:solution\s+)?in\s+(?P<solv>.+)$"
+)
+
+
+_FRACTION_PART = re.compile(
+    r"^(?P<p>\d+(?:[.,]\d+)?)\s*(?:wt\s*)?%\s*(?:w/w\s+|wt\s+)?(?:dispersion\s+|suspension\s+|"
+    r"solution\s+)?in\s+(?P<solv>.+)$",
+    re.I,
+)
+
+
+# what an amount can start with: a digit, a qualifier (ca., approx., ~, ≈) or a decimal point
+_AMOUNT_START = re.compile(r"[\d.,~≈∼<>]|(?:ca|c\.|approx|about|circa)", re.I)
+
+
+_PART_SEP = re.compile(r";|,(?=\s)")
+
+
+_BARE_NUMBERS = re.compile(r"[\d.,:\s]+")
+
+
+PERCENT_ONLY = re.compile(r"^[<>~≈]?\s*\d+(?:[.,]\d+)?\s*%(?:\s*\w+)?$")
+
+
+_NAME_TOKEN = r"[A-Za-z0-9(\[][\w\-'·,()\[\]]*"
+
+
+_RATIO = r"\d+(?:\.\d+)?(?:\s*:\s*\d+(?:\.\d+)?)+"
+
+
+_MIX_PERCENT = re.compile(
+    rf"(?P<p>\d+(?:\.\d+)?)\s*%\s*(?:v/v\s+)?(?P<a>{_NAME_TOKEN}(?:\s+[a-z][\w\-]*)?)\s+in\s+"
+    rf"(?P<b>{_NAME_TOKEN}(?:\s+[a-z][\w\-]*)?)\s*$"
+)
+
+
+_MIX_SLASH_RATIO = re.compile(
+    rf"(?P<names>{_NAME_TOKEN}(?:\s*/\s*{_NAME_TOKEN})+)\s*\(?(?P<r>{_RATIO})\)?\s*(?:v/v)?\s*$"
+)
+
+
+_MIX_RATIO_SLASH = re.compile(
+    rf"(?P<r>{_RATIO})\s*(?:v/v\s+)?(?P<names>{_NAME_TOKEN}(?:\s*/\s*{_NAME_TOKEN})+)\s*$"
+)
+
+
+def mixture_before(text: str) -> tuple[str, list[tuple[str, float]]] | None:
+    """A mixture named at the end of ``text``: (as written, [(component, volume fraction)])."""
+    text = text[-120:]
+    if "%" not in text and "/" not in text:
+        return None
+    m = _MIX_PERCENT.search(text) if "%" in text else None
+    if m:
+        p = float(m.group("p")) / 100
+        if 0 < p < 1:
+            a, b = clean_name(m.group("a")), clean_name(m.group("b"))
+            if a and b:
+                return m.group(0).strip(), [(a, p), (b, 1 - p)]
+    if "/" not in text:
+        return None
+    for rx in (_MIX_SLASH_RATIO, _MIX_RATIO_SLASH):
+        m = rx.search(text)
+        if not m:
+            continue
+        names = [n.strip() for n in m.group("names").split("/")]
+        ratio = [float(x) for x in m.group("r").replace(" ", "").split(":")]
+        if len(names) != len(ratio) or sum(ratio) <= 0:
+            continue
+        cleaned = [clean_name(n) for n in names]
+        if all(cleaned):
+            total = sum(ratio)
+            return m.group(0).strip(), [(c, r / total) for c, r in zip(cleaned, ratio, strict=True)]
+    return None
+
+
+def parts(content: str, offset: int) -> list[tuple[str, int]]:
+    """Split bracket content at ';' and ', ' (a comma with a space), keeping offsets."""
+    out = []
+    pos = 0
+    for m in _PART_SEP.finditer(content + ";"):
+        piece = content[pos : m.start()]
+        lead = len(piece) - len(piece.lstrip())
+        if piece.strip():
+            out.append((piece.strip(), offset + pos + lead))
+        pos = m.end()
+    return out
+
+
+class Group:
+    """One material inside a bracket, as it is being read."""
+
+    __slots__ = ("amounts", "mixture", "name", "solvent", "texts")
+
+    def __init__(self, name: str | None, mixture: tuple[str, list] | None = None) -> None:
+        self.name = name
+        self.mixture = mixture
+        self.amounts: list[AmountMention] = []
+        self.solvent: str | None = None
+        self.texts: list[str] = []
+
+
+# "2.76 g", "3 × 40 mL" or a yield "81%", then ", " or "; " or the end of the bracket
+_PLAIN_AMOUNT = re.compile(r"(?:(\d+) ?[×xX*] ?)?(\d+(?:\.\d+)?) ?([A-Za-z]+|%)(?:[,;] |$)")
+
+
+def plain_group(content: str, offset: int, name: str) -> Group | None:
+    """The commonest brackets, "(2.76 g, 20.0 mmol)" and "(3 × 40 mL)": plain amounts only
+    (a percentage among them is a yield or a purity and is passed over), read in one pass.
+    None when the bracket holds anything else; :func:`read_group` then reads it part by part.
+    """
+    group = Group(name)
+    pos = 0
+    for m in _PLAIN_AMOUNT.finditer(content):
+        if m.start() != pos:
+            return None
+        pos = m.end()
+        unit = m.group(3)
+        if unit == "%":
+            continue
+        begin = m.start(1) if m.group(1) else m.start(2)
+        text = content[begin : m.end(3)]
+        amount = plain_amount(
+            m.group(2),
+            unit,
+            text,
+            (offset + begin, offset + m.end(3)),
+            int(m.group(1)) if m.group(1) else 1,
+        )
+        if amount is None:
+            return None
+        group.amounts.append(amount)
+        group.texts.append(text)
+    return group if pos == len(content) and group.amounts else None
+
+
+# Every amount in a bracket ends a part (before ";", ", " or the bracket's end) with a number
+# and a unit, or is a solution's "1.4 M in …". An ASCII bracket with neither ("PPh3",
+# "2 h", "24 L collected for reuse") holds no amount and is passed over without reading.
+_UNIT_WORDS = "|".join(sorted((re.escape(u) for u in UNITS if u.isascii()), key=len, reverse=True))
+
+
+MAYBE_AMOUNT = re.compile(
+    rf"\d\s*(?:(?:{_UNIT_WORDS})\s*(?:;|,\s|$)|(?:M|mM|mol/L)\s+(?:solution\s+)?in\s)"
+)
+
+
+def read_group(content: str, offset: int, name: str | None, mixture) -> list[Group]:
+    if name is not None and mixture is None:
+        plain = plain_group(content, offset, name)
+        if plain is not None:
+            return [plain]
+    if content.isascii() and not MAYBE_AMOUNT.search(content):
+        return []
+    return read_parts(content, offset, name, mixture)
+
+
+def read_parts(content: str, offset: int, name: str | None, mixture) -> list[Group]:
+    """Read a bracket part by part: amounts, solutions, mixtures and names (the general path,
+    which the two shortcuts in :func:`read_group` must agree with)."""
+    groups = [Group(name, mixture)]
+    for part, start in parts(content, offset):
+        span = (start, start + len(part))
+        if _AMOUNT_START.match(part):
+            try:
+                groups[-1].amounts.append(parse_amount(part, span))
+                groups[-1].texts.append(part)
+                continue
+            except AmountError:
+                pass
+        norm = normalise(part)
+        m = _SOLUTION_PART.match(norm)
+        if m:
+            with contextlib.suppress(AmountError):
+                groups[-1].amounts.append(parse_amount(f"{m.group('c')} {m.group('u')}", span))
+            groups[-1].solvent = clean_name(m.group("solv"))
+            groups[-1].texts.append(part)
+            continue
+        m = _FRACTION_PART.match(norm)
+        if m:
+            groups[-1].solvent = clean_name(m.group("solv"))
+            groups[-1].texts.append(part)
+            continue
+        if PERCENT_ONLY.match(norm) or _BARE_NUMBERS.fullmatch(norm):
+            continue  # a yield, a purity or a bare ratio
+        mix = mixture_before(norm)
+        if mix is not None:
+            groups.append(Group(mix[0], mix))
+            continue
+        cleaned = clean_name(norm)
+        if cleaned is None:
+            continue
+        if groups[-1].name is None and not groups[-1].amounts:
+            groups[-1].name = cleaned  # "(Na2SO4, 5 g)" after "dried"
+        elif groups[-1].amounts:
+            groups.append(Group(cleaned))  # "(SiO2, 35 g; DCM, 250 mL)": the next material
+        # else a description of the material before the bracket: "Carbon dioxide (dry ice, …)"
+    return [g for g in groups if g.amounts and g.name]
+
+
+def first_mass(content: str, offset: int) -> AmountMention | None:
+    for part, start in parts(content, offset):
+        try:
+            a = parse_amount(part, (start, start + len(part)))
+        except AmountError:
+            continue
+        if a.kind == "mass":
+            return a
+    return None

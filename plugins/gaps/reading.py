@@ -1,0 +1,140 @@
+"""Gaps from reading the text: what was not read, and what does not add up.
+
+- ``unread_gaps``: every quantity the text states that no rule read as an input, the
+  product, an intermediate, a sample, equipment, a condition or characterisation; its size
+  is the amount as written (a volume at an assumed 1 g/mL);
+- ``procedure_elsewhere_gaps``: an entry that follows a procedure written elsewhere
+  (``Following General procedure C``, ``in the same manner as in Example 1``) lacks that
+  procedure's solvents and workup;
+- ``plausibility_gaps``: a mass and an amount of substance stated together that disagree
+  with the material's molar mass by more than 5 %; a stated yield that disagrees with the
+  product's mass and the limiting reagent by more than 5 percentage points.
+"""
+
+from __future__ import annotations
+
+import re
+
+from capture.chem import molar_mass
+from capture.config import LabConfig
+from capture.hookspecs import hookimpl
+from capture.models import Entry, Gap, MaterialLine, ProductOut, ReactionFigures
+from masstrail_plugins.gaps import allowances as al
+
+
+def _size(line: MaterialLine, config: LabConfig) -> tuple[float | None, str | None]:
+    a = line.amounts[0] if line.amounts else None
+    if a is None or a.kind not in {"mass", "volume"}:
+        return None, None
+    if a.kind == "mass":
+        return a.total, f"{a.text} as written"
+    d, basis = al.value("assumed_density_g_ml", config)
+    return a.total * d, f"{a.text} as written × assumed {d:g} g/mL ({basis})"
+
+
+@hookimpl(specname="masstrail_find_gaps")
+def unread_gaps(set_aside: list[MaterialLine], config: LabConfig) -> list[Gap]:
+    """A gap for each quantity that was not read: it may be an input the figure misses."""
+    gaps = []
+    for line in set_aside:
+        if line.role != "unread":
+            continue
+        grams, basis = _size(line, config)
+        gaps.append(Gap(
+            kind="unread_amount", item=line.stated or line.name, severity="major",
+            evidence=line.evidence,
+            message=f"'{line.stated or line.name}' was not read as an input, the product or "
+            "anything else, so it is not in the figures; if it is an input, write it as "
+            f"'NAME ({line.stated or line.name})'" + (f" ({line.problem})" if line.problem else ""),
+            allowance_g=None if grams is None else round(grams, 4), allowance_basis=basis,
+        ))  # fmt: skip
+    return gaps
+
+
+_ELSEWHERE = re.compile(
+    r"\b(?:following|according\s+to|as\s+described\s+(?:in|for)|using|by|in\s+analogy\s+to|"
+    r"analogous(?:ly)?\s+to|similar\s+to|(?:same|similar)\s+(?:manner|operation|procedure|way)\s+"
+    r"as\s+(?:in|for|described\s+in))\s+(?:that\s+(?:described\s+)?(?:in|for)\s+)?(?:the\s+)?"
+    r"(?P<ref>general\s+(?:procedure|method)\s*\(?[A-Z0-9]{0,3}\)?|GP\s*\d+|(?:Reference\s+)?"
+    r"Example\s*\(?\d+[a-z]?\)?(?:\s*\([A-Za-z0-9]+\))?|(?:procedure|method)\s+[A-Z0-9]{1,3}\b)",
+    re.I,
+)
+
+
+@hookimpl(specname="masstrail_find_gaps")
+def procedure_elsewhere_gaps(entry: Entry) -> list[Gap]:
+    """An entry whose procedure is written elsewhere misses that procedure's materials."""
+    m = _ELSEWHERE.search(entry.body)
+    if m is None:
+        return []
+    ref = " ".join(m.group("ref").split())
+    return [Gap(
+        kind="procedure_elsewhere", item=ref, severity="major",
+        evidence=" ".join(entry.body[max(0, m.start() - 60) : m.end() + 60].split()),
+        message=f"the entry follows {ref}, written elsewhere: the solvents, workup and "
+        "purification of that procedure are not in this entry, so the E-factor misses them; "
+        "record the amounts used in this run",
+    )]  # fmt: skip
+
+
+def _stated(line: MaterialLine, kind: str):
+    return next((a for a in line.amounts if a.kind == kind), None)
+
+
+def _mass_moles_gap(line: MaterialLine) -> Gap | None:
+    mass, moles = _stated(line, "mass"), _stated(line, "amount")
+    if mass is None or moles is None or not line.formula:
+        return None
+    try:
+        mw = molar_mass(line.formula)
+    except ValueError:
+        return None
+    expected = moles.total * mw / 1000
+    if abs(mass.total - expected) <= 0.05 * expected:
+        return None
+    return Gap(
+        kind="mass_moles_mismatch", item=line.name, severity="major", evidence=line.evidence,
+        message=f"{line.name}: {mass.text} and {moles.text} disagree ({moles.text} × "
+        f"{mw:.2f} g/mol = {expected:.4g} g, {line.formula}); one of them is wrong, or the "
+        "material is another form (salt, hydrate). The mass is used",
+    )  # fmt: skip
+
+
+def _yield_gap(
+    mention: MaterialLine | None,
+    product: ProductOut,
+    limiting: MaterialLine | None,
+    reaction: ReactionFigures | None,
+) -> Gap | None:
+    if mention is None or mention.stated_yield is None or product.mass_g is None:
+        return None
+    if reaction is not None and reaction.yield_ is not None:
+        computed, how = reaction.yield_, "by the entry's equation"
+    elif limiting is not None and limiting.moles_mmol and product.molar_mass:
+        computed = product.mass_g / product.molar_mass * 1000 / limiting.moles_mmol
+        how = f"from {limiting.moles_mmol:g} mmol of {limiting.name}, 1:1 assumed"
+    else:
+        return None
+    if abs(computed - mention.stated_yield) <= 0.05:
+        return None
+    return Gap(
+        kind="yield_mismatch", item=product.name or "product", severity="minor",
+        evidence=mention.evidence,
+        message=f"the text states a yield of {mention.stated_yield:.0%}, but "
+        f"{product.mass_g:g} g of product is {computed:.0%} ({how}); check the masses",
+    )  # fmt: skip
+
+
+@hookimpl(specname="masstrail_find_gaps")
+def plausibility_gaps(
+    materials: list[MaterialLine],
+    product: ProductOut,
+    set_aside: list[MaterialLine],
+    limiting: MaterialLine | None,
+    reaction: ReactionFigures | None,
+) -> list[Gap]:
+    """What a careful chemist checks: grams against millimoles, the stated yield."""
+    gaps = [g for g in map(_mass_moles_gap, materials) if g is not None]
+    mentions = [m for m in set_aside if m.role == "product" and m.stated_yield is not None]
+    gap = _yield_gap(mentions[-1] if mentions else None, product, limiting, reaction)
+    return [*gaps, gap] if gap else gaps
