@@ -15,7 +15,7 @@ Plugin ``text`` (``masstrail_extract_amounts``). The reader works sentence by se
    (:func:`masstrail_plugins.extract.names.name_after`); a bracket of amounts right after
    the quantity or the name belongs to the same mention.
 5. **Bracket groups** (``X (2.0 g, 5.0 mmol)``) are read with the name before them
-   (:mod:`~masstrail_plugins.extract.brackets`, :func:`~masstrail_plugins.extract.names.name_before`);
+   (``brackets.py``, ``names.name_before``);
    mixtures (``toluene/MeOH 19:1 (300 mL)``) are split by volume fraction.
 6. **Classes.** A mention after a product word (``to give``, ``afforded``, ``to obtain``; not
    ``obtained in Example 3``) up to the end of its clause, one named ``the title compound``,
@@ -31,6 +31,7 @@ keeps the inputs and sets the rest aside, and each unread quantity becomes a gap
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import re
 from dataclasses import dataclass
@@ -167,7 +168,7 @@ class _Sentence:
 
 
 def _quantities(text: str, offset: int) -> list[_Quantity]:
-    """Every mass, volume and amount of substance in ``text`` (``offset``: its place in the body)."""
+    """Every mass, volume and amount of substance in ``text`` (at ``offset`` in the body)."""
     out = []
     for m in _QUANTITY.finditer(text):
         core = m.group("q")
@@ -187,7 +188,8 @@ def _quantities(text: str, offset: int) -> list[_Quantity]:
 
 def _line(name: str, amounts: list[AmountMention], role: str | None, op: tuple[str, Stage],
           evidence: str, **extra) -> MaterialLine:  # fmt: skip
-    return MaterialLine(name=name, role=role, operation=op[0], stage=op[1] if role is None else None,
+    stage = op[1] if role is None else None
+    return MaterialLine(name=name, role=role, operation=op[0], stage=stage,
                         stated=", ".join(a.text for a in amounts), amounts=amounts,
                         origin="text", evidence=evidence, **extra)  # fmt: skip
 
@@ -237,10 +239,8 @@ def _yield_of(content: str) -> float | None:
     mass_seen = False
     for part, _ in parts(content, 0):
         if not mass_seen:
-            try:
+            with contextlib.suppress(AmountError):
                 mass_seen = parse_amount(part).kind == "mass"
-            except AmountError:
-                pass
             continue
         m = _YIELD.match(part)
         if m:
@@ -305,7 +305,8 @@ class _Reading:
         self.tail = _quantities(text[cut:], start + cut)
         self.s = _Sentence(self.head)
         self.groups = {m.start(): (m.end(), m.group(1)) for m in _GROUP.finditer(self.head)
-                       if _DIGIT.search(m.group(1)) and not _inside_a_word(self.head, m)}  # fmt: skip
+                       if _DIGIT.search(m.group(1))
+                       and not _inside_a_word(self.head, m)}  # fmt: skip
         self.claimed: set[int] = set()
         self.lines: list[MaterialLine] = []
         self.product_taken = False
