@@ -135,6 +135,7 @@ def normalise(text: str) -> str:
 
 _QUALIFIER = re.compile(r"^(?:ca\.?|c\.|approx\.?|approximately|about|circa|~|≈|∼)\s*", re.I)
 _MULT = re.compile(r"^(\d+)\s*[×xX*]\s*")
+_POSTFIX_MULT = re.compile(r"^(?P<body>\d.*?[A-Za-zμ.])\s*[×x]\s*(?P<n>\d)$")
 _NUMBER = r"\d+(?:[.,]\d+)?|[.,]\d+"
 _BODY = re.compile(
     rf"^(?P<a>{_NUMBER})(?:\s*(?:-|–|—|to)\s*(?P<b>{_NUMBER}))?\s*(?P<unit>[^\s\d].*)?$"
@@ -205,6 +206,9 @@ def parse_amount(text: str, span: tuple[int, int] | None = None) -> AmountMentio
         s = s[m.end() :]
         if multiplier < 1:
             raise AmountError(f"{original!r}: the multiplier must be at least 1")
+    m = _POSTFIX_MULT.match(s)
+    if m and multiplier == 1:  # "50 ml×2", "50 mL x 2"
+        multiplier, s = int(m.group("n")), m.group("body")
     if s.startswith("-"):
         raise AmountError(f"{original!r}: an amount cannot be negative")
     m = _BODY.match(s)

@@ -115,7 +115,7 @@ _SENTENCE_END = re.compile(r"[.!?](\s+)(?=[A-Z0-9(\[])|\n\s*\n|\n(?=\s*(?:[-*] |
 
 # words that end in a full stop without ending the sentence
 _ABBREVIATIONS = {"sat.", "satd.", "aq.", "ca.", "approx.", "conc.", "dil.", "e.g.", "i.e.",
-                  "equiv.", "eq.", "min.", "max.", "no.", "fig.", "vs.", "anh.", "abs.", "temp.",
+                  "equiv.", "eq.", "max.", "no.", "fig.", "vs.", "anh.", "abs.", "temp.",
                   "soln.", "vol.", "wt.", "c.", "resp.", "cf.", "ref.", "mp.", "bp.", "m.p.",
                   "b.p.", "rt.", "st.", "approx", "ca", "et al.", "al."}  # fmt: skip
 
@@ -133,6 +133,8 @@ def sentences(body: str) -> tuple[tuple[int, str], ...]:
             last_word = words[-1].casefold().lstrip("([") if words else ""
             if last_word in _ABBREVIATIONS or _NUMBERED.fullmatch(last_word):
                 continue
+            if body.count("(", start, end) > body.count(")", start, end) and end - start < 600:
+                continue  # inside a bracket: "(228 mg. 2.3 mmol)"
         out.append((start, body[start:end]))
         start = m.end()
     out.append((start, body[start:]))
@@ -155,8 +157,8 @@ CHARACTERISATION = re.compile(
 _LEADING = re.compile(
     r"^(?:a|an|the|to|then|next|finally|additional|more|fresh|further|dry|anhydrous|"
     r"freshly\s+distilled|degassed|distilled|cold|ice-cold|hot|warm|chilled|solid|neat|"
-    r"another|excess|wet|little|small\s+amount\s+of|catalyst|reagent|ligand|"
-    r"portions?\s+of)\s+",
+    r"another|excess|wet|little|small\s+amount\s+of|catalyst|reagent|ligand|crude|"
+    r"absolute|abs\.|portions?\s+of)\s+",
     re.I,
 )
 
@@ -166,7 +168,7 @@ EQUIPMENT_WORDS = {"vial", "vials", "flask", "flasks", "tube", "tubes", "schlenk
                    "vessel", "vessels", "reactor", "reactors", "bottle", "bottles", "ampoule",
                    "ampoules", "jar", "jars", "cartridge", "cartridges", "bath", "condenser",
                    "autoclave", "bomb", "pot", "kettle", "container", "sealed"}  # fmt: skip
-INTERMEDIATE_WORDS = {"crude", "residue", "filtrate", "filtrates", "layer", "layers", "phase",
+INTERMEDIATE_WORDS = {"residue", "filtrate", "filtrates", "layer", "layers", "phase",
                       "phases", "extract", "extracts", "combined", "concentrate", "eluate",
                       "fraction", "fractions", "liquor", "liquors", "supernatant", "washing",
                       "washings", "portion", "portions"}  # fmt: skip

@@ -92,15 +92,38 @@ def mixture_before(text: str) -> tuple[str, list[tuple[str, float]]] | None:
     return None
 
 
+# "1.0 g 3.64 mmol", "228 mg. 2.3 mmole": two amounts with no comma between them
+_ASCII_UNITS = "|".join(sorted((re.escape(u) for u in UNITS if u.isascii()), key=len, reverse=True))
+_AMOUNT_JOINT = re.compile(
+    rf"(?<=[A-Za-zμ.])\s+(?=\d+(?:[.,]\d+)?\s*(?:{_ASCII_UNITS})\.?(?![A-Za-z]))"
+)
+_ENDS_WITH_AMOUNT = re.compile(rf"\d\s*(?:{_ASCII_UNITS})\.?$")
+
+
+def _split_joined(piece: str, start: int) -> list[tuple[str, int]]:
+    """Split at each space between an amount and the next number ("3 X 20 mL" stays whole)."""
+    out, pos = [], 0
+    for m in _AMOUNT_JOINT.finditer(piece):
+        if _ENDS_WITH_AMOUNT.search(piece, pos, m.start()):
+            out.append((piece[pos : m.start()], start + pos))
+            pos = m.end()
+    out.append((piece[pos:], start + pos))
+    return out
+
+
 def parts(content: str, offset: int) -> list[tuple[str, int]]:
-    """Split bracket content at ';' and ', ' (a comma with a space), keeping offsets."""
+    """Split bracket content at ';' and ', ' (a comma with a space), keeping offsets; a part
+    that starts with a number is split again between two amounts written without a comma."""
     out = []
     pos = 0
     for m in _PART_SEP.finditer(content + ";"):
         piece = content[pos : m.start()]
         lead = len(piece) - len(piece.lstrip())
-        if piece.strip():
-            out.append((piece.strip(), offset + pos + lead))
+        start, piece = offset + pos + lead, piece.strip()
+        if piece and piece[0].isdigit() and _AMOUNT_JOINT.search(piece):
+            out += _split_joined(piece, start)
+        elif piece:
+            out.append((piece, start))
         pos = m.end()
     return out
 
@@ -159,7 +182,7 @@ _UNIT_WORDS = "|".join(sorted((re.escape(u) for u in UNITS if u.isascii()), key=
 
 
 MAYBE_AMOUNT = re.compile(
-    rf"\d\s*(?:(?:{_UNIT_WORDS})\s*(?:;|,\s|$)|(?:M|mM|mol/L)\s+(?:solution\s+)?in\s)"
+    rf"\d\s*(?:(?:{_UNIT_WORDS})\.?(?![A-Za-z])|(?:M|mM|mol/L)\s+(?:solution\s+)?in\s)"
 )
 
 
@@ -199,6 +222,15 @@ def read_parts(content: str, offset: int, name: str | None, mixture) -> list[Gro
             groups[-1].solvent = clean_name(m.group("solv"))
             groups[-1].texts.append(part)
             continue
+        worded = _worded_amount(part, start)
+        if worded is not None:
+            amount, rest = worded
+            groups[-1].amounts.append(amount)
+            groups[-1].texts.append(amount.text)
+            m = _SOLUTION_PART.match(normalise(rest)) or _FRACTION_PART.match(normalise(rest))
+            if m:
+                groups[-1].solvent = clean_name(m.group("solv"))
+            continue
         if PERCENT_ONLY.match(norm) or _BARE_NUMBERS.fullmatch(norm):
             continue  # a yield, a purity or a bare ratio
         mix = mixture_before(norm)
@@ -214,6 +246,27 @@ def read_parts(content: str, offset: int, name: str | None, mixture) -> list[Gro
             groups.append(Group(cleaned))  # "(SiO2, 35 g; DCM, 250 mL)": the next material
         # else a description of the material before the bracket: "Carbon dioxide (dry ice, …)"
     return [g for g in groups if g.amounts and g.name]
+
+
+# "0.680 g of 60% dispersion in oil", "147 ml of 1N solution in CH2Cl2", "I-14b: 150 mg",
+# "50 ml each", "total 150 cc."
+_WORDED = re.compile(
+    r"^(?:[\w()-]{1,12}:\s*|(?:total|in\s+total|overall)\s+)?(?P<a>\d[^a-zA-Zμ]*[a-zA-Zμ]+\.?)"
+    r"(?:\s+(?:of|in)\s+(?P<rest>.+)|\s+(?:each|in\s+total|total|overall))?$",
+    re.I,
+)
+
+
+def _worded_amount(part: str, start: int) -> tuple[AmountMention, str] | None:
+    """An amount with words around it, and the words after "of" (a solution's strength)."""
+    m = _WORDED.match(part)
+    if m is None or (m.group(0) == m.group("a")):
+        return None
+    try:
+        at = start + m.start("a")
+        return parse_amount(m.group("a"), (at, at + len(m.group("a")))), m.group("rest") or ""
+    except AmountError:
+        return None
 
 
 def first_mass(content: str, offset: int) -> AmountMention | None:

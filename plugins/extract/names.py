@@ -56,17 +56,23 @@ _REFERENCE_HEAD = re.compile(r"\s*" + _REFERENCE)
 # a bracket of references or asides before the amount: "(Example J15)", "(obtained in …)"
 _ASIDE_TAIL = re.compile(
     r"\s*\((?:[^()]|\([^()]*\))*\b(?:Example|Ex\.|Step|Preparation|Intermediate|Reference|"
-    r"Part|Method|obtained|prepared|described|see|cf\.)\b(?:[^()]|\([^()]*\))*\)\s*$",
+    r"Part|Method|obtained|prepared|described|see|cf\.)\b(?:[^()]|\([^()]*\))*\)\s*$"
+    r"|\s*\[\s*CAS[^\]]*\]\s*$",
     re.I,
 )
 _ADVERB_HEAD = re.compile(r"^\((?:[a-z]+\s*)+\)\s+")  # "(dropwise) oxalyl chloride"
 # "Compound 513", "compound A", "Intermediate 12b", "Example 3"; "the compound of Example 4"
 _NUMBERED = re.compile(
     r"^(?:the\s+)?(?:title\s+)?(?:[Cc]ompound|[Ii]ntermediate|[Ee]xample|[Pp]reparation)\s+"
-    r"(?:\(?\d+[a-z]?\)?|[A-Z]\d*|\([0-9a-z]+\))$"
+    r"(?:\(?\d+[A-Za-z]?\)?|[A-Z]\d*|\([0-9a-z]+\))$"
 )
 _BARE_NUMBER = re.compile(r"^\d{1,4}[a-z]?$")  # "a solution of 74 (235 mg)"
-_VERB_LIKE = re.compile(r"^[a-z]+(?:ed|ing)$")
+# a participle ends a name ("isatine represented by", "with stirring thionyl chloride"); these
+# belong to names
+_VERB_LIKE = re.compile(
+    r"^(?!(?:saturated|concentrated|deuterated|activated|buffered|fused|powdered|hydrated|"
+    r"anhydrated|chlorinated|fluorinated|brominated|iodinated|methylated)$)[a-z]+(?:ed|ing)$"
+)
 _ARTICLE = re.compile(r"^(?:a|an|the)\s+", re.I)
 
 
@@ -83,7 +89,8 @@ def _resolve(phrase: str, reference: str = "") -> tuple[str | None, str | None]:
     name, what = read_name(phrase)
     if what is not None and not reference:
         return _ARTICLE.sub("", phrase), what  # named as written: "the crude product"
-    if reference and ((name is None and what in {None, "product"}) or (name and len(name) < 8)):
+    if reference and ((name is None and what in {None, "product", "intermediate"})
+                      or (name and len(name) < 8)):  # fmt: skip
         # "the compound obtained in Step 4", "the acid obtained in Example (1d)"
         return " ".join(f"{phrase} {reference}".split()), None
     return name, what
@@ -104,8 +111,10 @@ def name_before(text: str) -> tuple[str | None, str | None]:
     start = 0
     for i in range(len(words) - 1, -1, -1):
         w = words[i]
-        if (w.lower() in BOUNDARY_WORDS or w[-1] in ",;:") and _balanced(words[i + 1 :]):
-            start = i + 1
+        ends_sentence = w[-1] == "." and not _ABBREVIATION.match(w.lower()) and len(w) > 2
+        if (w.lower() in BOUNDARY_WORDS or w[-1] in ",;:" or ends_sentence
+                or _VERB_LIKE.match(w)) and _balanced(words[i + 1 :]):  # fmt: skip
+            start = i + 1  # "with stirring thionyl chloride", "activated charcoal"
             break
         if len(words) - i > MAX_WORDS + 2:
             return None, None  # no boundary in reach: not a name

@@ -98,8 +98,10 @@ _QUANTITY = re.compile(
 )
 # "concentrated to 50 mL", "to a volume of 10 mL", "diluted to ca. 100 mL": a condition
 _CONDITION_BEFORE = re.compile(
-    r"\b(?:to|until)\s+(?:a\s+)?(?:total\s+)?(?:final\s+)?(?:volume\s+of\s+)?"
-    r"(?:about\s+|ca\.?\s+|approx(?:imately|\.)?\s+|~\s*)?$|\bvolume\s+of\s+(?:about\s+|ca\.?\s+)?$",
+    r"\b(?:concentrated|reduced|evaporated|diluted|distilled|made\s+up|adjusted|brought)\s+"
+    r"(?:\w+\s+){0,3}?(?:to|until)\s+(?:a\s+)?(?:total\s+)?(?:final\s+)?(?:volume\s+of\s+)?"
+    r"(?:about\s+|ca\.?\s+|approx(?:imately|\.)?\s+|~\s*)?$"
+    r"|\bvolume\s+of\s+(?:about\s+|ca\.?\s+)?$",
     re.I,
 )
 
@@ -377,6 +379,8 @@ class _Reading:
         mixture = mixture_before(before)
         name, what = (mixture[0], None) if mixture else name_before(before)
         offset = self.start + gs + 1
+        if name is None and what is None and mixture is None and self._name_after_bracket(gs):
+            return
         role = self._role(gs, what, ge, content)
         inside = _TAKEN_OUT_INSIDE.match(content[_quantity_end(content) :])
         if inside or _TAKEN_OUT.match(self.head[ge:]):
@@ -393,6 +397,20 @@ class _Reading:
         if amounts:
             self._add(name or what or "", amounts, role, gs, stated_yield=_yield_of(content),
                       note=_crude(role, name))  # fmt: skip
+
+    def _name_after_bracket(self, gs: int) -> bool:
+        """A bracket of amounts before its name: "reaction of (1.48 g, 5.0 mmol) of X",
+        "dissolved in (15 ml) THF"."""
+        ge, content = self.groups[gs]
+        amounts = _amounts_in(content, self.start + gs + 1)
+        if not amounts:
+            return False
+        name, what, _ = name_after(self.head[ge:])
+        if name is None or what is not None:
+            return False
+        role = self._role(gs, None)
+        self._add(name, amounts, role, gs, note=_crude(role, name))
+        return True
 
     def _role(self, pos: int, what: str | None, end: int | None = None,
               content: str = "") -> str | None:  # fmt: skip

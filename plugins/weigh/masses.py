@@ -70,6 +70,21 @@ def _moles(line: MaterialLine, info: MaterialInfo | None, mass_g: float | None) 
     return None
 
 
+def _weigh_by_moles(
+    line: MaterialLine, info: MaterialInfo, volume: AmountMention
+) -> MassAssignment | None:
+    """A volume with no density, stated with its amount of substance ("phosphorus oxychloride
+    (2.1 mL, 23.37 mmol)"): the mass is the moles × the molar mass, and the basis says so."""
+    amount = _first(line, "amount")
+    if amount is None or not info.molar_mass or _first(line, "concentration") is not None:
+        return None
+    grams = amount.total * info.molar_mass / 1000
+    basis = (f"{_amount_words(amount)} × {fmt(info.molar_mass)} g/mol ({info.formula}): no "
+             f"density is known for {info.name}, so {_amount_words(volume)} is weighed from the "
+             "amount of substance stated with it")  # fmt: skip
+    return MassAssignment(mass_g=grams, moles_mmol=amount.total, basis=basis)
+
+
 @hookimpl(trylast=True, specname="masstrail_assign_mass")
 def weigh_line(
     line: MaterialLine, material: MaterialInfo | None, context: MassContext, config: LabConfig
@@ -108,6 +123,9 @@ def _weigh(
                 problem_kind="unknown_material",
             )
         if not info.density_g_ml:
+            by_moles = _weigh_by_moles(line, info, volume)
+            if by_moles is not None:
+                return by_moles
             return MassAssignment(
                 moles_mmol=_moles(line, info, None),
                 problem=f"no density is known for {label}, so {volume.text} cannot be weighed; "
