@@ -17,7 +17,6 @@ crude mass, a sample, a piece of equipment (:func:`masstrail_plugins.prose.read_
 
 from __future__ import annotations
 
-import functools
 import re
 
 from masstrail_plugins.prose import read_name
@@ -51,6 +50,11 @@ _REFERENCE = (r"(?:obtained|prepared|described|synthesi[sz]ed|made|produced)\s+(
               r"(?:the\s+)?(?:\w+\s+){0,2}?(?:Example|Ex\.|Step|Preparation|Reference|"
               r"Intermediate|Method|Scheme|Description|Part|example|step|"
               r"preparation|intermediate)\b" + _REF_ID + r")")  # fmt: skip
+# words one of which any reference or aside holds (a quick test before the patterns)
+_REFERENCE_HINTS = ("xample", "Ex.", "tep", "reparation", "ntermediate", "eference", "Part",
+                    "ethod", "obtained", "prepared", "described", "synthesi", "made", "produced",
+                    "see", "cf.", "CAS")  # fmt: skip
+_REFERENCE_VERBS = ("obtained", "prepared", "described", "synthesi", "made", "produced")
 _REFERENCE_TAIL = re.compile(r"\s*(?:,\s*)?" + _REFERENCE + r"\s*$")
 _REFERENCE_HEAD = re.compile(r"\s*" + _REFERENCE)
 # a bracket of references or asides before the amount: "(Example J15)", "(obtained in …)"
@@ -96,12 +100,15 @@ def _resolve(phrase: str, reference: str = "") -> tuple[str | None, str | None]:
     return name, what
 
 
-@functools.lru_cache(maxsize=4096)
 def name_before(text: str) -> tuple[str | None, str | None]:
     """The material name that ends where ``text`` ends, and what it is (see module doc)."""
     reference = ""
     for _ in range(2):  # "X (Example 4) obtained in step 2 (…)": asides and references
-        m = _ASIDE_TAIL.search(text) or _REFERENCE_TAIL.search(text)
+        tail = text[-160:]
+        if not any(hint in tail for hint in _REFERENCE_HINTS):
+            break
+        near = max(0, len(text) - 300)
+        m = _ASIDE_TAIL.search(text, near) or _REFERENCE_TAIL.search(text, near)
         if not m:
             break
         reference, text = text[m.start() :].strip(" ,"), text[: m.start()]
@@ -144,7 +151,8 @@ def name_after(text: str) -> tuple[str | None, str | None, int]:
     for m in _WORD.finditer(text, pos):
         w = m.group(0)
         low = w.lower().rstrip(",;:.")
-        ref = _REFERENCE_HEAD.match(text, m.start() - 1) if words else None
+        ref = (_REFERENCE_HEAD.match(text, m.start() - 1)
+               if words and low.startswith(_REFERENCE_VERBS) else None)  # fmt: skip
         if ref:  # "the compound obtained in Step 4"
             reference = ref.group(0).strip()
             ends[-1] = ref.end()

@@ -39,7 +39,7 @@ from dataclasses import dataclass
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import AmountMention, Entry, MaterialLine, Stage
-from capture.quantities import UNITS, AmountError, parse_amount
+from capture.quantities import UNITS, AmountError, parse_amount, plain_amount
 from masstrail_plugins.extract.brackets import (
     MAYBE_AMOUNT,
     PERCENT_ONLY,
@@ -49,7 +49,13 @@ from masstrail_plugins.extract.brackets import (
     read_group,
 )
 from masstrail_plugins.extract.names import name_after, name_before
-from masstrail_plugins.prose import CHARACTERISATION, OPERATION_STAGE, OPERATION_STEMS, sentences
+from masstrail_plugins.prose import (
+    CHAR_HINT,
+    CHARACTERISATION,
+    OPERATION_STAGE,
+    OPERATION_STEMS,
+    sentences,
+)
 
 # words that introduce the product: the mention after them is an output, not an input
 _PRODUCT_WORDS = {"give", "gave", "giving", "gives", "afford", "afforded", "affording", "affords",
@@ -65,7 +71,7 @@ _CLAUSE_END = re.compile(r",\s*which\b|;|\band\s+then\b|\bthen\b|,\s*and\s+(?=\w
 # "(ca. 30 mL remained)", "(24 L collected for reuse)", "30 mL of solvent were distilled off":
 # what left the flask, not an input
 _TAKEN_OUT = re.compile(
-    r"^\s*(?:was|were|had\s+been|has\s+been|is|are)\s+(?:then\s+)?(?:collected|distilled|"
+    r"\s*(?:was|were|had\s+been|has\s+been|is|are)\s+(?:then\s+)?(?:collected|distilled|"
     r"evaporated|removed|recovered|withdrawn|taken\s+out)\b",
     re.I,
 )
@@ -73,13 +79,15 @@ _TAKEN_OUT_INSIDE = re.compile(
     r"^\s*(?:remained|remaining|left|collected|distilled|evaporated|removed|recovered)\b", re.I
 )
 _PASSIVE_PRODUCT = re.compile(
-    r"^\s*(?:was|were)\s+(?:then\s+)?(?:obtained|isolated|collected|afforded|produced|formed)\b"
+    r"\s*(?:was|were)\s+(?:then\s+)?(?:obtained|isolated|collected|afforded|produced|formed)\b"
 )
 # a bracket group, allowing one level of nested brackets inside
 _GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtracking
 # "… and the product was recrystallised": an operation after this belongs to another clause
 _NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
 _DIGIT = re.compile(r"\d")
+_SPACE = re.compile(r"\s*")
+_OUT_WORDS = re.compile(r"remain|left|collect|distil|evaporat|remov|recover", re.I)
 _GLASSWARE_DRIED = re.compile(r"\b(?:oven|flame|heat)[- ]$", re.I)
 _AQUEOUS_SOLUTION = re.compile(
     r"^(?:\d+(?:\.\d+)?\s*(?:M|N)\s+\S|\d+(?:\.\d+)?\s*%\s*(?:aq\.?|aqueous)\s+\S|"
@@ -91,8 +99,8 @@ _LEDGER_UNITS = "|".join(
            key=len, reverse=True)
 )  # fmt: skip
 _QUANTITY = re.compile(
-    r"(?<![\w.,/-])(?P<q>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?(?:\d+\s*[×xX*]\s*)?"
-    r"(?:\d+(?:[.,]\d+)?|[.,]\d+)(?:\s*(?:-|–|—|to)\s*\d+(?:[.,]\d+)?)?"
+    r"(?<![\w.,/-])(?P<q>(?P<more>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?(?:\d+\s*[×xX*]\s*))?"
+    r"(?P<num>\d+(?:[.,]\d+)?|[.,]\d+)(?P<range>\s*(?:-|–|—|to)\s*\d+(?:[.,]\d+)?)?"
     rf"\s*(?P<unit>{_LEDGER_UNITS}))(?![\w/])(?P<dot>\.(?!\d))?"
     r"(?:\s*[×x]\s*(?P<times>\d)(?![\d.]))?"
 )
@@ -116,8 +124,20 @@ _KEYWORDS = re.compile(
 class _Quantity:
     start: int  # in the sentence
     end: int
-    amount: AmountMention | None  # None when it cannot be read (its text is kept)
-    text: str
+    match: re.Match
+    offset: int  # of the sentence in the body
+    _amount: AmountMention | bool | None = False  # read when first asked for
+
+    @property
+    def text(self) -> str:
+        return self.match.group(0).rstrip(".")
+
+    @property
+    def amount(self) -> AmountMention | None:
+        """The quantity read (None when it cannot be; its text is kept)."""
+        if self._amount is False:
+            self._amount = _read_quantity(self.match, self.offset)
+        return self._amount
 
 
 class _Sentence:
@@ -171,21 +191,26 @@ class _Sentence:
 
 def _quantities(text: str, offset: int) -> list[_Quantity]:
     """Every mass, volume and amount of substance in ``text`` (at ``offset`` in the body)."""
-    out = []
-    for m in _QUANTITY.finditer(text):
-        core = m.group("q")
-        span = (offset + m.start(), offset + m.end())
+    return [_Quantity(m.start(), m.end() if m.group("times") else m.end("q"), m, offset)
+            for m in _QUANTITY.finditer(text)]  # fmt: skip
+
+
+def _read_quantity(m: re.Match, offset: int) -> AmountMention | None:
+    written = m.group(0).rstrip(".")
+    span = (offset + m.start(), offset + m.start() + len(written))
+    num = m.group("num")
+    if not (m.group("more") or m.group("range") or "," in num):  # "2.76 g": the fast path
+        amount = plain_amount(num, m.group("unit"), m.group("q"), span)
+    else:
         try:
-            amount = parse_amount(core, span)
+            amount = parse_amount(m.group("q"), span)
         except AmountError:
-            amount = None
-        written = text[m.start() : m.end()].rstrip(".")
-        if amount is not None and (m.group("times") or m.group("dot")):
-            times = int(m.group("times") or 1)
-            amount = amount.model_copy(update={"multiplier": amount.multiplier * times,
-                                               "text": written})  # fmt: skip
-        out.append(_Quantity(m.start(), m.start() + len(written), amount, written))
-    return out
+            return None
+    if amount is not None and (m.group("times") or m.group("dot")):
+        times = int(m.group("times") or 1)
+        amount = amount.model_copy(update={"multiplier": amount.multiplier * times,
+                                           "text": written})  # fmt: skip
+    return amount
 
 
 def _line(name: str, amounts: list[AmountMention], role: str | None, op: tuple[str, Stage],
@@ -238,6 +263,8 @@ _YIELD = re.compile(
 def _yield_of(content: str) -> float | None:
     """A yield stated after a mass in a bracket, "(2.41 g, 86%)" or "(26 mg, yield 29%)": 0.86;
     None if none ("(77%, 2.46 g)" and "(10%, 20 mL)" state a purity or a strength)."""
+    if "%" not in content:
+        return None
     mass_seen = False
     for part, _ in parts(content, 0):
         if not mass_seen:
@@ -255,7 +282,7 @@ def _yield_of(content: str) -> float | None:
 def _characterisation_at(text: str) -> int:
     """Where the characterisation data of a sentence begin (its length if there are none):
     at the separator before the first marker (``; mp``, ``: 1H NMR``, ``(m.p. …``)."""
-    m = CHARACTERISATION.search(text)
+    m = CHARACTERISATION.search(text) if CHAR_HINT.search(text) else None
     if m is None:
         return len(text)
     window = text[max(0, m.start() - 40) : m.start()]
@@ -305,7 +332,7 @@ class _Reading:
         self.head = text[:cut]
         self.quantities = _quantities(self.head, start)
         self.tail = _quantities(text[cut:], start + cut)
-        self.s = _Sentence(self.head)
+        self._s: _Sentence | None = None
         self.groups = {m.start(): (m.end(), m.group(1)) for m in _GROUP.finditer(self.head)
                        if _DIGIT.search(m.group(1))
                        and not _inside_a_word(self.head, m)}  # fmt: skip
@@ -313,7 +340,18 @@ class _Reading:
         self.lines: list[MaterialLine] = []
         self.product_taken = False
 
+    @property
+    def s(self) -> _Sentence:
+        """The sentence's operation and product words, read when a mention needs them."""
+        if self._s is None:
+            self._s = _Sentence(self.head)
+        return self._s
+
     def read(self) -> list[MaterialLine]:
+        if not self.quantities and not self.groups:
+            if self.tail:
+                self._leftovers()
+            return self.lines
         if self.quantities:
             self._quantities_before_names()
         for gs in sorted(self.groups):
@@ -326,7 +364,7 @@ class _Reading:
     # ---------------------------------------------------------------- quantities first
     def _group_after(self, pos: int) -> tuple[int, int, str] | None:
         """The bracket that starts right after ``pos`` (past white space), if any."""
-        gs = len(self.head[pos:]) - len(self.head[pos:].lstrip()) + pos
+        gs = _SPACE.match(self.head, pos).end()
         if gs in self.groups:
             return gs, *self.groups[gs]
         return None
@@ -348,7 +386,7 @@ class _Reading:
     def _quantities_before_names(self) -> None:
         done = -1
         for q in self.quantities:
-            if q.start < done or q.amount is None or self._inside_group(q.start):
+            if q.start < done or self._inside_group(q.start) or q.amount is None:
                 continue
             amounts = [q.amount]
             pos = self._joined(q.end, amounts)
@@ -356,9 +394,9 @@ class _Reading:
                 self._add("", amounts, "condition", q.start)
                 done = pos
                 continue
-            taken = _TAKEN_OUT.match(self.head[pos:])
+            taken = _TAKEN_OUT.match(self.head, pos)
             if taken:  # "60 mL was collected for reuse"
-                said = self.head[pos + taken.start() : pos + taken.end() + 30].split(",")[0]
+                said = self.head[taken.start() : taken.end() + 30].split(",")[0]
                 self._add(" ".join(said.split()), amounts, "intermediate", q.start)
                 done = pos
                 continue
@@ -366,9 +404,7 @@ class _Reading:
             if name is None and what is None:
                 continue  # left for the end: unread, unless a bracket claims it
             end = self._joined(pos + k, amounts) if name else pos + k
-            role = (
-                "intermediate" if _TAKEN_OUT.match(self.head[end:]) else self._role(q.start, what)
-            )
+            role = "intermediate" if _TAKEN_OUT.match(self.head, end) else self._role(q.start, what)
             self._add(name or what, amounts, role, q.start, note=_crude(role, name))
             done = end
 
@@ -382,8 +418,9 @@ class _Reading:
         if name is None and what is None and mixture is None and self._name_after_bracket(gs):
             return
         role = self._role(gs, what, ge, content)
-        inside = _TAKEN_OUT_INSIDE.match(content[_quantity_end(content) :])
-        if inside or _TAKEN_OUT.match(self.head[ge:]):
+        inside = _OUT_WORDS.search(content) and _TAKEN_OUT_INSIDE.match(
+            content[_quantity_end(content) :])  # fmt: skip
+        if inside or _TAKEN_OUT.match(self.head, ge):
             role = "intermediate"
             if inside:  # "(4.8 L collected for the next run)": named by what it says
                 name = " ".join(content[_quantity_end(content) :].split())
@@ -422,7 +459,7 @@ class _Reading:
         if what == "intermediate" and (self.product_taken or not self.s.in_product_clause(pos)):
             return what
         product = (what in {"product", "intermediate"} or self.s.in_product_clause(pos)
-                   or (end is not None and (_PASSIVE_PRODUCT.match(self.head[end:])
+                   or (end is not None and (_PASSIVE_PRODUCT.match(self.head, end)
                                             or _yield_of(content) is not None)))  # fmt: skip
         if not product:
             return None
