@@ -99,7 +99,7 @@ _LEDGER_UNITS = "|".join(
            key=len, reverse=True)
 )  # fmt: skip
 _QUANTITY = re.compile(
-    r"(?<![\w.,/-])(?P<q>(?P<more>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?(?:\d+\s*[×xX*]\s*))?"
+    r"(?<![\w.,/-])(?P<q>(?P<more>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?(?:\d+\s*[×xX*]\s*)?)"
     r"(?P<num>\d+(?:[.,]\d+)?|[.,]\d+)(?P<range>\s*(?:-|–|—|to)\s*\d+(?:[.,]\d+)?)?"
     rf"\s*(?P<unit>{_LEDGER_UNITS}))(?![\w/])(?P<dot>\.(?!\d))?"
     r"(?:\s*[×x]\s*(?P<times>\d)(?![\d.]))?"
