@@ -201,3 +201,60 @@ def test_a_lab_plugin_adds_its_own_check_and_grades_gaps_its_own_way(notebook):
     (result,) = scan(nb).results
     assert [(g.kind, g.severity) for g in result.gaps] == [("glovebox_gloves", "minor")]
     assert result.metrics.e_factor_estimated == pytest.approx(4.0 + 40.0)
+
+
+def _gaps(notebook, front: str, body: str = "") -> dict[str, object]:
+    notebook.write("e.md", entry_md(front, body))
+    (result,) = notebook.scan().results
+    return {g.kind: g for g in result.gaps}
+
+
+def test_a_product_mass_with_no_weighed_input_is_blocking_and_says_why(notebook):
+    gaps = _gaps(notebook, "product: {name: p, mass: 1.2 g}\nmaterials: [{name: Kestrelite, amount: 5 mL}]")
+    gap = gaps["no_weighed_input"]
+    assert gap.severity == "blocking"
+    assert "none of the 1 inputs found could be weighed" in gap.message
+    assert "Kestrelite" in gap.message  # the reason: not in the material data
+    notebook.write("e.md", entry_md("product: {name: p, mass: 1.2 g}"))
+    (result,) = notebook.scan().results
+    assert "no input with an amount was found" in result.gaps[0].message
+
+
+def test_an_unread_quantity_is_a_gap_sized_by_its_amount(notebook):
+    gaps = _gaps(notebook, "product: {name: p, mass: 1.0 g}",
+                 "Ethyl benzoate (3.0 g) was stirred; then 12 mL was removed by syringe and "
+                 "replaced with 12 mL.")  # fmt: skip
+    gap = gaps["unread_amount"]
+    # 12 mL at the assumed 1 g/mL of allowances.toml (an assumption, said in the basis)
+    assert (gap.item, gap.allowance_g) == ("12 mL", 12.0)
+    assert "assumed 1 g/mL" in gap.allowance_basis and gap.severity == "major"
+
+
+def test_a_procedure_written_elsewhere_is_a_major_gap(notebook):
+    gaps = _gaps(notebook, "product: {name: p, mass: 1.0 g}",
+                 "Following general procedure B, ethyl benzoate (3.0 g) was hydrolysed.")
+    gap = gaps["procedure_elsewhere"]
+    assert gap.item == "general procedure B" and gap.severity == "major"
+    assert "not in this entry" in gap.message
+
+
+def test_a_mass_that_disagrees_with_its_moles_is_named(notebook):
+    # benzaldehyde, C7H6O: 20.0 mmol × 106.12 g/mol = 2.12 g (molar mass from IUPAC atomic
+    # weights); the text says 1.06 g, half of it: a typo or a misread, which the gap names
+    gaps = _gaps(notebook, "product: {name: p, mass: 1.0 g}",
+                 "Benzaldehyde (1.06 g, 20.0 mmol) was added to ethanol (10 mL).")
+    gap = gaps["mass_moles_mismatch"]
+    assert "1.06 g and 20.0 mmol disagree" in gap.message and "2.122 g" in gap.message
+    assert gap.severity == "major"
+    ok = _gaps(notebook, "product: {name: p, mass: 1.0 g}",
+               "Benzaldehyde (2.12 g, 20.0 mmol) was added to ethanol (10 mL).")
+    assert "mass_moles_mismatch" not in ok
+
+
+def test_a_stated_yield_that_disagrees_with_the_masses_is_named(notebook):
+    # benzoic acid C7H6O2 122.12 g/mol; 2.00 g of benzyl alcohol C7H8O (108.14 g/mol) is
+    # 18.49 mmol, so 1.13 g of acid is 50 % (1:1), not the 95 % the text states
+    body = "Benzyl alcohol (2.00 g, 18.49 mmol) was oxidised to give the acid (1.13 g, 95%)."
+    front = "product: {name: benzoic acid, formula: C7H6O2}"
+    gap = _gaps(notebook, front, body)["yield_mismatch"]
+    assert "yield of 95%" in gap.message and "is 50%" in gap.message and gap.severity == "minor"

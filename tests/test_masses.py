@@ -72,3 +72,17 @@ def test_the_basis_gives_the_density_used_so_the_mass_can_be_redone():
     got = _weigh("DCM", "40 mL")
     assert got.mass_g == pytest.approx(40 * 1.3266)
     assert got.basis.startswith("40 mL × 1.3266 g/mL (dichloromethane, 20 °C;")
+
+
+def test_a_volume_without_density_is_weighed_from_its_moles_and_says_so():
+    from capture.models import AmountMention, MassContext, MaterialInfo, MaterialLine
+
+    # a liquid the data knows by formula only (POCl3, 153.33 g/mol from IUPAC atomic weights)
+    info = MaterialInfo(name="phosphoryl chloride", formula="POCl3", molar_mass=153.33,
+                        source="test")  # fmt: skip
+    line = MaterialLine(name="POCl3", origin="text", stated="2.1 mL, 23.4 mmol", amounts=[
+        AmountMention(value=2.1, unit="mL", kind="volume", text="2.1 mL"),
+        AmountMention(value=23.4, unit="mmol", kind="amount", text="23.4 mmol")])  # fmt: skip
+    got = weigh_line(line, info, MassContext(), CFG)
+    assert got.mass_g == pytest.approx(23.4 * 153.33 / 1000)
+    assert "no density is known" in got.basis and "23.4 mmol" in got.basis

@@ -62,3 +62,72 @@ def test_spans_point_at_the_amount_text():
     (line,) = extract(body)
     s, e = line.amounts[0].span
     assert body[s:e] == "20 mL" and line.name == "toluene"
+
+
+def _ledger(body: str):
+    """(role, name, amounts as written) of every line: inputs have the role None."""
+    return [(m.role, m.name, m.stated) for m in extract(body)]
+
+
+@pytest.mark.parametrize(
+    ("body", "expected"),
+    [
+        (  # every quantity ends in one class: input, product, intermediate …
+            "The crude aldol (0.82 g) was taken up in ethanol (9 mL) and filtered; "
+            "concentration gave the enone (0.61 g, 80%).",
+            [(None, "aldol", "0.82 g"), (None, "ethanol", "9 mL"),
+             ("product", "enone", "0.61 g")],
+        ),
+        (
+            "The combined extracts (120 mL) were dried; an aliquot (0.5 mL) was kept for GC.",
+            [("intermediate", "extracts", "120 mL"), ("sample", "aliquot", "0.5 mL")],
+        ),
+        (
+            "In a 250 mL three-necked flask, 4.0 g of the diol was dissolved in 30 mL of THF.",
+            [("equipment", "three-necked flask", "250 mL"), (None, "diol", "4.0 g"),
+             (None, "THF", "30 mL")],
+        ),
+        (  # a condition, and what left the flask
+            "The solution was concentrated to about 15 mL and 40 mL of hexane was distilled off.",
+            [("condition", "condition", "about 15 mL"),
+             ("intermediate", "hexane", "40 mL")],
+        ),
+        (  # nothing reads the second amount: it is unread, never dropped
+            "The ketone (1.3 g) was added; 2.2 g were then added in one go.",
+            [(None, "ketone", "1.3 g"), ("unread", "2.2 g", "2.2 g")],
+        ),
+        (  # characterisation is the tail of the sentence, not the whole of it
+            "Filtration gave the amide (1.45 g, 91%): 1H NMR (400 MHz, CDCl3) δ 7.2 (2 mg).",
+            [("product", "amide", "1.45 g"), ("characterisation", "2 mg", "2 mg")],
+        ),
+    ],
+    ids=["classes", "intermediate-sample", "equipment", "condition-taken-out", "unread",
+         "characterisation-tail"],
+)  # fmt: skip
+def test_every_quantity_is_accounted_for(body, expected):
+    assert _ledger(body) == expected
+
+
+def test_the_ledger_keeps_each_quantity_once():
+    """No amount is counted in two lines: the bracket after a quantity joins its mention."""
+    body = ("A mixture of 0.95 g (4.1 mmol) of the bromide, 8.16 g ammonium acetate (106 mmol, "
+            "8 eq.) and 20 mL of acetic acid was heated.")  # fmt: skip
+    lines = extract(body)
+    spans = [a.span for m in lines for a in m.amounts]
+    assert len(spans) == len(set(spans)) == 6
+    assert [(m.name, m.stated) for m in lines] == [
+        ("bromide", "0.95 g, 4.1 mmol"), ("ammonium acetate", "8.16 g, 106 mmol, 8 eq."),
+        ("acetic acid", "20 mL")]  # fmt: skip
+
+
+def test_the_product_of_a_sentence_is_its_isolated_mention():
+    from capture.models import MaterialLine
+    from masstrail_plugins.extract.merge import _product_mention
+
+    lines = extract("Evaporation left the crude lactone (2.9 g). Chromatography (silica, 60 g) "
+                    "gave the lactone (2.2 g, 76%).")  # fmt: skip
+    mentions = [m for m in lines if m.role == "product"]
+    assert [(m.stated, m.note, m.stated_yield) for m in mentions] == [
+        ("2.9 g", "crude", None), ("2.2 g", None, 0.76)]
+    assert _product_mention(mentions).stated == "2.2 g"
+    assert isinstance(mentions[0], MaterialLine)

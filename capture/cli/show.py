@@ -31,6 +31,7 @@ def show(entry: Path, as_json: bool) -> None:
         out.print(f"[red]This entry could not be read{esc(where)}:[/red] {esc(r.error.message)}")
     else:
         _materials(out, r)
+        _set_aside(out, r)
         _gaps(out, r)
         _figures(out, r)
     out.print(f"[dim]{esc(r.caution)}[/dim]")
@@ -57,6 +58,19 @@ def _materials(out, r) -> None:
     for rec in r.recovered:
         out.print(f"Recovered: {esc(rec.name)}, {num(rec.mass_g, '.4g')} g "
                   f"({esc(rec.basis or rec.problem or '')})")  # fmt: skip
+
+
+def _set_aside(out, r) -> None:
+    """The quantities that are not inputs: unread ones first (each is also a gap)."""
+    unread = [m for m in r.set_aside if m.role == "unread"]
+    if unread:
+        out.print("[bold]Quantities not read[/bold] (not in the figures; each is a gap below)")
+        for m in unread:
+            out.print(f"  [yellow]{esc(m.stated or m.name)}[/yellow] in: {esc(m.evidence or '')}")
+    others = [m for m in r.set_aside if m.role != "unread"]
+    if others:
+        said = "; ".join(f"{esc(m.name)} {esc(m.stated or '')} ({m.role})" for m in others)
+        out.print(f"[dim]Not inputs: {said}[/dim]")
 
 
 def _gaps(out, r) -> None:

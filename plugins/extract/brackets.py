@@ -95,7 +95,7 @@ def mixture_before(text: str) -> tuple[str, list[tuple[str, float]]] | None:
 # "1.0 g 3.64 mmol", "228 mg. 2.3 mmole": two amounts with no comma between them
 _ASCII_UNITS = "|".join(sorted((re.escape(u) for u in UNITS if u.isascii()), key=len, reverse=True))
 _AMOUNT_JOINT = re.compile(
-    rf"(?<=[A-Za-zμ.])\s+(?=\d+(?:[.,]\d+)?\s*(?:{_ASCII_UNITS})\.?(?![A-Za-z]))"
+    rf"(?<=[A-Za-zμ.])\s+(?:and\s+)?(?=\d+(?:[.,]\d+)?\s*(?:{_ASCII_UNITS})\.?(?![A-Za-z]))"
 )
 _ENDS_WITH_AMOUNT = re.compile(rf"\d\s*(?:{_ASCII_UNITS})\.?$")
 
@@ -230,6 +230,9 @@ def read_parts(content: str, offset: int, name: str | None, mixture) -> list[Gro
             m = _SOLUTION_PART.match(normalise(rest)) or _FRACTION_PART.match(normalise(rest))
             if m:
                 groups[-1].solvent = clean_name(m.group("solv"))
+            solvent = _amount_and_name(rest, start + part.find(rest)) if rest else None
+            if solvent is not None:  # "(120 mg in 8 mL dry methylene chloride)"
+                groups.append(solvent)
             continue
         if PERCENT_ONLY.match(norm) or _BARE_NUMBERS.fullmatch(norm):
             continue  # a yield, a purity or a bare ratio
@@ -267,6 +270,27 @@ def _worded_amount(part: str, start: int) -> tuple[AmountMention, str] | None:
         return parse_amount(m.group("a"), (at, at + len(m.group("a")))), m.group("rest") or ""
     except AmountError:
         return None
+
+
+_AMOUNT_NAME = re.compile(r"^(?P<a>\d[\d.,]*\s*[a-zA-Zμ]+\.?)\s+(?P<name>[A-Za-z(].*)$")
+
+
+def _amount_and_name(text: str, start: int) -> Group | None:
+    """A material written amount first, "8 mL dry methylene chloride", as a group."""
+    m = _AMOUNT_NAME.match(text)
+    if m is None:
+        return None
+    name = clean_name(m.group("name"))
+    try:
+        amount = parse_amount(m.group("a"), (start, start + len(m.group("a"))))
+    except AmountError:
+        return None
+    if name is None:
+        return None
+    group = Group(name)
+    group.amounts.append(amount)
+    group.texts.append(amount.text)
+    return group
 
 
 def first_mass(content: str, offset: int) -> AmountMention | None:

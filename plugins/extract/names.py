@@ -96,7 +96,7 @@ def _resolve(phrase: str, reference: str = "") -> tuple[str | None, str | None]:
     if reference and ((name is None and what in {None, "product", "intermediate"})
                       or (name and len(name) < 8)):  # fmt: skip
         # "the compound obtained in Step 4", "the acid obtained in Example (1d)"
-        return " ".join(f"{phrase} {reference}".split()), None
+        return " ".join(f"{_ARTICLE.sub('', phrase)} {reference}".split()), None
     return name, what
 
 
@@ -112,6 +112,9 @@ def name_before(text: str) -> tuple[str | None, str | None]:
         if not m:
             break
         reference, text = text[m.start() :].strip(" ,"), text[: m.start()]
+    cut = text.rfind("),", max(0, len(text) - 400))
+    if cut >= 0 and cut + 2 < len(text) and not text[cut + 2].isspace():
+        text = text[cut + 2 :]  # "(156 mg, 1.62 mmol),(R)-1-[…]": the name after the comma
     words = text[-400:].rsplit(None, MAX_WORDS + 3)
     if words and (len(text) > 400 or len(words) > MAX_WORDS + 3):
         words = words[1:]  # the first word may be cut, or holds all the words out of reach
@@ -159,8 +162,10 @@ def name_after(text: str) -> tuple[str | None, str | None, int]:
             break
         if low in BOUNDARY_WORDS and _balanced(words) and (words or not had_of):
             break
-        if words and w.startswith("(") and _AMOUNT_BRACKET.match(w) and _balanced(words):
-            break  # the next bracket of amounts belongs to this mention
+        if words and w.startswith("(") and _balanced(words) and (
+                _AMOUNT_BRACKET.match(w) or ")" not in w):  # fmt: skip
+            break  # a bracket of amounts (it belongs to this mention), or an aside
+
         words.append(w)
         ends.append(m.end())
         if (w[-1] in ",;:" and _balanced(words)) or len(words) > MAX_WORDS + 2:
@@ -185,7 +190,8 @@ def name_after(text: str) -> tuple[str | None, str | None, int]:
 
 _LEAD = re.compile(
     r"\s*(?P<of>of\s+)?(?P<sol>(?:(?:a|an)\s+)?(?P<c>\d+(?:\.\d+)?\s*(?:M|N|%|wt\s*%|mol/L))?\s*"
-    r"(?P<aq>aqueous|aq\.|saturated|sat\.)?\s*(?:solution|suspension|slurry|dispersion)\s+of\s+)?"
+    r"(?P<aq>aqueous|aq\.|saturated|sat\.)?\s*(?:(?:solution|suspension|slurry|dispersion)\s+of|"
+    r"(?<=%)\s*by\s+(?:volume|weight)\s+of)\s+)?"  # "15% by volume of sodium hydroxide"
 )
 _AMOUNT_BRACKET = re.compile(r"\(\s*[\d.~≈]")
 _ABBREVIATION = re.compile(r"^(?:aq|sat|conc|ca|approx|abs|anh|eq|equiv|no)\.$")

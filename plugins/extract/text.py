@@ -79,13 +79,21 @@ _TAKEN_OUT_INSIDE = re.compile(
     r"^\s*(?:remained|remaining|left|collected|distilled|evaporated|removed|recovered)\b", re.I
 )
 _PASSIVE_PRODUCT = re.compile(
-    r"\s*(?:was|were)\s+(?:then\s+)?(?:obtained|isolated|collected|afforded|produced|formed)\b"
+    r"\s*(?:\([^()]*\)\s*)?(?:was|were)\s+(?:then\s+)?(?:obtained|isolated|collected|afforded|produced|formed)\b"
 )
 # a bracket group, allowing one level of nested brackets inside
 _GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtracking
 # "… and the product was recrystallised": an operation after this belongs to another clause
 _NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
 _DIGIT = re.compile(r"\d")
+_PERCENT_REMARK = re.compile(r"\d+(?:[.,]\d+)?\s*%\s+\w")  # "(35% calculated from …)"
+# "a SNAP 25 g column", "(330g column)": a prepacked column is sold by its silica's mass
+_COLUMN_AFTER = re.compile(r"\s*(?:[\w-]+\s+){0,2}?(?:column|cartridge)s?\b", re.I)
+_EQUIPMENT_AFTER = re.compile(
+    r"[\s,.-]*(?:[\w-]+\s+){0,4}?(?:flask|vessel|reactor|vial|tube|beaker|bottle|autoclave|"
+    r"funnel|trap|condenser)s?\b",
+    re.I,
+)
 _SPACE = re.compile(r"\s*")
 _OUT_WORDS = re.compile(r"remain|left|collect|distil|evaporat|remov|recover", re.I)
 _GLASSWARE_DRIED = re.compile(r"\b(?:oven|flame|heat)[- ]$", re.I)
@@ -106,7 +114,8 @@ _QUANTITY = re.compile(
 )
 # "concentrated to 50 mL", "to a volume of 10 mL", "diluted to ca. 100 mL": a condition
 _CONDITION_BEFORE = re.compile(
-    r"\b(?:concentrated|reduced|evaporated|diluted|distilled|made\s+up|adjusted|brought)\s+"
+    r"\b(?:concentrated|reduced|evaporated|diluted|distilled|made\s+up|adjusted|brought|removed|"
+    r"stripped)\s+"
     r"(?:\w+\s+){0,3}?(?:to|until)\s+(?:a\s+)?(?:total\s+)?(?:final\s+)?(?:volume\s+of\s+)?"
     r"(?:about\s+|ca\.?\s+|approx(?:imately|\.)?\s+|~\s*)?$"
     r"|\bvolume\s+of\s+(?:about\s+|ca\.?\s+)?$",
@@ -160,7 +169,11 @@ class _Sentence:
                 self.products.append((m.end(), end.start() if end else len(text)))
 
     def in_product_clause(self, pos: int) -> bool:
-        return any(a <= pos < b for a, b in self.products)
+        return self.product_clause(pos) is not None
+
+    def product_clause(self, pos: int) -> int | None:
+        """Which product clause ``pos`` lies in (its product word's end), if any."""
+        return next((a for a, b in self.products if a <= pos < b), None)
 
     @property
     def evidence(self) -> str:
@@ -216,8 +229,8 @@ def _read_quantity(m: re.Match, offset: int) -> AmountMention | None:
 def _line(name: str, amounts: list[AmountMention], role: str | None, op: tuple[str, Stage],
           evidence: str, **extra) -> MaterialLine:  # fmt: skip
     stage = op[1] if role is None else None
-    return MaterialLine(name=name, role=role, operation=op[0], stage=stage,
-                        stated=", ".join(a.text for a in amounts), amounts=amounts,
+    extra.setdefault("stated", ", ".join(a.text for a in amounts))
+    return MaterialLine(name=name, role=role, operation=op[0], stage=stage, amounts=amounts,
                         origin="text", evidence=evidence, **extra)  # fmt: skip
 
 
@@ -318,7 +331,7 @@ def _amounts_in(content: str, offset: int) -> list[AmountMention] | None:
         try:
             out.append(parse_amount(part, (start, start + len(part))))
         except AmountError:
-            if not (PERCENT_ONLY.match(part) or _YIELD.match(part)):
+            if not (PERCENT_ONLY.match(part) or _YIELD.match(part) or _PERCENT_REMARK.match(part)):
                 return None
     return out
 
@@ -338,7 +351,7 @@ class _Reading:
                        and not _inside_a_word(self.head, m)}  # fmt: skip
         self.claimed: set[int] = set()
         self.lines: list[MaterialLine] = []
-        self.product_taken = False
+        self.clauses_taken: set[int | None] = set()  # product clauses that gave the product
 
     @property
     def s(self) -> _Sentence:
@@ -400,11 +413,19 @@ class _Reading:
                 self._add(" ".join(said.split()), amounts, "intermediate", q.start)
                 done = pos
                 continue
+            if _COLUMN_AFTER.match(self.head, pos):  # "a SNAP 25 g column": the silica in it
+                self._add("silica", amounts, None, q.start, note="a prepacked column's packing")
+                done = pos
+                continue
             name, what, k = name_after(self.head[pos:])
             if name is None and what is None:
+                if _EQUIPMENT_AFTER.match(self.head, pos):  # "a 1 l., 3-neck round-bottom flask"
+                    self._add("equipment", amounts, "equipment", q.start)
+                    done = pos
                 continue  # left for the end: unread, unless a bracket claims it
             end = self._joined(pos + k, amounts) if name else pos + k
-            role = "intermediate" if _TAKEN_OUT.match(self.head, end) else self._role(q.start, what)
+            taken = _TAKEN_OUT.match(self.head, end)
+            role = "intermediate" if taken else self._role(q.start, what, end)
             self._add(name or what, amounts, role, q.start, note=_crude(role, name))
             done = end
 
@@ -456,14 +477,16 @@ class _Reading:
         crude: the merge prefers an isolated product's."""
         if what in {"sample", "equipment"}:
             return what
-        if what == "intermediate" and (self.product_taken or not self.s.in_product_clause(pos)):
+        clause = self.s.product_clause(pos)
+        taken = clause is not None and clause in self.clauses_taken
+        if what == "intermediate" and (taken or clause is None):
             return what
-        product = (what in {"product", "intermediate"} or self.s.in_product_clause(pos)
+        product = (what in {"product", "intermediate"} or clause is not None
                    or (end is not None and (_PASSIVE_PRODUCT.match(self.head, end)
                                             or _yield_of(content) is not None)))  # fmt: skip
         if not product:
             return None
-        if self.product_taken and self.s.in_product_clause(pos) and what != "product":
+        if taken and what != "product":
             return "intermediate"  # a second output of the same clause: not the product
         return "product"
 
@@ -473,7 +496,8 @@ class _Reading:
         op = self.s.operation(pos) if role is None else ("product" if role == "product"
                                                           else None, None)  # fmt: skip
         solvent = "water" if role is None and _aqueous(name) else None
-        self.product_taken |= role == "product"
+        if role == "product":
+            self.clauses_taken.add(self.s.product_clause(pos))
         self.lines.append(_line(name or role or "", amounts, role, op, self.s.evidence,
                                 solvent=solvent, **extra))  # fmt: skip
 
@@ -486,7 +510,7 @@ class _Reading:
                 continue
             amounts = [q.amount] if q.amount else []
             problem = None if q.amount else f"{q.text!r} could not be read as an amount"
-            self._add(q.text, amounts, "unread", q.start, problem=problem)
+            self._add(q.text, amounts, "unread", q.start, problem=problem, stated=q.text)
         for q in self.tail:
             self._add(q.text, [q.amount] if q.amount else [], "characterisation", q.start)
 

@@ -49,6 +49,16 @@ def _first(line: MaterialLine, kind: str) -> AmountMention | None:
     return next((a for a in line.amounts if a.kind == kind), None)
 
 
+def _portions(line: MaterialLine, kind: str) -> tuple[float, str]:
+    """The total of a line's amounts of one kind, in words: "(100 ml and 50 ml)" is two
+    portions, 150 mL in all."""
+    found = [a for a in line.amounts if a.kind == kind]
+    words = " + ".join(_amount_words(a, bool(line.note)) for a in found)
+    if len(found) > 1:
+        words = f"({words})"
+    return sum(a.total for a in found), words
+
+
 def _density_words(info: MaterialInfo) -> str:
     # the density as the data gives it (1.3266, not 1.327): the reader can redo the product
     density = f"{info.density_g_ml:g}"
@@ -109,10 +119,9 @@ def _weigh(
     label = info.name if info else line.name
     mass = _first(line, "mass")
     if mass is not None:
-        basis = f"{_amount_words(mass)} as recorded"
-        return MassAssignment(
-            mass_g=mass.total, moles_mmol=_moles(line, info, mass.total), basis=basis
-        )
+        total, words = _portions(line, "mass")
+        basis = f"{words} as recorded"
+        return MassAssignment(mass_g=total, moles_mmol=_moles(line, info, total), basis=basis)
     volume = _first(line, "volume")
     if volume is not None:
         if info is None:
@@ -132,8 +141,9 @@ def _weigh(
                 f"record the mass, or add '{label}' under [densities] in masstrail.toml",
                 problem_kind="no_density",
             )
-        grams = volume.total * info.density_g_ml
-        basis = f"{_amount_words(volume, bool(line.note))} × {_density_words(info)}"
+        total, words = _portions(line, "volume")
+        grams = total * info.density_g_ml
+        basis = f"{words} × {_density_words(info)}"
         if line.note:
             basis += f"; {line.note}"
         return MassAssignment(mass_g=grams, moles_mmol=_moles(line, info, grams), basis=basis)
