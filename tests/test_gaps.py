@@ -210,7 +210,9 @@ def _gaps(notebook, front: str, body: str = "") -> dict[str, object]:
 
 
 def test_a_product_mass_with_no_weighed_input_is_blocking_and_says_why(notebook):
-    gaps = _gaps(notebook, "product: {name: p, mass: 1.2 g}\nmaterials: [{name: Kestrelite, amount: 5 mL}]")
+    gaps = _gaps(
+        notebook, "product: {name: p, mass: 1.2 g}\nmaterials: [{name: Kestrelite, amount: 5 mL}]"
+    )
     gap = gaps["no_weighed_input"]
     assert gap.severity == "blocking"
     assert "none of the 1 inputs found could be weighed" in gap.message
@@ -231,8 +233,11 @@ def test_an_unread_quantity_is_a_gap_sized_by_its_amount(notebook):
 
 
 def test_a_procedure_written_elsewhere_is_a_major_gap(notebook):
-    gaps = _gaps(notebook, "product: {name: p, mass: 1.0 g}",
-                 "Following general procedure B, ethyl benzoate (3.0 g) was hydrolysed.")
+    gaps = _gaps(
+        notebook,
+        "product: {name: p, mass: 1.0 g}",
+        "Following general procedure B, ethyl benzoate (3.0 g) was hydrolysed.",
+    )
     gap = gaps["procedure_elsewhere"]
     assert gap.item == "general procedure B" and gap.severity == "major"
     assert "not in this entry" in gap.message
@@ -241,13 +246,19 @@ def test_a_procedure_written_elsewhere_is_a_major_gap(notebook):
 def test_a_mass_that_disagrees_with_its_moles_is_named(notebook):
     # benzaldehyde, C7H6O: 20.0 mmol × 106.12 g/mol = 2.12 g (molar mass from IUPAC atomic
     # weights); the text says 1.06 g, half of it: a typo or a misread, which the gap names
-    gaps = _gaps(notebook, "product: {name: p, mass: 1.0 g}",
-                 "Benzaldehyde (1.06 g, 20.0 mmol) was added to ethanol (10 mL).")
+    gaps = _gaps(
+        notebook,
+        "product: {name: p, mass: 1.0 g}",
+        "Benzaldehyde (1.06 g, 20.0 mmol) was added to ethanol (10 mL).",
+    )
     gap = gaps["mass_moles_mismatch"]
     assert "1.06 g and 20.0 mmol disagree" in gap.message and "2.122 g" in gap.message
     assert gap.severity == "major"
-    ok = _gaps(notebook, "product: {name: p, mass: 1.0 g}",
-               "Benzaldehyde (2.12 g, 20.0 mmol) was added to ethanol (10 mL).")
+    ok = _gaps(
+        notebook,
+        "product: {name: p, mass: 1.0 g}",
+        "Benzaldehyde (2.12 g, 20.0 mmol) was added to ethanol (10 mL).",
+    )
     assert "mass_moles_mismatch" not in ok
 
 

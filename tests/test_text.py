@@ -128,6 +128,41 @@ def test_the_product_of_a_sentence_is_its_isolated_mention():
                     "gave the lactone (2.2 g, 76%).")  # fmt: skip
     mentions = [m for m in lines if m.role == "product"]
     assert [(m.stated, m.note, m.stated_yield) for m in mentions] == [
-        ("2.9 g", "crude", None), ("2.2 g", None, 0.76)]
+        ("2.9 g", "crude", None),
+        ("2.2 g", None, 0.76),
+    ]
     assert _product_mention(mentions).stated == "2.2 g"
     assert isinstance(mentions[0], MaterialLine)
+
+
+def _bodies():
+    """Procedure texts to hold the ledger to: the real subset, the examples, the corpus."""
+    from pathlib import Path
+
+    from corpus.score_text import CORPUS, HELD_OUT, load
+
+    here = Path(__file__).parent
+    texts = [p.read_text(encoding="utf-8").split("---", 2)[2]
+             for p in sorted((here / "corpus" / "real" / "entries").glob("*.md"))]  # fmt: skip
+    texts += [p.read_text(encoding="utf-8") for p in sorted((here.parent / "example_entries")
+                                                              .rglob("*.md"))]  # fmt: skip
+    texts += [item.text for path in (CORPUS, HELD_OUT) for item in load(path)]
+    return texts
+
+
+def test_each_quantity_of_the_text_ends_in_exactly_one_place():
+    """Every mass, volume and amount of substance the ledger finds (outside table rows) is
+    one amount of one line (an input, the product, or set aside with its role), or one
+    unread line: none is lost and none is counted twice."""
+    from masstrail_plugins.extract.text import _QUANTITY
+    from masstrail_plugins.prose import sentences
+
+    for body in _bodies():
+        lines = extract(body)
+        ledger = {a.span[0] for m in lines for a in m.amounts
+                  if a.span and a.kind in {"mass", "volume", "amount"}}  # fmt: skip
+        unreadable = [m for m in lines if m.role == "unread" and not m.amounts]
+        starts = [start + m.start() for start, text in sentences(body)
+                  if not text.lstrip().startswith("|") for m in _QUANTITY.finditer(text)]  # fmt: skip
+        assert len(starts) == len(ledger) + len(unreadable), body[:200]
+        assert set(starts) >= ledger, body[:200]

@@ -103,9 +103,17 @@ _AQUEOUS_SOLUTION = re.compile(
 )
 # the ledger's units: mass, volume, amount of substance (as written, longest first)
 _LEDGER_UNITS = "|".join(
-    sorted((re.escape(u) for u, (_, kind) in UNITS.items() if kind in {"mass", "volume", "amount"}),
-           key=len, reverse=True)
-)  # fmt: skip
+    sorted(
+        {
+            re.escape(v)
+            for u, (_, kind) in UNITS.items()
+            if kind in {"mass", "volume", "amount"}
+            for v in (u, u.replace("μ", "µ"))
+        },
+        key=len,
+        reverse=True,
+    )
+)  # fmt: skip (the micro sign U+00B5 is written as often as the Greek mu)
 _QUANTITY = re.compile(
     r"(?<![\w.,/-])(?P<q>(?P<more>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?(?:\d+\s*[×xX*]\s*)?)"
     r"(?P<num>\d+(?:[.,]\d+)?|[.,]\d+)(?P<range>\s*(?:-|–|—|to)\s*\d+(?:[.,]\d+)?)?"
