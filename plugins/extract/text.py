@@ -86,6 +86,7 @@ _GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtr
 # "… and the product was recrystallised": an operation after this belongs to another clause
 _NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
 _DIGIT = re.compile(r"\d")
+_PER = re.compile(r"\s*(?:per|for\s+each)\s", re.I)
 _PERCENT_REMARK = re.compile(r"\d+(?:[.,]\d+)?\s*%\s+\w")  # "(35% calculated from …)"
 # "a SNAP 25 g column", "(330g column)": a prepacked column is sold by its silica's mass
 _COLUMN_AFTER = re.compile(r"\s*(?:[\w-]+\s+){0,2}?(?:column|cartridge)s?\b", re.I)
@@ -220,9 +221,10 @@ def _read_quantity(m: re.Match, offset: int) -> AmountMention | None:
     written = m.group(0).rstrip(".")
     span = (offset + m.start(), offset + m.start() + len(written))
     num = m.group("num")
+    amount = None
     if not (m.group("more") or m.group("range") or "," in num):  # "2.76 g": the fast path
         amount = plain_amount(num, m.group("unit"), m.group("q"), span)
-    else:
+    if amount is None:
         try:
             amount = parse_amount(m.group("q"), span)
         except AmountError:
@@ -432,6 +434,10 @@ class _Reading:
                     done = pos
                 continue  # left for the end: unread, unless a bracket claims it
             end = self._joined(pos + k, amounts) if name else pos + k
+            if _PER.match(self.head, end):  # "8 µL of water per mg of substrate": a ratio
+                self._add(name or what, amounts, "condition", q.start)
+                done = end
+                continue
             taken = _TAKEN_OUT.match(self.head, end)
             role = "intermediate" if taken else self._role(q.start, what, end)
             self._add(name or what, amounts, role, q.start, note=_crude(role, name))
