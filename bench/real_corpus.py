@@ -45,13 +45,26 @@ def run(corpus: Path, names: bool) -> None:
         out = subprocess.run(score, capture_output=True, text=True, check=True).stdout
         print(out.rstrip())
         roles: collections.Counter[str] = collections.Counter()
+        cover: collections.Counter[str] = collections.Counter()
         for side in entries.glob("*.waste.json"):
             result = json.loads(side.read_text(encoding="utf-8"))
+            for m in result["materials"]:
+                cover["materials"] += 1
+                cover["with a formula"] += bool(m["formula"])
+                if any(a["kind"] == "volume" for a in m["amounts"]):
+                    cover["volumes"] += 1
+                    cover["volumes weighed"] += m["mass_g"] is not None
             roles["input"] += sum(len(m["amounts"]) for m in result["materials"]
                                   if m["origin"] == "text")  # fmt: skip
             for m in result.get("set_aside", []):
                 roles[m["role"]] += max(1, len(m["amounts"]))
         print("quantities of the text: " + ", ".join(f"{k} {v}" for k, v in roles.most_common()))
+        print(
+            f"coverage: volumes weighed {cover['volumes weighed']}/{cover['volumes']} "
+            f"({cover['volumes weighed'] / cover['volumes']:.1%}); materials with a formula "
+            f"{cover['with a formula']}/{cover['materials']} "
+            f"({cover['with a formula'] / cover['materials']:.1%})"
+        )
 
 
 def main() -> None:

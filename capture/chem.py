@@ -10,7 +10,9 @@ import unicodedata
 # words that describe the state of a material, not which material it is
 _DROP_PREFIXES = ("anhydrous ", "dry ", "freshly distilled ", "degassed ", "distilled ",
                   "ice-cold ", "ice cold ", "cold ", "hot ", "warm ", "boiling ", "chilled ",
-                  "fresh ", "cooled ", "pre-cooled ", "wet ")  # fmt: skip
+                  "fresh ", "cooled ", "pre-cooled ", "wet ", "absolute ", "abs. ", "deionized ",
+                  "deionised ", "demineralized ", "demineralised ", "de-ionized ")  # fmt: skip
+_OXIDATION_STATE = re.compile(r"(?<=[a-z]) \((0|i{1,3}|iv|vi{0,3})\)")
 _TOKEN_MAP = {
     "sat.": "saturated",
     "sat": "saturated",
@@ -26,6 +28,7 @@ def material_key(name: str) -> str:
     """The form in which names are compared: case, spacing, dashes and 'sat. aq.' folded."""
     s = unicodedata.normalize("NFKC", name).replace("\u2212", "-").replace("–", "-")
     s = re.sub(r"\s+", " ", s.replace("·", ".")).strip().strip(".,;:").casefold()
+    s = _OXIDATION_STATE.sub(r"(\1)", s)  # "palladium (II) acetate" = "palladium(II) acetate"
     changed = True
     while changed:
         changed = False
@@ -54,13 +57,151 @@ def molar_mass(formula: str) -> float:
         raise ValueError(f"cannot read the formula {formula!r}: {exc}") from exc
 
 
-def formula_from_smiles(smiles: str) -> str | None:
-    """The molecular formula of a SMILES string, through RDKit when it is installed."""
+_FORMULA_NAME = re.compile(r"^(?:[A-Z][a-z]?\d*|\((?:[A-Z][a-z]?\d*)+\)\d*)+$")
+
+
+def hill_formula(formula: str) -> str | None:
+    """The Hill form of a formula (carbon, hydrogen, then the rest alphabetically; without
+    carbon all alphabetically), e.g. 'NaHCO3' → 'CHNaO3', or None if it cannot be read."""
+    import molmass
+
     try:
-        from rdkit import Chem, RDLogger
-        from rdkit.Chem.rdMolDescriptors import CalcMolFormula
-    except ImportError:
+        counts = {el: item.count for el, item in molmass.Formula(formula).composition().items()}
+    except Exception:
         return None
-    RDLogger.DisableLog("rdApp.*")
-    mol = Chem.MolFromSmiles(smiles)
-    return CalcMolFormula(mol) if mol is not None else None
+    first = [el for el in ("C", "H") if el in counts] if "C" in counts else []
+    order = first + sorted(el for el in counts if el not in first)
+    return "".join(el + (str(counts[el]) if counts[el] != 1 else "") for el in order)
+
+
+def looks_like_formula(name: str) -> bool:
+    """True for a name written as an inorganic-style formula ('NaNO2', 'HCl', 'AlCl3'): element
+    symbols with counts, at least two elements, and a digit or a two-letter symbol, so that
+    capitals-only abbreviations ('NBS', 'NIS') are not read as formulas."""
+    symbols = re.findall(r"[A-Z][a-z]?", name)
+    return (
+        bool(_FORMULA_NAME.match(name))
+        and len(symbols) >= 2
+        and bool(re.search(r"\d|[a-z]", name))
+        and all(s in _element_symbols() for s in symbols)  # 'Et3N', 'MeOH' are not formulas
+    )
+
+
+@functools.lru_cache(maxsize=1)
+def _element_symbols() -> frozenset[str]:
+    import molmass
+
+    return frozenset(e.symbol for e in molmass.ELEMENTS)
+
+
+# ---------------------------------------------------------------------- SMILES
+# A SMILES string is read for its molecular formula only (OpenSMILES: atoms, bonds, branches,
+# rings, bracket atoms, aromatic atoms). RDKit would do it, at 160 MB installed; the tests
+# hold this reader to RDKit's formulas.
+_ORGANIC = {"B": (3,), "C": (4,), "N": (3, 5), "O": (2,), "P": (3, 5), "S": (2, 4, 6),
+            "F": (1,), "Cl": (1,), "Br": (1,), "I": (1,)}  # fmt: skip
+_AROMATIC = {"b": "B", "c": "C", "n": "N", "o": "O", "p": "P", "s": "S"}
+_SMILES_TOKEN = re.compile(
+    r"(?P<bracket>\[[^\]]+\])|(?P<atom>Cl|Br|[BCNOPSFI]|[bcnops])|(?P<bond>[-=#$:/\\])|"
+    r"(?P<ring>%\d\d|\d)|(?P<open>\()|(?P<close>\))|(?P<dot>\.)"
+)
+_BRACKET = re.compile(
+    r"^\[(?:\d+)?(?P<el>[A-Z][a-z]?|[bcnops]|se|as)(?:@+)?(?:TH\d|AL\d|SP\d|TB\d+|OH\d+)?"
+    r"(?:H(?P<h>\d*))?(?P<charge>[+-]+\d*)?(?::\d+)?\]$"
+)
+_ORDER = {"-": 1, "=": 2, "#": 3, "$": 4, ":": 1, "/": 1, "\\": 1}
+
+
+@functools.lru_cache(maxsize=1024)
+def formula_from_smiles(smiles: str) -> str | None:
+    """The molecular formula (Hill order, no charge) of a SMILES string, or None when it is
+    not one this reader can read."""
+    atoms: list[list] = []  # [element, aromatic, explicit H or None, bond order sum]
+    counts: dict[str, int] = {}
+    prev: int | None = None
+    stack: list[int | None] = []
+    rings: dict[str, tuple[int, str | None]] = {}
+    bond: str | None = None
+    pos = 0
+    while pos < len(smiles):
+        m = _SMILES_TOKEN.match(smiles, pos)
+        if m is None:
+            return None
+        pos = m.end()
+        kind, text = m.lastgroup, m.group(0)
+        if kind in {"atom", "bracket"}:
+            atom = _smiles_atom(text, kind)
+            if atom is None:
+                return None
+            atoms.append(atom)
+            here = len(atoms) - 1
+            if prev is not None:
+                _bond(atoms, prev, here, bond)
+            prev, bond = here, None
+        elif kind == "bond":
+            bond = text
+        elif kind == "ring":
+            if prev is None:
+                return None
+            if text in rings:
+                other, first_bond = rings.pop(text)
+                _bond(atoms, other, prev, bond or first_bond)
+            else:
+                rings[text] = (prev, bond)
+            bond = None
+        elif kind == "open":
+            stack.append(prev)
+        elif kind == "close":
+            if not stack:
+                return None
+            prev = stack.pop()
+        else:  # "." another component
+            prev = None
+    if rings or stack or not atoms:
+        return None
+    for element, aromatic, hydrogens, bonds in atoms:
+        counts[element] = counts.get(element, 0) + 1
+        if hydrogens is None:  # an organic-subset atom: its implicit hydrogens
+            used = bonds + (1 if aromatic else 0)
+            valence = next((v for v in _ORGANIC[element] if v >= used), used)
+            hydrogens = valence - used
+        if hydrogens:
+            counts["H"] = counts.get("H", 0) + hydrogens
+    return _hill(counts)
+
+
+def _smiles_atom(text: str, kind: str) -> list | None:
+    if kind == "atom":
+        element = _AROMATIC.get(text, text)
+        return [element, text in _AROMATIC, None, 0]
+    m = _BRACKET.match(text)
+    if m is None:
+        return None
+    el = m.group("el")
+    aromatic = el in _AROMATIC or el in {"se", "as"}
+    element = {"se": "Se", "as": "As"}.get(el, _AROMATIC.get(el, el))
+    h = m.group("h")
+    return [element, aromatic, 0 if h is None else int(h or 1), 0]
+
+
+def _bond(atoms: list[list], a: int, b: int, bond: str | None) -> None:
+    order = _ORDER.get(bond or "-", 1)
+    atoms[a][3] += order
+    atoms[b][3] += order
+
+
+def _hill(counts: dict[str, int]) -> str:
+    """A formula in Hill order: C, then H, then the rest alphabetically (no C: alphabetical)."""
+    order = ["C", "H", *sorted(k for k in counts if k not in {"C", "H"})] if "C" in counts \
+        else sorted(counts)  # fmt: skip
+    return "".join(f"{el}{counts[el] if counts[el] > 1 else ''}" for el in order if el in counts)
+
+
+_SMILES_LIKE = re.compile(r"^[A-Za-z0-9@+\-\[\]\(\)=#$:/\\%.*]+$")
+
+
+def looks_like_smiles(text: str) -> bool:
+    """True for a string that could be SMILES (no spaces, SMILES characters, a bond, a ring,
+    a branch or a bracket atom): "CC(=O)O", "c1ccccc1"; "EtOAc" and "NaCl" are not."""
+    return (bool(_SMILES_LIKE.match(text)) and any(ch in text for ch in "=#()[]1234567890")
+            and formula_from_smiles(text) is not None)  # fmt: skip

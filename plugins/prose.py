@@ -131,8 +131,9 @@ def sentences(body: str) -> tuple[tuple[int, str], ...]:
         if "\n\n" not in m.group(0):
             words = body[max(start, end - 16) : end].split()
             last_word = words[-1].casefold().lstrip("([") if words else ""
-            if last_word in _ABBREVIATIONS or _NUMBERED.fullmatch(last_word):
-                continue
+            celsius = last_word == "c." and "°" in body[max(start, end - 4) : end]
+            if (last_word in _ABBREVIATIONS and not celsius) or _NUMBERED.fullmatch(last_word):
+                continue  # "sat. aq.", "ca. 5 g"; but "at 0° C. The …" ends a sentence
             if body.count("(", start, end) > body.count(")", start, end) and end - start < 600:
                 continue  # inside a bracket: "(228 mg. 2.3 mmol)"
         out.append((start, body[start:end]))
@@ -167,7 +168,8 @@ EQUIPMENT_WORDS = {"vial", "vials", "flask", "flasks", "tube", "tubes", "schlenk
                    "beakers", "funnel", "funnels", "syringe", "syringes", "cylinder", "cylinders",
                    "vessel", "vessels", "reactor", "reactors", "bottle", "bottles", "ampoule",
                    "ampoules", "jar", "jars", "cartridge", "cartridges", "bath", "condenser",
-                   "autoclave", "bomb", "pot", "kettle", "container", "sealed"}  # fmt: skip
+                   "autoclave", "bomb", "pot", "kettle", "container", "sealed", "bottom",
+                   "bottomed"}  # fmt: skip
 INTERMEDIATE_WORDS = {"residue", "filtrate", "filtrates", "layer", "layers", "phase",
                       "phases", "extract", "extracts", "combined", "concentrate", "eluate",
                       "fraction", "fractions", "liquor", "liquors", "supernatant", "washing",

@@ -56,7 +56,7 @@ def test_the_wheel_holds_every_module_and_data_file(wheel):
     expected = {p.relative_to(ROOT).as_posix() for p in (ROOT / "capture").rglob("*.py")}
     expected |= {"masstrail_plugins/" + p.relative_to(ROOT / "plugins").as_posix()
                  for p in (ROOT / "plugins").rglob("*") if p.is_file() and p.suffix in
-                 {".py", ".toml"}}  # fmt: skip
+                 {".py", ".toml", ".sqlite"}}  # fmt: skip
     expected |= {"capture/result.schema.json"}
     expected |= {f"capture/templates/{p.name}" for p in (ROOT / "capture/templates").glob("*.j2")}
     assert not expected - names, sorted(expected - names)

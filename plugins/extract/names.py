@@ -36,7 +36,8 @@ BOUNDARY_WORDS = {"with", "in", "over", "of", "and", "to", "from", "using", "by"
                   "each", "give", "gives", "giving", "afford", "affords", "affording", "yield",
                   "yields", "yielding", "obtain", "obtained", "provide", "provided", "so",
                   "together", "here", "there", "this", "these", "those", "it", "its", "all",
-                  "both", "about", "approximately", "ca.", "ca", "total", "but"}  # fmt: skip
+                  "both", "about", "approximately", "ca.", "ca", "total", "but", "add",
+                  "adding"}  # fmt: skip
 
 MAX_WORDS = 6
 # "obtained in Example (22c)", "described in Preparation Example 72", "prepared as in step 2"

@@ -100,7 +100,8 @@ _OUT_WORDS = re.compile(r"remain|left|collect|distil|evaporat|remov|recover", re
 _GLASSWARE_DRIED = re.compile(r"\b(?:oven|flame|heat)[- ]$", re.I)
 _AQUEOUS_SOLUTION = re.compile(
     r"^(?:\d+(?:\.\d+)?\s*(?:M|N)\s+\S|\d+(?:\.\d+)?\s*%\s*(?:aq\.?|aqueous)\s+\S|"
-    r"(?:sat\.?|saturated)\s+(?:aq\.?|aqueous)\s+\S|(?:aq\.?|aqueous)\s+\S)"
+    r"(?:sat\.?|saturated)\s+(?:aq\.?|aqueous)\s+\S|(?:aq\.?|aqueous)\s+\S|"
+    r"(?:sat\.?|saturated|dilute|dil\.)\s+\S.*|\S.*\s+(?:aqueous|aq\.?)(?:\s+solution)?$)"
 )
 # the ledger's units: mass, volume, amount of substance (as written, longest first)
 _LEDGER_UNITS = "|".join(

@@ -5,7 +5,10 @@ Three resolvers answer ``masstrail_resolve_material``, first answer wins:
 1. ``lab`` (tryfirst): the lab's own ``[[materials]]`` and ``[densities]`` in
    ``masstrail.toml``;
 2. ``builtin``: the data file ``data/materials.toml`` (over 100 common lab
-   materials, every number with its source; see :mod:`masstrail_plugins.resolve.knowledge`);
+   materials, hand-checked, every number with its source; see
+   :mod:`masstrail_plugins.resolve.knowledge`), then the generated compound table
+   ``data/compounds.sqlite`` (about 13,000 substances and the lab abbreviations; see
+   :mod:`masstrail_plugins.resolve.compounds`), then a name written as SMILES;
 3. ``chemicals`` (trylast, plugin ``names``): the offline name database of the ``chemicals``
    library, when it is installed (formula and molar mass only, no density).
 
@@ -14,11 +17,12 @@ A name none of them knows resolves to nothing, and the gap rules say so.
 
 from __future__ import annotations
 
-from capture.chem import material_key, molar_mass
+from capture.chem import formula_from_smiles, looks_like_smiles, material_key, molar_mass
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import MaterialInfo
-from masstrail_plugins.resolve.knowledge import apply_lab_density, builtin_data
+from masstrail_plugins.resolve.compounds import look_up
+from masstrail_plugins.resolve.knowledge import GENERIC_CLASS_NAMES, apply_lab_density, builtin_data
 
 
 @hookimpl(tryfirst=True, specname="masstrail_resolve_material")
@@ -45,9 +49,22 @@ def resolve_from_lab(name: str, config: LabConfig) -> MaterialInfo | None:
 
 @hookimpl(specname="masstrail_resolve_material")
 def resolve_builtin(name: str, config: LabConfig) -> MaterialInfo | None:
-    """The built-in material table."""
+    """masstrail's curated material data, then its generated compound table, then a name
+    written as SMILES (its formula)."""
     data = builtin_data()
     rec = data.index.get(material_key(name))
-    if rec is None:
+    if rec is not None:
+        return apply_lab_density(data.info(rec), name, config)
+    if material_key(name) in GENERIC_CLASS_NAMES:
+        return None  # "the acid" is a class, not one compound
+    info = look_up(name) or _from_smiles(name)
+    return None if info is None else apply_lab_density(info, name, config)
+
+
+def _from_smiles(name: str) -> MaterialInfo | None:
+    """A material named by its SMILES, as notebook records do: its formula and molar mass."""
+    if not looks_like_smiles(name):
         return None
-    return apply_lab_density(data.info(rec), name, config)
+    formula = formula_from_smiles(name)
+    return MaterialInfo(name=name, formula=formula, molar_mass=round(molar_mass(formula), 4),
+                        source="the formula of its SMILES (masstrail's SMILES reader)")  # fmt: skip

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-from capture.chem import formula_from_smiles
+from capture.chem import formula_from_smiles, looks_like_smiles
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import (
@@ -67,7 +67,8 @@ def product_of_entry(
 ) -> ProductFinding:
     """The balance's reading, else the front matter's mass, else the text's."""
     p = entry.product
-    formula = p.formula or (formula_from_smiles(p.smiles) if p.smiles else None)
+    formula = p.formula or (formula_from_smiles(p.smiles) if p.smiles else None) or (
+        formula_from_smiles(p.name) if p.name and looks_like_smiles(p.name) else None)  # fmt: skip
     said = mention.amounts[0] if mention is not None and mention.amounts else None
     gaps: list[Gap] = []
     if not p.mass:
