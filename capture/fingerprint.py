@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import functools
 import hashlib
+import json
 import os
 import time
 from pathlib import Path
@@ -21,13 +22,16 @@ import pluggy
 
 from capture import __version__
 from capture.config import LabConfig
-from capture.paths import sidecar_name
-from capture.safeio import InputError, read_bounded, safe_log_path
+from capture.paths import STATE_DIR, sidecar_name
+from capture.safeio import InputError, atomic_write, read_bounded, safe_log_path
 
 if TYPE_CHECKING:
     from capture.models import EntrySummary
 
 GENERATOR = f"masstrail {__version__}"
+CONFIG_PART = "the lab configuration (masstrail.toml)"
+PLUGINS_PART = "the plugins"
+BASIS_FILE = "basis.json"  # in the notebook's STATE_DIR: the parts of the last scan's results
 RACY_NS = 2_000_000_000  # coarser than any file system's time stamps (FAT's are 2 s)
 
 
@@ -64,21 +68,28 @@ class Fingerprints:
         self._log_shas: dict[Path, tuple[tuple[int, int], str]] = {}
 
     @functools.cached_property
-    def base(self) -> str:
-        """What every result of this notebook depends on besides its entry and logs."""
+    def parts(self) -> dict[str, str]:
+        """What every result of this notebook depends on besides its entry and logs, by name:
+        masstrail's version, the lab configuration, the plugins, the libraries that weigh, and
+        the data the plugins answer from (``masstrail_knowledge_versions``)."""
         from importlib import metadata
 
-        h = hashlib.sha256(f"{GENERATOR}\n".encode())
-        h.update(self.config.model_dump_json().encode())
-        for name, _plugin in sorted(self.pm.list_name_plugin(), key=lambda kv: str(kv[0])):
-            h.update(f"\nplugin {name}".encode())
-        for dist in ("chemicals", "rdkit", "molmass", "pint", "pydantic"):
+        config = hashlib.sha256(self.config.model_dump_json().encode()).hexdigest()[:12]
+        names = sorted(str(n) for n, plugin in self.pm.list_name_plugin() if plugin is not None)
+        parts = {"masstrail": __version__, CONFIG_PART: config, PLUGINS_PART: ", ".join(names)}
+        for dist in ("molmass", "pint", "pydantic"):
             try:
-                version = metadata.version(dist)
+                parts[f"the {dist} library"] = metadata.version(dist)
             except metadata.PackageNotFoundError:
-                version = "-"
-            h.update(f"\n{dist} {version}".encode())
-        return h.hexdigest()
+                parts[f"the {dist} library"] = "not installed"
+        for answer in self.pm.hook.masstrail_knowledge_versions(config=self.config):
+            parts.update(answer)
+        return parts
+
+    @functools.cached_property
+    def base(self) -> str:
+        """The hash of :attr:`parts`, part of every result's fingerprint."""
+        return hashlib.sha256(json.dumps(self.parts, sort_keys=True).encode()).hexdigest()
 
     def log_sha(self, path: Path) -> str:
         """sha256 of a balance log, cached while its size and modification time stay."""
@@ -139,3 +150,60 @@ class Fingerprints:
             else:
                 digests = logs_seen[key]
         return before.inputs_sha256 == self.of(sha, digests)
+
+
+def read_basis(root: Path) -> dict[str, str] | None:
+    """The :attr:`Fingerprints.parts` the last writing scan recorded, or None (none yet, or a
+    damaged file: then the scan cannot name what changed, and says nothing of it)."""
+    try:
+        data = json.loads((root / STATE_DIR / BASIS_FILE).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    parts = data.get("parts") if isinstance(data, dict) else None
+    if not isinstance(parts, dict) or not all(isinstance(v, str) for v in parts.values()):
+        return None
+    return parts
+
+
+def write_basis(root: Path, parts: dict[str, str]) -> None:
+    """Record ``parts`` as the basis of the notebook's results (a cache of what was used: a
+    file that cannot be written only loses the naming of the next change)."""
+    path = root / STATE_DIR / BASIS_FILE
+    text = json.dumps({"parts": parts}, indent=1, sort_keys=True) + "\n"
+    try:
+        path.parent.mkdir(exist_ok=True)
+        atomic_write(path, text, sync_dir=False)
+    except OSError:
+        pass
+
+
+def basis_changes(before: dict[str, str], now: dict[str, str]) -> list[str]:
+    """What changed between two :attr:`Fingerprints.parts`, in words: 'the compound table
+    changed', 'the chemicals name database (the names extra) 1.5.2 is now used', 'plugins
+    added: names'."""
+    out = []
+    for key in [*now, *(k for k in before if k not in now)]:
+        old, new = before.get(key), now.get(key)
+        if old == new:
+            continue
+        if key == PLUGINS_PART:
+            a, b = (
+                set(filter(None, (old or "").split(", "))),
+                set(filter(None, (new or "").split(", "))),
+            )
+            for how, names in (("added", b - a), ("removed or blocked", a - b)):
+                if names:
+                    out.append(f"plugins {how}: {', '.join(sorted(names))}")
+        elif old is None:
+            out.append(f"{key} {new} is now used")
+        elif new is None:
+            out.append(f"{key} is no longer used")
+        elif _digest(old) and _digest(new):
+            out.append(f"{key} changed")
+        else:
+            out.append(f"{key}: {old} → {new}")
+    return out
+
+
+def _digest(value: str) -> bool:
+    return len(value) == 12 and all(c in "0123456789abcdef" for c in value)

@@ -67,6 +67,20 @@ def masstrail_entry_suffixes(config: LabConfig) -> list[str]:
     """
 
 
+@hookspec
+def masstrail_knowledge_versions(config: LabConfig) -> list[tuple[str, str]]:
+    """Name the data a plugin's answers come from, with its version.
+
+    Called once per notebook opened (scan, watcher), for the fingerprint that every
+    result records: a new version makes every result be computed again, and the scan
+    names the change ("the compound table: 1d2ca750 → 9b0e41c2").
+
+    :param config: the lab configuration.
+    :returns: ``[(what, version)]``, e.g. ``[("the compound table", "1d2ca750")]``;
+        all answers are combined.
+    """
+
+
 @hookspec(firstresult=True)
 def masstrail_read_entry(path: Path, data: bytes, relpath: str, config: LabConfig) -> Entry | None:
     """Turn the bytes of one file into an :class:`~capture.models.Entry`.

@@ -17,6 +17,7 @@ from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from capture.fingerprint import basis_changes, read_basis, write_basis
 from capture.models import SEVERITIES, EntrySummary, Result
 from capture.notebook import Notebook
 from capture.paths import sidecar_name, sidecar_path
@@ -42,6 +43,8 @@ class ScanReport:
     results: list[Result]
     written: list[str]  # the files written, as strings (a scan of 100,000 writes 200,000)
     summaries: list[EntrySummary] = field(default_factory=list)
+    basis_changes: list[str] = field(default_factory=list)  # what changed since the last scan
+    changed: list[str] = field(default_factory=list)  # entries whose figures changed with it
 
     def count(self, severity: str) -> int:
         """How many gaps of ``severity`` the scan found."""
@@ -55,6 +58,20 @@ class ScanReport:
     @property
     def recomputed(self) -> int:
         return sum(s.recomputed for s in self.summaries)
+
+    def basis_note(self, shown: int = 10) -> str | None:
+        """What changed in the basis of the figures since the last scan, and which entries'
+        figures changed with it, in words; None when nothing did."""
+        if not self.basis_changes:
+            return None
+        n, k = self.recomputed, len(self.changed)
+        note = (f"Since the last scan, {'; '.join(self.basis_changes)}. "
+                f"{n} entr{'y was' if n == 1 else 'ies were'} computed again; ")  # fmt: skip
+        if not k:
+            return note + "no entry's figures changed."
+        listed = ", ".join(self.changed[:shown]) + (f" and {k - shown} more" if k > shown else "")
+        return note + (f"{k} ha{'s' if k == 1 else 've'} different figures (product, E-factor, "
+                       f"PMI or gaps): {listed}.")  # fmt: skip
 
 
 def scan(
@@ -81,13 +98,16 @@ def scan(
     files = notebook.entry_files() if files is None else files
     sides = [sidecar_name(os.fspath(f)) for f in files]
     clashes = _sidecar_clashes(files, sides)
-    if reuse and write and previous is None:
+    basis = notebook.fingerprints.parts if write else None
+    last_basis = read_basis(notebook.root) if write else None
+    changes = basis_changes(last_basis, basis) if last_basis is not None and basis else []
+    if write and (reuse or changes) and previous is None:
         hook = notebook.pm.hook.masstrail_previous_results
         previous = hook(root=notebook.root, config=notebook.config) or {}
     plan = _plan(notebook, files, sides, clashes, previous if reuse and write else None)
     todo = [f for f, p in zip(files, plan, strict=True) if p is None]
     work = iter(_computed(notebook, todo, jobs, write, keep))
-    results, written, summaries = [], [], []
+    results, written, summaries, changed = [], [], [], []
     for i, (f, side, planned) in enumerate(zip(files, sides, plan, strict=True)):
         if isinstance(planned, EntrySummary):
             summary = planned
@@ -102,6 +122,8 @@ def scan(
             written += files_written
             if keep:
                 results.append(result)
+            if changes and previous and _figures_differ(previous.get(summary.path), summary):
+                changed.append(summary.path)
         plan[i] = sides[i] = None  # done with: keep only the summary
         summaries.append(summary)
         if progress:
@@ -111,7 +133,22 @@ def scan(
         notebook.pm.hook.masstrail_scan_done(root=notebook.root, config=notebook.config,
                                              present=[s.path for s in summaries],
                                              written=written)  # fmt: skip
-    return ScanReport(notebook.root, results, written, summaries)
+        if basis != last_basis:
+            write_basis(notebook.root, basis)
+    return ScanReport(notebook.root, results, written, summaries, changes, changed)
+
+
+def _figures_differ(before: EntrySummary | None, now: EntrySummary) -> bool:
+    """Whether a recomputed entry's figures (status, product, E-factor, PMI, gap counts) are
+    not those of its last result."""
+    if before is None:
+        return False
+
+    def figures(s: EntrySummary) -> tuple:
+        return (s.status, *(None if x is None else round(x, 6) for x in (s.product_g, s.e_factor,
+                s.pmi)), s.blocking, s.major, s.minor)  # fmt: skip
+
+    return figures(before) != figures(now)
 
 
 def _sidecar_clashes(files: list[Path], sides: list[str]) -> dict[str, list[Path]]:

@@ -236,6 +236,8 @@ class Watcher:
                 self._note_logs(self.root / s.path, s.logs)
         for rel in set(known) - set(self.summaries):
             self._removed(self.root / rel)
+        if report.basis_note():
+            self.echo(f"{time.strftime('%H:%M:%S')} {report.basis_note()}")
         return report.recomputed
 
     def _say(self, rel: str, s: EntrySummary, why: str) -> None:

@@ -66,6 +66,8 @@ def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: 
             bar.stop()
     if as_json:
         _print_json(nb, report)
+        if report.basis_note():
+            click.echo(report.basis_note(), err=True)
     else:
         _print_table(path, report)
     if fail_on:
@@ -137,4 +139,6 @@ def _print_table(path: Path, report) -> None:
     for s in report.errors[:TABLE_ROWS]:
         where = f" ({s.location})" if s.location else ""
         out.print(f"[red]{esc(s.path + where)}:[/red] {esc(s.error or '')}")
+    if report.basis_note():
+        out.print(f"[yellow]{esc(report.basis_note())}[/yellow]")
     out.print(f"[dim]{esc(CAUTION)}[/dim]")

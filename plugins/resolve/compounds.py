@@ -36,6 +36,17 @@ def _connection() -> sqlite3.Connection:
 
 
 @functools.lru_cache(maxsize=1)
+def table_version() -> str:
+    """The first 12 hex digits of the sha256 of the table and of ``curation.toml`` (whose
+    abbreviations are read at run time): their version, for results' fingerprints."""
+    import hashlib
+
+    h = hashlib.sha256(TABLE.read_bytes())
+    h.update(CURATION.read_bytes())
+    return h.hexdigest()[:12]
+
+
+@functools.lru_cache(maxsize=1)
 def abbreviations() -> dict[str, str]:
     """{key of an abbreviation: the full name it stands for} (curation.toml)."""
     raw = tomllib.loads(CURATION.read_text(encoding="utf-8"))["abbreviations"]

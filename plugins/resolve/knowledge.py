@@ -61,6 +61,15 @@ class MaterialData:
 
 
 @functools.lru_cache(maxsize=1)
+def data_version() -> str:
+    """The first 12 hex digits of the sha256 of ``materials.toml``: its version, for results'
+    fingerprints."""
+    import hashlib
+
+    return hashlib.sha256(DATA_FILE.read_bytes()).hexdigest()[:12]
+
+
+@functools.lru_cache(maxsize=1)
 def builtin_data() -> MaterialData:
     """The built-in material table, loaded once per process."""
     return MaterialData(tomllib.loads(DATA_FILE.read_text(encoding="utf-8")))

@@ -21,8 +21,20 @@ from capture.chem import formula_from_smiles, looks_like_smiles, material_key, m
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import MaterialInfo
-from masstrail_plugins.resolve.compounds import look_up
-from masstrail_plugins.resolve.knowledge import GENERIC_CLASS_NAMES, apply_lab_density, builtin_data
+from masstrail_plugins.resolve.compounds import look_up, table_version
+from masstrail_plugins.resolve.knowledge import (
+    GENERIC_CLASS_NAMES,
+    apply_lab_density,
+    builtin_data,
+    data_version,
+)
+
+
+@hookimpl(specname="masstrail_knowledge_versions")
+def knowledge_versions(config: LabConfig) -> list[tuple[str, str]]:
+    """The versions of the curated materials data and of the compound table."""
+    return [("masstrail's curated materials (materials.toml)", data_version()),
+            ("the compound table (compounds.sqlite, curation.toml)", table_version())]  # fmt: skip
 
 
 @hookimpl(tryfirst=True, specname="masstrail_resolve_material")

@@ -101,6 +101,13 @@ def _ask_chemicals(name: str) -> list | None:
     return [found.common_name or name, found.formula, float(found.MW)]
 
 
+@hookimpl(specname="masstrail_knowledge_versions")
+def chemicals_version(config: LabConfig) -> list[tuple[str, str]]:
+    """The version of the ``chemicals`` library, whose name database this plugin asks."""
+    return [("the chemicals name database (the names extra)",
+             _chemicals_version() or "not installed")]  # fmt: skip
+
+
 @hookimpl(trylast=True, specname="masstrail_resolve_material")
 def resolve_with_chemicals(name: str, config: LabConfig) -> MaterialInfo | None:
     """The `chemicals` library's offline name database, if installed."""
