@@ -127,3 +127,41 @@ def test_no_e_factor_when_the_product_outweighs_the_recorded_inputs(notebook):
     (r,) = notebook.scan().results
     assert r.metrics.e_factor is None and r.metrics.pmi is None and r.totals.waste_g is None
     assert "outweighs the recorded inputs (0 g" in r.context["mass_balance"]
+
+
+def test_solvent_waste_by_chem21_rank_names_the_unranked_share(notebook):
+    """Every solvent's waste is in one rank: toluene 'problematic' and 1,2-dichloroethane
+    'highly hazardous' (CHEM21 guide, Prat et al., Green Chem. 2016, 18, 288, as recalled);
+    a solvent the guide does not rank (here the lab's own) is 'not ranked in the guide', never
+    left out of the summary."""
+    notebook.write(
+        "masstrail.toml",
+        """
+        [[materials]]
+        name = "house blend"
+        density_g_ml = 0.80
+        category = "solvent"
+        source = "the lab's own mixture"
+        """,
+    )
+    notebook.write(
+        "e.md",
+        """
+        ---
+        title: ranks
+        product: {name: the ester, mass: 1.00 g}
+        materials:
+          - {name: A, amount: 2.00 g, role: reactant}
+          - {name: toluene, amount: 10 mL, role: solvent}
+          - {name: DCE, amount: 5 mL, role: solvent}
+          - {name: house blend, amount: 10 mL, role: solvent}
+        ---
+        """,
+    )
+    notebook.scan()
+    waste = notebook.sidecar("e.md")["waste"]
+    ranks = waste["solvent_ranks"]
+    assert set(ranks) == {"problematic", "highly hazardous", "not ranked in the guide"}
+    assert ranks["not ranked in the guide"] == pytest.approx(8.0)  # 10 mL × 0.80 g/mL
+    share = round(100 * 8.0 / sum(waste["streams"].values()))
+    assert f"{share}% of the waste is solvent not ranked in the guide" in waste["summary"]

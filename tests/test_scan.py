@@ -112,7 +112,7 @@ def test_the_scan_command_prints_the_change_and_a_damaged_basis_file_is_not_an_e
     cmd = [sys.executable, "-c", "from capture.cli import main; main()", "scan", str(notebook.root)]
     subprocess.run(cmd, env=env, check=True, capture_output=True)
     env["MASSTRAIL_BLOCK"] = ""
-    done = subprocess.run(cmd + ["--json"], env=env, check=True, capture_output=True, text=True)
+    done = subprocess.run([*cmd, "--json"], env=env, check=True, capture_output=True, text=True)
     assert json.loads(done.stdout)["entry"] == "moles.md"
     assert "plugins added: names" in done.stderr and "1 has different figures" in done.stderr
     (notebook.root / ".masstrail" / "basis.json").write_text("{not json", encoding="utf-8")

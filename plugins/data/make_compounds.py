@@ -79,12 +79,14 @@ def curated(curation: dict) -> dict[str, dict]:
     from chemicals.identifiers import search_chemical
 
     out: dict[str, dict] = {}
-    for name in sorted(set(curation["abbreviations"].values())):
+    for name in sorted({*curation["abbreviations"].values(), *curation["solvents"]}):
         try:
             found = search_chemical(name)
         except Exception:
             print(f"curation.toml: {name!r} is not in the chemicals library", file=sys.stderr)
             continue
+        if _CAS.match(name):  # a curated solvent, by CAS number
+            name = found.common_name or found.iupac_name
         out[found.CASs] = {"name": name, "Tm": None, "Tb": None, "rho": None, "table": "pubchem",
                            "formula": found.formula, "smiles": found.smiles}  # fmt: skip
     return out
@@ -143,6 +145,38 @@ def identifiers(lib: Path, wanted: set[str]) -> dict[str, dict]:
     return out
 
 
+# a word of the handbook's name → an element the formula must have ('quinine hydrochloride'
+# must hold Cl): PubChem's row for a salt, hydrate or metal alkoxide is often its parent's
+_NAME_ELEMENTS = {
+    "hydrochloride": "Cl", "dihydrochloride": "Cl", "hydrobromide": "Br", "hydroiodide": "I",
+    "sodium": "Na", "disodium": "Na", "potassium": "K", "lithium": "Li", "calcium": "Ca",
+    "magnesium": "Mg", "chloride": "Cl", "dichloride": "Cl", "bromide": "Br", "iodide": "I",
+    "fluoride": "F", "sulfate": "S", "nitrate": "N", "phosphate": "P", "titanate": "Ti",
+    "platinum": "Pt", "palladium": "Pd", "zinc": "Zn", "copper": "Cu", "iron": "Fe",
+    "borate": "B", "silver": "Ag", "tribromide": "Br",
+}  # fmt: skip
+_HYDRATE = re.compile(r"\b(?:mono|di|tri|tetra|penta|hexa|hepta|octa|nona|deca)?hydrate\b")
+
+
+def consistent(cas: str, name: str, formula: str | None, ids: dict, handbook_names: dict) -> bool:
+    """Whether PubChem's identifier row for ``cas`` is the compound the handbook names: not an
+    ion, its formula holds the elements the name says (a hydrate holds water's hydrogen and
+    oxygen), and its common name is not another handbook compound's name (a salt's parent,
+    an isomer)."""
+    from capture.chem import material_key
+
+    if not formula or re.search(r"[+-]", formula):
+        return False
+    elements = set(re.findall(r"[A-Z][a-z]?", formula))
+    words = set(re.findall(r"[a-z]+", name.lower()))
+    if any(el not in elements for w, el in _NAME_ELEMENTS.items() if w in words):
+        return False
+    if _HYDRATE.search(name.lower()) and not {"H", "O"} <= elements:
+        return False
+    other = handbook_names.get(material_key(ids["names"][1])) if len(ids["names"]) > 1 else None
+    return other is None or other == cas
+
+
 def density(cas: str, c: dict, formula: str | None) -> tuple[float, str] | None:
     """(g/mL at 20 °C, source key) for a liquid, or None."""
     import chemicals.volume as volume
@@ -195,17 +229,18 @@ def _keep_name(name: str) -> bool:
     )
 
 
-def names_of(c: dict, ids: dict | None) -> list[str]:
-    """The compound's own names first (handbook, PubChem common, IUPAC), then synonyms."""
-    own = [c["name"]]
+def names_of(c: dict, ids: dict | None) -> list[tuple[str, int]]:
+    """(name, level) for each of the compound's names: its handbook name (level 0), PubChem's
+    IUPAC and common names (1), then up to ten synonyms (2)."""
+    named = [(c["name"], 0)]
     if ids:
-        own += ids["names"][:2]
-        own += [n for n in ids["names"][2:] if _keep_name(n)][:10]
+        named += [(n, 1) for n in ids["names"][:2]]
+        named += [(n, 2) for n in ids["names"][2:] if _keep_name(n)][:10]
     seen, out = set(), []
-    for n in own:
+    for n, level in named:
         if n.lower() not in seen:
             seen.add(n.lower())
-            out.append(n)
+            out.append((n, level))
     return out
 
 
@@ -229,9 +264,11 @@ def display_name(c: dict, ids: dict | None) -> str:
 
 SOURCES = {
     "crc-org": "CRC Handbook of Chemistry and Physics, physical constants of organic compounds "
-    "(as compiled in the chemicals library {v}); density mostly at 20 °C",
+    "(as compiled in the chemicals library {v}); density at 20 °C or 25 °C (the compilation "
+    "does not say which; for common solvents the two differ by about 0.5 %)",
     "crc-inorg": "CRC Handbook of Chemistry and Physics, physical constants of inorganic "
-    "compounds (as compiled in the chemicals library {v}); density mostly at 20 °C",
+    "compounds (as compiled in the chemicals library {v}); density at room temperature (the "
+    "compilation does not say at which)",
     "vdi": "VDI Heat Atlas, PPDS saturated-liquid density fit, at 20 °C (chemicals library {v})",
     "perry": "Perry's Chemical Engineers' Handbook, 8th ed., DIPPR equation 105 fit, at 20 °C "
     "(chemicals library {v})",
@@ -256,31 +293,30 @@ _SCHEMA = """
 
 
 class NameIndex:
-    """Name keys → compound. A compound's own names (handbook, PubChem common and IUPAC name)
-    win over another compound's synonyms; the same kind of name for two compounds is ambiguous
+    """Name keys → compound. A compound's handbook name wins over another's PubChem names,
+    which win over another's synonyms; the same kind of name for two compounds is ambiguous
     and dropped. A formula names a compound only where one compound of the table has it
     ('NaNO2'; not 'C2H6O', which is ethanol and dimethyl ether)."""
 
     def __init__(self) -> None:
-        self.keys: dict[str, tuple[int, bool]] = {}
+        self.keys: dict[str, tuple[int, int]] = {}  # key → (compound, level: 0 best)
         self.shared: set[str] = set()
         self.by_formula: dict[str, list[int]] = {}
 
-    def add(self, n: int, names: list[str], hill: str | None, material_key) -> None:
+    def add(self, n: int, names: list[tuple[str, int]], hill: str | None, material_key) -> None:
         if hill:
             self.by_formula.setdefault(hill, []).append(n)
-        for i, name in enumerate(names):
-            key, own = material_key(name), i < 3
-            if key in self.keys and self.keys[key][0] != n:
-                if own and not self.keys[key][1]:
-                    self.keys[key] = (n, own)
-                elif own == self.keys[key][1]:
-                    self.shared.add(key)
-                continue
-            self.keys.setdefault(key, (n, own))
+        for name, level in names:
+            key = material_key(name)
+            known = self.keys.get(key)
+            if known is None or (known[0] != n and level < known[1]):
+                self.keys[key] = (n, level)
+                self.shared.discard(key)
+            elif known[0] != n and level == known[1]:
+                self.shared.add(key)
 
     def name_rows(self) -> list[tuple[str, int, int]]:
-        return [(k, n, int(o)) for k, (n, o) in self.keys.items() if k not in self.shared]
+        return [(k, n, int(lv < 2)) for k, (n, lv) in self.keys.items() if k not in self.shared]
 
     def formula_rows(self) -> list[tuple[str, int]]:
         return [(hill, ns[0]) for hill, ns in self.by_formula.items() if len(ns) == 1]
@@ -300,6 +336,13 @@ def build(out: Path = OUT) -> dict[str, int]:
     for cas, c in curated(curation).items():
         hb.setdefault(cas, c)  # the handbook's own record wins
     ids = identifiers(lib, set(hb))
+    handbook_names = {material_key(c["name"]): cas for cas, c in hb.items()}
+    mismatched = {
+        cas for cas, i in ids.items()
+        if not consistent(cas, hb[cas]["name"], i["formula"], i, handbook_names)
+    }  # fmt: skip
+    for cas in mismatched:
+        del ids[cas]  # the handbook's name only: no formula is better than a wrong one
     out.unlink(missing_ok=True)
     db = sqlite3.connect(out)
     db.executescript(_SCHEMA)
@@ -328,7 +371,11 @@ def build(out: Path = OUT) -> dict[str, int]:
     db.executemany(
         "INSERT INTO sources VALUES (?,?)", [(k, v.format(v=version)) for k, v in SOURCES.items()]
     )
-    meta = [("chemicals", version), ("dropped ambiguous names", str(len(index.shared)))]
+    meta = [
+        ("chemicals", version),
+        ("dropped ambiguous names", str(len(index.shared))),
+        ("PubChem rows not matching the handbook's compound", str(len(mismatched))),
+    ]
     db.executemany("INSERT INTO meta VALUES (?,?)", meta + [(k, str(v)) for k, v in counts.items()])
     db.commit()
     db.execute("VACUUM")

@@ -39,6 +39,7 @@ from capture.hookspecs import hookimpl
 from capture.models import MaterialLine, MetricsReport, ProductOut, WasteProfile
 
 RANKS = ("recommended", "problematic", "hazardous", "highly hazardous")
+UNRANKED = "not ranked in the guide"  # a solvent the CHEM21 guide does not rank, or not known
 _ELEMENT = re.compile(r"[A-Z][a-z]?")
 _SUPPORTED_METAL = re.compile(r"\b(Pd|Pt|Rh|Ru|Ni)\s*/\s*C\b|palladium|platinum|rhodium", re.I)
 RULE = ("reactive, then metal-bearing, then solid media, then halogenated organic, then aqueous "
@@ -126,14 +127,15 @@ def waste_profile(
         s = m.stream or stream_of(m, config)  # set by masstrail_waste_stream
         streams[s] = streams.get(s, 0.0) + w
         if m.category in {"solvent", "water"}:
-            rank = m.chem21 or "not ranked"
+            rank = m.chem21 if m.chem21 in RANKS else UNRANKED
             ranks[rank] = ranks.get(rank, 0.0) + w
         weighted += w * weight_of.get(m.chem21 or "", weights.other)
     total_waste = sum(streams.values())
     summary = None
     if total_waste > 0 and ranks:
-        parts = [f"{ranks[r] / total_waste:.0%} of the waste is solvent ranked {r}"
-                 for r in (*reversed(RANKS), "not ranked") if ranks.get(r)]  # fmt: skip
+        parts = [f"{ranks[r] / total_waste:.0%} of the waste is solvent "
+                 + (r if r == UNRANKED else f"ranked {r}")
+                 for r in (*reversed(RANKS), UNRANKED) if ranks.get(r)]  # fmt: skip
         summary = "; ".join(parts) + " (CHEM21, Prat et al. 2016; ranks as recalled, to verify)"
     metrics = {}
     if product.mass_g:

@@ -26,6 +26,7 @@ TABLE = DATA / "compounds.sqlite"
 CURATION = DATA / "curation.toml"
 SOURCE = "masstrail compound table (plugins/data/compounds.sqlite)"
 _HALOGENS = ("F", "Cl", "Br", "I")
+_AT_20_C = {"vdi", "perry", "costald"}  # the fits, evaluated at 20 °C; the handbook's may be 25
 _lock = threading.Lock()
 
 
@@ -59,8 +60,10 @@ def _sources() -> dict[str, str]:
         return dict(_connection().execute("SELECT key, text FROM sources"))
 
 
-_COLUMNS = ("SELECT c.name, c.cas, c.formula, c.state, c.density, c.density_source, "
-            "c.solvent_rank FROM compounds c")
+_COLUMNS = (
+    "SELECT c.name, c.cas, c.formula, c.state, c.density, c.density_source, "
+    "c.solvent_rank FROM compounds c"
+)
 
 
 @functools.lru_cache(maxsize=8192)
@@ -77,9 +80,7 @@ def _row_of_formula(name: str) -> tuple | None:
         return None
     with _lock:
         found = (
-            _connection()
-            .execute("SELECT compound FROM formulas WHERE key = ?", (hill,))
-            .fetchone()
+            _connection().execute("SELECT compound FROM formulas WHERE key = ?", (hill,)).fetchone()
         )
         if found is None:
             return None
@@ -108,7 +109,7 @@ def look_up(name: str) -> MaterialInfo | None:
         formula=formula,
         molar_mass=mm,
         density_g_ml=density,
-        density_temp_c=20.0 if density else None,
+        density_temp_c=20.0 if density and density_source in _AT_20_C else None,
         density_source=_sources().get(density_source) if density else None,
         category="water" if cas == "7732-18-5" else "solvent" if rank else "reagent",
         halogenated="C" in elements and bool(elements & set(_HALOGENS)),
