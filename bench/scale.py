@@ -51,7 +51,7 @@ def _templates() -> list[Path]:
         p
         for p in EXAMPLES.rglob("*")
         if p.is_file() and ".waste." not in p.name and "templates" not in p.parts
-        and p.suffix in KINDS
+        and p.suffix in KINDS and not any(part.startswith(".") for part in p.parts)
     )  # fmt: skip
 
 

@@ -63,7 +63,7 @@ def main() -> int:
     with tempfile.TemporaryDirectory() as tmp:
         root = Path(tmp) / "nb"
         shutil.copytree(ROOT / "example_entries", root,
-                        ignore=shutil.ignore_patterns("*.waste.json", "*.waste.md"))  # fmt: skip
+                        ignore=shutil.ignore_patterns("*.waste.*", ".masstrail"))  # fmt: skip
         entry = root / ENTRY
         side = entry.with_name(entry.stem + ".waste.json")
         original = entry.read_text()

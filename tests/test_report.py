@@ -42,7 +42,7 @@ class _Text(HTMLParser):
 @pytest.fixture
 def lab(tmp_path):
     root = tmp_path / "lab"
-    shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.*"))
+    shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.*", ".masstrail"))
     return root
 
 

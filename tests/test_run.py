@@ -19,7 +19,9 @@ from helpers import GOOD, entry_md
 @pytest.fixture
 def examples(tmp_path) -> NotebookDir:
     root = tmp_path / "examples"
-    shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.json", "*.waste.md"))
+    shutil.copytree(
+        EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.json", "*.waste.md", ".masstrail")
+    )
     return NotebookDir(root)
 
 

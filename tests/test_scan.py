@@ -36,7 +36,7 @@ def test_a_parallel_scan_writes_exactly_what_a_serial_scan_writes(tmp_path):
 
     def copy(name):
         root = tmp_path / name
-        shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.*"))
+        shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.*", ".masstrail"))
         entries = [p for p in root.rglob("*") if p.suffix in {".md", ".yaml", ".json", ".ipynb"}
                    and "templates" not in p.parts]  # fmt: skip
         for i in range(8):  # 90 entries: enough for the workers to be used

@@ -154,7 +154,7 @@ def test_each_quantity_of_the_text_ends_in_exactly_one_place():
     """Every mass, volume and amount of substance the ledger finds (outside table rows) is
     one amount of one line (an input, the product, or set aside with its role), or one
     unread line: none is lost and none is counted twice."""
-    from masstrail_plugins.extract.text import _QUANTITY
+    from masstrail_plugins.extract.text import _quantities
     from masstrail_plugins.prose import sentences
 
     for body in _bodies():
@@ -162,7 +162,27 @@ def test_each_quantity_of_the_text_ends_in_exactly_one_place():
         ledger = {a.span[0] for m in lines for a in m.amounts
                   if a.span and a.kind in {"mass", "volume", "amount"}}  # fmt: skip
         unreadable = [m for m in lines if m.role == "unread" and not m.amounts]
-        starts = [start + m.start() for start, text in sentences(body)
-                  if not text.lstrip().startswith("|") for m in _QUANTITY.finditer(text)]  # fmt: skip
+        starts = [start + m.start for start, text in sentences(body)
+                  if not text.lstrip().startswith("|") for m in _quantities(text, 0)]  # fmt: skip
         assert len(starts) == len(ledger) + len(unreadable), body[:200]
         assert set(starts) >= ledger, body[:200]
+
+
+def test_no_name_holds_another_mentions_amount():
+    """'X (12.5 mL)/Y (6.0 mL)': two solvents, each with its own volume; the second name
+    does not start at the first."""
+    lines = extract("The salt was taken up in propionitrile (12.5 mL)/diisopropylamine (6.0 mL).")
+    assert [(m.name, m.stated) for m in lines] == [
+        ("propionitrile", "12.5 mL"), ("diisopropylamine", "6.0 mL")]  # fmt: skip
+    lines = extract("(2S,3R)-3-Hydroxyproline (1.0 g) was added to THF (10 mL)-water (2 mL).")
+    assert [m.name for m in lines] == ["(2S,3R)-3-Hydroxyproline", "THF", "water"]
+
+
+def test_a_reference_number_does_not_start_a_range():
+    """'Reference Example 6 to 45 ml of ethanol': 6 numbers the example; 45 ml is ethanol's,
+    not a range '6 to 45 ml' left unread."""
+    lines = extract("To 2.20 g of the nitrile prepared in Reference Example 6 to 45 ml of "
+                    "ethanol was added the base. Methanol (5 to 10 mL) was added.")  # fmt: skip
+    assert [(m.name, m.stated) for m in lines] == [
+        ("nitrile prepared in Reference Example 6", "2.20 g"), ("ethanol", "45 ml"),
+        ("Methanol", "5 to 10 mL")]  # fmt: skip

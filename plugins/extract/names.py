@@ -43,7 +43,7 @@ MAX_WORDS = 6
 # "obtained in Example (22c)", "described in Preparation Example 72", "prepared as in step 2"
 # an identifier: "3", "(1d)", "3(A)", "J15", "403, Part B", "1, step 6"
 _REF_ID = (
-    r"\s*(?:\(?[A-Za-z]?\d+[A-Za-z]?\)?(?:\s*\([A-Za-z0-9]+\))?|[A-Z])"
+    r"\s*(?:\(?[A-Za-z]?\d+[A-Za-z]?\)?(?:\s*\([A-Za-z0-9]+\))?|[A-Z]\b)"
     r"(?:,?\s*(?:[Ss]tep|[Pp]art)\s*\(?[A-Za-z0-9]+\)?)?"
 )
 _REFERENCE = (r"(?:obtained|prepared|described|synthesi[sz]ed|made|produced)\s+(?:above\b|"
@@ -116,6 +116,11 @@ def name_before(text: str) -> tuple[str | None, str | None]:
     cut = text.rfind("),", max(0, len(text) - 400))
     if cut >= 0 and cut + 2 < len(text) and not text[cut + 2].isspace():
         text = text[cut + 2 :]  # "(156 mg, 1.62 mmol),(R)-1-[…]": the name after the comma
+    last = None
+    for m in _AMOUNT_GROUP.finditer(text, max(0, len(text) - 400)):
+        last = m
+    if last is not None and last.end() < len(text):
+        text = text[last.end() :]  # "acetonitrile (14.8 mL)/triethylamine": no name holds an amount
     words = text[-400:].rsplit(None, MAX_WORDS + 3)
     if words and (len(text) > 400 or len(words) > MAX_WORDS + 3):
         words = words[1:]  # the first word may be cut, or holds all the words out of reach
@@ -195,4 +200,7 @@ _LEAD = re.compile(
     r"(?<=%)\s*by\s+(?:volume|weight)\s+of)\s+)?"  # "15% by volume of sodium hydroxide"
 )
 _AMOUNT_BRACKET = re.compile(r"\(\s*[\d.~≈]")
+_AMOUNT_GROUP = re.compile(  # a bracket holding an amount, with a separator after it
+    r"\(\s*\d[\d.,]*\s*(?:[mµμk]?g|[mµμ]?[lL]|[mµμ]?mol)\b[^()]*\)\s*[/,;–-]?\s*"
+)
 _ABBREVIATION = re.compile(r"^(?:aq|sat|conc|ca|approx|abs|anh|eq|equiv|no)\.$")

@@ -122,6 +122,10 @@ _QUANTITY = re.compile(
     rf"\s*(?P<unit>{_LEDGER_UNITS}))(?![\w/])(?P<dot>\.(?!\d))?"
     r"(?:\s*[×x]\s*(?P<times>\d)(?![\d.]))?"
 )
+_NUMBER_OF_A_REFERENCE = re.compile(
+    r"\b(?:[Ee]xamples?|[Ss]teps?|[Pp]reparations?|[Ii]ntermediates?|[Cc]ompounds?|[Tt]able|"
+    r"[Ss]cheme|[Ff]ormula|No\.)\s*$"
+)
 # "concentrated to 50 mL", "to a volume of 10 mL", "diluted to ca. 100 mL": a condition
 _CONDITION_BEFORE = re.compile(
     r"\b(?:concentrated|reduced|evaporated|diluted|distilled|made\s+up|adjusted|brought|removed|"
@@ -214,8 +218,15 @@ class _Sentence:
 
 def _quantities(text: str, offset: int) -> list[_Quantity]:
     """Every mass, volume and amount of substance in ``text`` (at ``offset`` in the body)."""
-    return [_Quantity(m.start(), m.end() if m.group("times") else m.end("q"), m, offset)
-            for m in _QUANTITY.finditer(text)]  # fmt: skip
+    out = []
+    for m in _QUANTITY.finditer(text):
+        if m.group("range") and _NUMBER_OF_A_REFERENCE.search(text, max(0, m.start() - 40),
+                                                               m.start()):  # fmt: skip
+            # "obtained in Example 8 to 60 ml of toluene": 8 numbers the example
+            high = m.start("range") + re.search(r"\d", m.group("range")).start()
+            m = _QUANTITY.match(text, high) or m
+        out.append(_Quantity(m.start(), m.end() if m.group("times") else m.end("q"), m, offset))
+    return out
 
 
 def _read_quantity(m: re.Match, offset: int) -> AmountMention | None:
