@@ -13,6 +13,9 @@ _DROP_PREFIXES = ("anhydrous ", "dry ", "freshly distilled ", "degassed ", "dist
                   "fresh ", "cooled ", "pre-cooled ", "wet ", "absolute ", "abs. ", "deionized ",
                   "deionised ", "demineralized ", "demineralised ", "de-ionized ")  # fmt: skip
 _OXIDATION_STATE = re.compile(r"(?<=[a-z]) \((0|i{1,3}|iv|vi{0,3})\)")
+_MOLAR = re.compile(
+    r"^(\d+(?:\.\d+)?)\s*(m|n|mol/l|mol\s*l-1|mol\s*dm-3)(?:\s+|$)(?:aq\.?\s+|aqueous\s+)?"
+)
 _TOKEN_MAP = {
     "sat.": "saturated",
     "sat": "saturated",
@@ -29,6 +32,8 @@ def material_key(name: str) -> str:
     s = unicodedata.normalize("NFKC", name).replace("\u2212", "-").replace("–", "-")
     s = re.sub(r"\s+", " ", s.replace("·", ".")).strip().strip(".,;:").casefold()
     s = _OXIDATION_STATE.sub(r"(\1)", s)  # "palladium (II) acetate" = "palladium(II) acetate"
+    if s[:1].isdigit():  # "2 mol/L HCl" = "2N HCl" = "2 M aq. HCl" (= "2 m hcl", "2 n hcl")
+        s = _MOLAR.sub(lambda m: f"{m[1]} {'n' if m[2] == 'n' else 'm'} ", s).strip()
     changed = True
     while changed:
         changed = False
@@ -41,6 +46,20 @@ def material_key(name: str) -> str:
             continue  # "saturated aqueous X" and "saturated X" are the same solution
         out.append(t)
     return " ".join(out)
+
+
+_SPELLINGS = (("sulph", "sulf"), ("aluminium", "aluminum"), ("caesium", "cesium"),
+              ("oestr", "estr"))  # fmt: skip
+
+
+def compact_key(key: str) -> str:
+    """A :func:`material_key` without spaces and hyphens, in American spelling: the form in
+    which 'cyclohexane carboxaldehyde', 'ethylacetate' and 'methanesulphonyl chloride' meet
+    'cyclohexanecarboxaldehyde', 'ethyl acetate' and 'methanesulfonyl chloride'."""
+    out = key.replace(" ", "").replace("-", "")
+    for british, american in _SPELLINGS:
+        out = out.replace(british, american)
+    return out
 
 
 @functools.lru_cache(maxsize=4096)
@@ -85,6 +104,13 @@ def looks_like_formula(name: str) -> bool:
         and bool(re.search(r"\d|[a-z]", name))
         and all(s in _element_symbols() for s in symbols)  # 'Et3N', 'MeOH' are not formulas
     )
+
+
+def inorganic(formula: str | None) -> bool:
+    """An inorganic compound: no carbon, or carbon only as carbonate or cyanide. By volume, it
+    is an aqueous solution (common practice)."""
+    rest = re.sub(r"H?CO3|CN", "", formula or "")
+    return bool(formula) and not re.search(r"C(?![a-z])", rest)
 
 
 @functools.lru_cache(maxsize=1)

@@ -223,3 +223,32 @@ def test_the_committed_table_is_what_the_generator_makes(tmp_path):
     module.build(tmp_path / "t.sqlite")
     ours = hashlib.sha256((tmp_path / "t.sqlite").read_bytes()).hexdigest()
     assert ours == hashlib.sha256(compounds.TABLE.read_bytes()).hexdigest()
+
+
+def test_names_meet_without_spaces_hyphens_or_british_spelling():
+    assert compounds.look_up("ethylacetate").name == "ethyl acetate"
+    assert compounds.look_up("methanesulphonyl chloride").name == "methanesulfonyl chloride"
+    assert compounds.look_up("aluminium chloride").formula == "AlCl3"
+    assert compounds.look_up("trimethyl-phosphite").name == "trimethyl phosphite"
+
+
+def test_molarity_is_written_many_ways():
+    from capture.chem import material_key
+
+    keys = {material_key(n) for n in ("2 mol/L hydrochloric acid", "2 M hydrochloric acid",
+                                      "2M aq. hydrochloric acid", "2 M aqueous hydrochloric acid")}  # fmt: skip
+    assert keys == {"2 m hydrochloric acid"}
+    assert material_key("2N HCl") == material_key("2 N HCl") == "2 n hcl"
+    assert resolve_builtin("2 mol/L hydrochloric acid", LabConfig()).name == "2 M HCl"
+
+
+def test_a_dilute_aqueous_solution_is_weighed_with_waters_density_and_says_so():
+    """Up to 2 M, an aqueous solution of an inorganic compound is within about 5-8 % of water's
+    density (common practice); its water fraction follows from the molarity."""
+    info = resolve_builtin("1 M aqueous lithium hydroxide", LabConfig())
+    assert info.category == "aqueous" and info.density_g_ml == 0.9982
+    assert "stand-in" in info.density_source and "lithium hydroxide" in info.density_source
+    # LiOH 23.95 g/mol (IUPAC atomic weights, by hand): 1 - 23.95 / 998.2 = 0.976
+    assert info.water_fraction == pytest.approx(0.976, abs=1e-3)
+    assert resolve_builtin("6 M LiOH", LabConfig()) is None  # stronger: its own density needed
+    assert resolve_builtin("1 M citric acid", LabConfig()) is None  # organic: not assumed

@@ -186,3 +186,12 @@ def test_a_reference_number_does_not_start_a_range():
     assert [(m.name, m.stated) for m in lines] == [
         ("nitrile prepared in Reference Example 6", "2.20 g"), ("ethanol", "45 ml"),
         ("Methanol", "5 to 10 mL")]  # fmt: skip
+
+
+def test_a_name_stops_where_the_next_amount_starts():
+    """'in 15 ml of water 2.60 g (0.01 mole) of the dichloride' (a comma left out): water's
+    name ends before 2.60 g, which is the dichloride's with its moles."""
+    lines = extract("The amine was dissolved in 15 ml of water 2.60 g (0.01 mole) of the "
+                    "dichloride was then added.")  # fmt: skip
+    assert [(m.name, m.stated) for m in lines] == [
+        ("water", "15 ml"), ("dichloride", "2.60 g, 0.01 mole")]  # fmt: skip

@@ -293,8 +293,9 @@ _SCHEMA = """
 
 
 class NameIndex:
-    """Name keys → compound. A compound's handbook name wins over another's PubChem names,
-    which win over another's synonyms; the same kind of name for two compounds is ambiguous
+    """Name keys (``capture.chem.compact_key``: no spaces, no hyphens) → compound. A
+    compound's handbook name wins over another's PubChem names, which win over another's
+    synonyms; the same kind of name for two compounds is ambiguous
     and dropped. A formula names a compound only where one compound of the table has it
     ('NaNO2'; not 'C2H6O', which is ethanol and dimethyl ether)."""
 
@@ -303,11 +304,11 @@ class NameIndex:
         self.shared: set[str] = set()
         self.by_formula: dict[str, list[int]] = {}
 
-    def add(self, n: int, names: list[tuple[str, int]], hill: str | None, material_key) -> None:
+    def add(self, n: int, names: list[tuple[str, int]], hill: str | None, key_of) -> None:
         if hill:
             self.by_formula.setdefault(hill, []).append(n)
         for name, level in names:
-            key = material_key(name)
+            key = key_of(name)
             known = self.keys.get(key)
             if known is None or (known[0] != n and level < known[1]):
                 self.keys[key] = (n, level)
@@ -326,7 +327,7 @@ def build(out: Path = OUT) -> dict[str, int]:
     import chemicals
 
     sys.path.insert(0, str(HERE.parent.parent))
-    from capture.chem import hill_formula, material_key
+    from capture.chem import compact_key, hill_formula, material_key
 
     lib = Path(chemicals.__file__).parent
     version = chemicals.__version__
@@ -363,7 +364,8 @@ def build(out: Path = OUT) -> dict[str, int]:
         counts["compounds"] += 1
         counts["liquids with a density"] += d is not None
         counts["estimated densities"] += bool(d and d[1] == "costald")
-        index.add(n, names_of(c, idc), hill_formula(formula) if formula else None, material_key)
+        index.add(n, names_of(c, idc), hill_formula(formula) if formula else None,
+                  lambda name: compact_key(material_key(name)))  # fmt: skip
     names, formulas = index.name_rows(), index.formula_rows()
     db.executemany("INSERT INTO names VALUES (?,?,?)", names)
     db.executemany("INSERT INTO formulas VALUES (?,?)", formulas)

@@ -76,7 +76,8 @@ _BARE_NUMBER = re.compile(r"^\d{1,4}[a-z]?$")  # "a solution of 74 (235 mg)"
 # belong to names
 _VERB_LIKE = re.compile(
     r"^(?!(?:saturated|concentrated|deuterated|activated|buffered|fused|powdered|hydrated|"
-    r"anhydrated|chlorinated|fluorinated|brominated|iodinated|methylated)$)[a-z]+(?:ed|ing)$"
+    r"anhydrated|chlorinated|fluorinated|brominated|iodinated|methylated|fuming|bleaching|"
+    r"decolou?ri[sz]ing)$)[a-z]+(?:ed|ing)$"  # "fuming nitric acid", "decolourising charcoal"
 )
 _ARTICLE = re.compile(r"^(?:a|an|the)\s+", re.I)
 
@@ -168,6 +169,8 @@ def name_after(text: str) -> tuple[str | None, str | None, int]:
             break
         if low in BOUNDARY_WORDS and _balanced(words) and (words or not had_of):
             break
+        if words and _balanced(words) and _QUANTITY_AHEAD.match(text, m.start()):
+            break  # "in 20 ml of water 5.21 g (0.02 mole) of …": the next mention's amount
         if words and w.startswith("(") and _balanced(words) and (
                 _AMOUNT_BRACKET.match(w) or ")" not in w):  # fmt: skip
             break  # a bracket of amounts (it belongs to this mention), or an aside
@@ -200,6 +203,9 @@ _LEAD = re.compile(
     r"(?<=%)\s*by\s+(?:volume|weight)\s+of)\s+)?"  # "15% by volume of sodium hydroxide"
 )
 _AMOUNT_BRACKET = re.compile(r"\(\s*[\d.~≈]")
+_QUANTITY_AHEAD = re.compile(  # the start of another mention's amount
+    r"\d+(?:[.,]\d+)?\s*(?:[mµμk]?g|gm|mgs|[mµμ]?l|cm3|[mµμ]?mol(?:es?)?)\b", re.I
+)
 _AMOUNT_GROUP = re.compile(  # a bracket holding an amount, with a separator after it
     r"\(\s*\d[\d.,]*\s*(?:[mµμk]?g|[mµμ]?[lL]|[mµμ]?mol)\b[^()]*\)\s*[/,;–-]?\s*"
 )

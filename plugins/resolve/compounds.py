@@ -18,7 +18,7 @@ import threading
 import tomllib
 from pathlib import Path
 
-from capture.chem import hill_formula, looks_like_formula, material_key, molar_mass
+from capture.chem import compact_key, hill_formula, looks_like_formula, material_key, molar_mass
 from capture.models import MaterialInfo
 
 DATA = Path(__file__).resolve().parent.parent / "data"
@@ -91,9 +91,9 @@ def look_up(name: str) -> MaterialInfo | None:
     """What the table says of ``name`` (or of the full name of an abbreviation, or of the one
     compound with the formula the name is written as), or None."""
     key = material_key(name)
-    row = _row(key)
+    row = _row(compact_key(key))
     if row is None and key in abbreviations():
-        row = _row(material_key(abbreviations()[key]))
+        row = _row(compact_key(material_key(abbreviations()[key])))
     if row is None:
         row = _row_of_formula(name.strip())
     if row is None:

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
+from capture.chem import inorganic
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import MaterialInfo, MaterialLine, Stage
@@ -62,20 +63,11 @@ def material_of_line(
         info = own or info
     if line.solvent and (info is None or not info.density_g_ml):
         info = solvent_stand_in(line, info, resolve)
-    elif info is not None and not info.density_g_ml and _inorganic(info) and any(
+    elif info is not None and not info.density_g_ml and inorganic(info.formula) and any(
             a.kind == "volume" for a in line.amounts):  # fmt: skip
         line.solvent = "water"  # "sodium hydrogen carbonate (25 ml)": an aqueous solution
         info = solvent_stand_in(line, info, resolve)
     return info
-
-
-def _inorganic(info: MaterialInfo) -> bool:
-    """An inorganic compound (no carbon, or carbon only as carbonate or cyanide): by volume,
-    it is an aqueous solution (common practice), weighed with water's density."""
-    import re
-
-    formula = re.sub(r"H?CO3|CN", "", info.formula or "")
-    return bool(info.formula) and not re.search(r"C(?![a-z])", formula)
 
 
 @hookimpl(trylast=True, specname="masstrail_material_stage")

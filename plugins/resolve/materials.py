@@ -17,7 +17,15 @@ A name none of them knows resolves to nothing, and the gap rules say so.
 
 from __future__ import annotations
 
-from capture.chem import formula_from_smiles, looks_like_smiles, material_key, molar_mass
+import re
+
+from capture.chem import (
+    formula_from_smiles,
+    inorganic,
+    looks_like_smiles,
+    material_key,
+    molar_mass,
+)
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import MaterialInfo
@@ -69,8 +77,38 @@ def resolve_builtin(name: str, config: LabConfig) -> MaterialInfo | None:
         return apply_lab_density(data.info(rec), name, config)
     if material_key(name) in GENERIC_CLASS_NAMES:
         return None  # "the acid" is a class, not one compound
-    info = look_up(name) or _from_smiles(name)
+    info = look_up(name) or _from_smiles(name) or _dilute_solution(name, config)
     return None if info is None else apply_lab_density(info, name, config)
+
+
+_DILUTE = re.compile(r"^(\d+(?:\.\d+)?) ([mn]) (.+)$")
+DILUTE_MAX_M = 2.0
+
+
+def _dilute_solution(name: str, config: LabConfig) -> MaterialInfo | None:
+    """'1 M aqueous lithium hydroxide', '0.5 N H2SO4': an aqueous solution of at most 2 M of an
+    inorganic compound the data knows, weighed with water's density as a stand-in (within
+    about 5-8 % for the common acids, bases and salts at 2 M; common practice), its water
+    fraction from the molarity. Stronger solutions need their own density: none is given."""
+    m = _DILUTE.match(material_key(name))
+    if m is None or float(m[1]) > DILUTE_MAX_M:
+        return None
+    solute = resolve_builtin(m[3], config)
+    if solute is None or not solute.molar_mass or not inorganic(solute.formula):
+        return None
+    water = builtin_data().info(builtin_data().index["water"])
+    solute_g_per_ml = float(m[1]) * solute.molar_mass / 1000
+    return MaterialInfo(
+        name=name,
+        category="aqueous",
+        density_g_ml=water.density_g_ml,
+        density_temp_c=water.density_temp_c,
+        density_source=f"water's, as a stand-in: the density of a {m[1]} {m[2].upper()} aqueous "
+        f"solution of {solute.name} is not in the data (within about 5-8 % of water's up to "
+        f"2 M; common practice)",
+        water_fraction=round(1 - solute_g_per_ml / water.density_g_ml, 4),
+        source=f"an aqueous solution of {solute.name} ({solute.source})",
+    )
 
 
 def _from_smiles(name: str) -> MaterialInfo | None:
