@@ -494,10 +494,15 @@ class BalanceMass(_Model):
 class ReadingPlacement(_Model):
     """Where an entry's balance readings went."""
 
+    inputs: list[MaterialLine] = Field(
+        default_factory=list,
+        description="new input lines: materials the text names without an amount that a "
+        "reading weighs; they follow the entry's materials",
+    )
     masses: dict[int, BalanceMass] = Field(
         default_factory=dict,
-        description="by position in the materials list: the balance mass that replaces what "
-        "was typed for that line",
+        description="by position in the materials list followed by ``inputs``: the balance "
+        "mass that replaces what was typed for that line",
     )
     product: BalanceMass | None = None
     gaps: list[Gap] = Field(default_factory=list, description="readings that could not be used")

@@ -280,3 +280,18 @@ def looks_like_amount(text: str) -> bool:
     s = _MULT.sub("", s, count=1)
     m = _BODY.match(s.split(",")[0].split(";")[0].strip())
     return bool(m and (m.group("unit") or "").strip() in _UNITS)
+
+
+def disagreement(measured: float, typed: float) -> tuple[str, bool] | None:
+    """How a measured mass and a typed one of the same thing disagree: (in words, whether by a
+    power of ten). A ratio within 5 % of 10, 100 or 1000 (either way) is a slip of the decimal
+    point or the unit; beyond 5 % otherwise, they are that far apart; within 5 %, None."""
+    if measured <= 0 or typed <= 0:
+        return None
+    ratio = measured / typed
+    for k in (10, 100, 1000):
+        if abs(ratio / k - 1) <= 0.05 or abs(ratio * k - 1) <= 0.05:
+            return f"a factor of {k} apart (a slip of the decimal point or the unit?)", True
+    if abs(ratio - 1) > 0.05:
+        return f"{abs(ratio - 1):.0%} apart", False
+    return None

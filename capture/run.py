@@ -96,6 +96,9 @@ def compute(nb: Notebook, entry: Entry) -> Result:
         or ReadingPlacement()
     )
     gaps += log_gaps + placement.gaps
+    for line in placement.inputs:  # named in the text without an amount, weighed on the balance
+        infos[id(line)] = describe(nb, line)
+        materials.append(line)
     for i, reading in placement.masses.items():
         take_reading(materials[i], reading)
     limiting, context = weigh_materials(nb, materials, infos)

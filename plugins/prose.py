@@ -75,6 +75,22 @@ def operation_of(word: str) -> str | None:
     return None
 
 
+def operation_at(sentence: str, pos: int) -> str:
+    """The operation of a mention at ``pos`` in ``sentence``: the nearest operation word
+    before it (its own words included: "a pad of Celite"), else the first after it, else
+    ``reaction``."""
+    before, after = None, None
+    for m in re.finditer(r"[A-Za-z][\w-]*", sentence):
+        op = operation_of(m.group(0))
+        if op is None:
+            continue
+        if m.start() <= pos:
+            before = op
+        elif after is None:
+            after = op
+    return before or after or "reaction"
+
+
 # a material's role (front matter, tables) → the stage it belongs to
 ROLE_STAGE: dict[Stage, set[str]] = {
     "reaction": {"reactant", "limiting reagent", "limiting reactant", "limiting", "reagent",

@@ -299,3 +299,108 @@ def test_a_lab_plugin_reads_its_own_balance_format(notebook):
     nb.pm.register(PrinterTape(), name="tape")
     (result,) = scan(nb).results
     assert result.materials[0].mass_g == 2.25
+
+
+TEACHING_TEXT = """
+4-Aminophenol (weighed on the balance) was suspended in water (10 mL) and acetic anhydride
+(4.0 mL) was added. The warm solution was filtered through a pad of Celite and dried over
+MgSO4, then cooled in ice; the solid was collected on a pre-weighed filter paper (filter
+paper 1) and dried.
+"""
+
+
+def test_readings_become_the_inputs_the_entry_mentions_without_an_amount(notebook):
+    """The balance is the original record: a reading whose label names a material the text
+    mentions with no amount (4-aminophenol), or a consumable the text uses (the Celite pad,
+    the filter paper, MgSO4 weighed by difference), is that input, with the stage of its
+    mention and the reading as its basis; no gap asks to weigh what the log weighed."""
+    _entry(notebook, "mentioned_without_amount.csv", """
+        date: 2026-11-18
+        product: {name: 4-acetamidophenol}
+        """, TEACHING_TEXT)  # fmt: skip
+    notebook.scan()
+    side = notebook.sidecar("lab/e.md")
+    mats = {m["name"]: m for m in side["materials"]}
+    assert mats["4-Aminophenol"]["mass_g"] == 3.276 and mats["4-Aminophenol"]["stage"] == "reaction"
+    assert mats["filter paper"]["mass_g"] == 0.612  # the reading 'filter paper 1'
+    assert mats["filter paper"]["category"] == "filter medium"
+    assert mats["Celite"]["mass_g"] == 6.12 and mats["Celite"]["stage"] != "reaction"
+    assert mats["MgSO4"]["mass_g"] == pytest.approx(2.034)
+    assert mats["MgSO4"]["basis"].startswith("weighed by difference: 12.904 g − 10.87 g")
+    assert mats["Celite"]["basis"] == ("balance reading lab/logs/bal.csv line 4, "
+                                       "2026-11-18T14:07:03: Celite = 6.12 g")  # fmt: skip
+    assert side["product"]["mass_g"] == 3.402
+    kinds = {(g["kind"], g["item"]) for g in side["gaps"]}
+    assert not {k for k in kinds if k[0] == "unassigned_reading"}, kinds
+    assert not {k for k in kinds if k[0] in {"filter_medium", "drying_agent"}}, kinds
+    assert all(r["assigned_to"] for r in side["readings"])
+
+
+def test_a_reading_the_entry_does_not_mention_stays_unassigned(notebook):
+    _entry(notebook, "mentioned_without_amount.csv", """
+        date: 2026-11-18
+        product: {name: 4-acetamidophenol}
+        """, "4-Aminophenol was suspended in water (10 mL) and heated.")  # fmt: skip
+    notebook.scan()
+    side = notebook.sidecar("lab/e.md")
+    unassigned = sorted(g["item"] for g in side["gaps"] if g["kind"] == "unassigned_reading")
+    assert unassigned == ["Celite", "MgSO4 after", "MgSO4 before", "filter paper 1"]
+    assert {m["name"] for m in side["materials"]} >= {"4-Aminophenol"}
+
+
+def test_quoted_decimal_commas_in_a_comma_separated_file():
+    """'"2,1209"' in a comma-separated export is 2.1209 g, not 21,209 g; '"1,234,5"' cannot be
+    read one way only, so it is refused with the file and line."""
+    got = _read("quoted_decimal_comma.csv")
+    assert [(r.line, r.label, r.mass_g) for r in got] == [
+        (2, "benzil", 2.1209), (3, "thiourea", 0.7615), (4, "product", 2.3111),
+        (5, "ethanol", None)]  # fmt: skip
+
+
+@pytest.mark.parametrize(
+    ("typed", "severity", "words"),
+    [("30.1 g", "major", "a factor of 10 apart"), ("3.30 g", "minor", "9% apart"),
+     ("3.05 g", None, None)],
+)  # fmt: skip
+def test_a_typed_mass_far_from_the_balance_is_named(notebook, typed, severity, words):
+    """The balance (MgSO4 3.012 g) wins; a typed mass a factor of ten off, or more than 5 %
+    off, is a gap naming both; within 5 % it is not."""
+    _entry(notebook, "tab_separated.tsv", f"""
+        date: 2026-11-03
+        product: {{name: amide, mass: 2.41 g}}
+        materials:
+          - {{name: MgSO4, amount: {typed}}}
+          - {{name: acid, amount: 1.90 g, role: limiting reagent}}
+        """)  # fmt: skip
+    notebook.scan()
+    side = notebook.sidecar("lab/e.md")
+    assert {m["name"]: m["mass_g"] for m in side["materials"]}["MgSO4"] == 3.012
+    found = [g for g in side["gaps"] if g["kind"] == "balance_disagrees"]
+    if severity is None:
+        assert not found
+        return
+    (gap,) = found
+    assert gap["severity"] == severity and gap["item"] == "MgSO4"
+    assert (
+        f"the balance gives 3.012 g for MgSO4 and the entry says {typed}: {words}" in gap["message"]
+    )
+
+
+def test_a_product_typed_a_thousand_times_off_is_named(notebook):
+    _entry(notebook, "tab_separated.tsv", """
+        date: 2026-11-03
+        product: {name: amide, mass: 2410 mg}
+        materials: [{name: acid, amount: 1.90 g, role: limiting reagent}]
+        """)  # fmt: skip
+    notebook.scan()
+    side = notebook.sidecar("lab/e.md")
+    assert side["product"]["mass_g"] == 2.4107
+    assert not [g for g in side["gaps"] if g["kind"] == "balance_disagrees"]  # 2410 mg = 2.41 g
+    _entry(notebook, "tab_separated.tsv", """
+        date: 2026-11-03
+        product: {name: amide, mass: 2410 g}
+        materials: [{name: acid, amount: 1.90 g, role: limiting reagent}]
+        """)  # fmt: skip
+    notebook.scan()
+    (gap,) = [g for g in notebook.sidecar("lab/e.md")["gaps"] if g["kind"] == "balance_disagrees"]
+    assert gap["severity"] == "major" and "a factor of 1000 apart" in gap["message"]

@@ -10,7 +10,9 @@ Exports differ from balance to balance, so the reader detects what it safely can
   Summe, Mean, n =) are passed over;
 - the delimiter: tab, semicolon or comma, whichever splits the header;
 - the decimal separator: a comma when the delimiter is not one and the values
-  use it; thousands separators are dropped;
+  use it; thousands separators are dropped. In a comma-separated file a comma can
+  only be inside a quoted value: ``"2,1209"`` is a decimal comma, ``"1,234.5"`` a
+  thousands separator, and ``"1,234"`` (1.234 or 1234?) is refused, never guessed;
 - the unit: its own column, inside the value (``3.276 g``, ``2046,5 mg``) or in
   the header (``Net [g]``); a file that names no unit anywhere is refused
   unless ``[balance_layout] unit`` says it;
@@ -132,15 +134,30 @@ def _columns(cells: list[str], layout: BalanceLayout) -> dict[str, int]:
 
 def _number(raw: str, decimal: str) -> float:
     s = raw.replace("\u00a0", "").replace(" ", "").replace("'", "")
+    if decimal == "quoted":  # a comma-separated file: a comma in a value was quoted
+        return _quoted_number(s)
     s = s.replace(".", "").replace(",", ".") if decimal == "," else s.replace(",", "")
     return float(s)
+
+
+def _quoted_number(s: str) -> float:
+    """A value of a comma-separated file that holds a comma (it was quoted): '2,1209' is a
+    decimal comma, '1,234.5' has a thousands separator; '1,234' (1.234 or 1234?) and '1,234,5'
+    cannot be read one way only and raise ValueError: refused, never guessed."""
+    if "," not in s:
+        return float(s)
+    if re.fullmatch(r"\d{1,3}(?:,\d{3})+\.\d+", s):
+        return float(s.replace(",", ""))
+    if re.fullmatch(r"\d+,\d+", s) and not re.fullmatch(r"\d{1,3},\d{3}", s):
+        return float(s.replace(",", "."))
+    raise ValueError(f"{s!r} can be read more than one way")
 
 
 def _decimal(rows: list[list[str]], col: int, delimiter: str, layout: BalanceLayout) -> str:
     if layout.decimal:
         return layout.decimal
     if delimiter == ",":
-        return "."
+        return "quoted"  # decided value by value: see _quoted_number
     values = [r[col] for r in rows if col < len(r)]
     commas = sum(1 for v in values if re.search(r"\d,\d", v))
     dots = sum(1 for v in values if re.search(r"\d\.\d", v) and not re.search(r"\d,\d", v))
@@ -251,8 +268,11 @@ def read_log(data: bytes, relpath: str, layout: BalanceLayout) -> list[BalanceRe
                 value = -value
             if value is not None and cell("net") is None and cell("gross") and cell("tare"):
                 tm = _VALUE.match(cell("tare") or "")
+                try:
+                    value = value - _number(tm.group("num"), decimal) if tm else None
+                except ValueError:
+                    value = None
                 if tm:
-                    value -= _number(tm.group("num"), decimal)
                     as_written = f"{raw} − {cell('tare')} (gross − tare)" + (
                         f" {cell('unit')}" if cell("unit") else ""
                     )

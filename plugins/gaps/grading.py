@@ -6,6 +6,7 @@
   recorded waste, or the size cannot be estimated at all;
 - minor: the rest. Conflicting records, an eluent without its ratio and
   aspirator water are minor by nature: they do not change the recorded mass.
+- as found: a typed mass far from the balance's (major when a power of ten apart).
 """
 
 from __future__ import annotations
@@ -26,6 +27,9 @@ ALWAYS_MINOR = {"conflicting_amounts", "conflicting_product_mass", "eluent_compo
 ALWAYS_MAJOR = {"yield_above_100", "balance_log_refused", "balance_log_unreadable",
                 "balance_difference_not_positive", "mass_moles_mismatch",
                 "procedure_elsewhere"}  # fmt: skip
+# the rule that found these knows their weight: a balance and a typed mass a factor of ten apart
+# (a slip) is major, 5-20 % apart minor
+AS_FOUND = {"balance_disagrees"}
 
 
 @hookimpl(trylast=True, specname="masstrail_grade_gaps")
@@ -42,6 +46,8 @@ def grade_by_estimate(
             severity = "blocking"
         elif g.kind in ALWAYS_MINOR:
             severity = "minor"
+        elif g.kind in AS_FOUND:
+            severity = g.severity
         elif g.kind in ALWAYS_MAJOR or g.allowance_g is None:
             severity = "major"
         else:

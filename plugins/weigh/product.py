@@ -29,7 +29,7 @@ from capture.models import (
     ProductFinding,
     ProductOut,
 )
-from capture.quantities import AmountError, parse_amounts
+from capture.quantities import AmountError, disagreement, parse_amounts
 from masstrail_plugins.resolve.knowledge import info_from_formula
 
 
@@ -93,7 +93,15 @@ def product_of_entry(
                             "the front matter is used. Correct whichever is wrong"))  # fmt: skip
     if reading is not None:
         typed = f"; the front matter says {p.mass}" if p.mass else ""
+        gaps = []  # the balance settles what the typed records disagree on
+        far = disagreement(reading.mass_g, out.mass_g) if out.mass_g else None
+        if far is not None:
+            said = p.mass or (said.text if said else f"{out.mass_g:g} g")
+            gaps.append(Gap(kind="balance_disagrees", item=p.name or "product",
+                            severity="major" if far[1] else "minor", evidence=reading.basis,
+                            message=f"the balance gives {reading.mass_g:g} g for the product and "
+                            f"the entry says {said}: {far[0]}; the balance's mass is used, "
+                            "correct the typed record"))  # fmt: skip
         out = out.model_copy(update={"mass_g": round(reading.mass_g, 4),
                                      "basis": reading.basis + typed})  # fmt: skip
-        gaps = []  # the balance settles what the typed records disagree on
     return ProductFinding(product=out, gaps=gaps)
