@@ -242,10 +242,12 @@ def masstrail_place_readings(
     resolve: Callable[[str], MaterialInfo | None],
     config: LabConfig,
 ) -> ReadingPlacement | None:
-    """Put each balance reading where it belongs: a material's mass, the product's, or a gap.
+    """Put each balance reading where it belongs: a material's mass, the product's, a new
+    input for a material the text names without an amount, or a gap.
 
     Called once per entry, after merging and before weighing. A line given a balance
-    mass is weighed from it (origin ``balance``), and its basis names the readings.
+    mass is weighed from it (origin ``balance``), and its basis names the readings; new
+    input lines (``ReadingPlacement.inputs``) are described and join the materials.
     Plugins may set each reading's ``assigned_to``.
 
     :param entry: the entry (its product's name and date).
@@ -253,8 +255,9 @@ def masstrail_place_readings(
     :param readings: every reading of the entry's logs, in file order.
     :param resolve: the material knowledge (name → properties, or None).
     :param config: the lab configuration (``[balance_layout] max_days_from_entry``).
-    :returns: the balance masses by position in ``materials``, the product's, and gaps
-        for readings that cannot be used; None when there is nothing to place.
+    :returns: new input lines, the balance masses by position in ``materials`` followed
+        by those inputs, the product's, and gaps for readings that cannot be used (or
+        disagree with a typed mass); None when there is nothing to place.
 
     Stops at first non-None result.
     """
