@@ -242,8 +242,9 @@ def masstrail_place_readings(
     resolve: Callable[[str], MaterialInfo | None],
     config: LabConfig,
 ) -> ReadingPlacement | None:
-    """Put each balance reading where it belongs: a material's mass, the product's, a new
-    input for a material the text names without an amount, or a gap.
+    """Put each balance reading where it belongs: a line's mass, the product's, or a gap.
+
+    A reading may also weigh a material the text names without an amount: a new input.
 
     Called once per entry, after merging and before weighing. A line given a balance
     mass is weighed from it (origin ``balance``), and its basis names the readings; new
