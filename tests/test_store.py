@@ -198,14 +198,46 @@ def test_timeline_and_late_records(notebook):
     notebook.scan()
     conn = _db(notebook)
     events = [(e["event"], e["what"]) for e in timeline(conn, "e.md")]
-    assert events == [("recorded", "A: 3.00 g"), ("gap opened", "B (no_amount)"),
+    assert events == [("present at first scan", "A: 3.00 g"), ("gap opened", "B (no_amount)"),
                       ("recorded", "B: 0.50 g"), ("gap closed", "B (no_amount)")]  # fmt: skip
-    late = late_records(conn, days=7)  # the scan ran long after 2026-01-05
-    assert {x["what"] for x in late} == {"A: 3.00 g", "B: 0.50 g"}
+    # the scans ran long after 2026-01-05; what was there when masstrail first saw the entry
+    # is not late (a notebook adopted after the fact), what it saw added afterwards is
+    late = late_records(conn, days=7)
+    assert {x["what"] for x in late} == {"B: 0.50 g"}
     res = CliRunner().invoke(cli, ["gaps", str(notebook.root), "--late", "--json"])
-    assert [r["kind"] for r in json.loads(res.output)] == ["late_record", "late_record"]
+    assert [r["kind"] for r in json.loads(res.output)] == ["late_record"]
     res = CliRunner().invoke(cli, ["history", str(path)])
     assert "gap closed   B (no_amount)" in res.output
+
+
+def test_an_unreadable_save_closes_no_gap_and_keeps_the_last_good_figures(notebook):
+    """A save that breaks the front matter is an "unreadable since" event, not "gap closed";
+    the store keeps the entry's last good figures, marked stale, until it reads again."""
+    from capture.store import timeline
+
+    path = notebook.write("e.md", entry_md("""
+        date: 2026-01-05
+        product: {name: p, mass: 1.00 g}
+        materials: [{name: A, amount: 3.00 g}, {name: B}]
+        """, "The solid was collected on a filter paper."))  # fmt: skip
+    notebook.scan()
+    good = path.read_text()
+    path.write_text(good.replace("date: 2026-01-05", "date: 2026-01-05\ntitle: [unclosed"))
+    report = notebook.scan()
+    assert report.results[0].status == "error"
+    conn = _db(notebook)
+    row = conn.execute("SELECT status, stale_since, product_g, gaps_major FROM entries").fetchone()
+    assert row[0] == "error" and row[1] is not None and row[2] == 1.0 and row[3] == 0
+    assert conn.execute("SELECT count(*) FROM materials").fetchone()[0] == 2  # A and B
+    assert {k for (k,) in conn.execute("SELECT kind FROM gaps")} >= {"no_amount"}
+    path.write_text(good.replace("{name: B}", "{name: B, amount: 0.50 g}"))
+    notebook.scan()
+    events = [(e["event"], e["what"]) for e in timeline(conn, "e.md")]
+    assert ("gap closed", "B (no_amount)") in events
+    unreadable = events.index(next(e for e in events if e[0] == "unreadable since"))
+    closed = events.index(("gap closed", "B (no_amount)"))
+    assert events[unreadable + 1][0] == "readable again" and closed > unreadable + 1
+    assert conn.execute("SELECT stale_since FROM entries").fetchone()[0] is None
 
 
 def test_the_store_streams_follow_the_lab_config(notebook):
@@ -376,7 +408,7 @@ def test_an_old_store_gains_the_new_columns_and_keeps_its_history(tmp_path):
 
     added = (
         ", error_location TEXT,\n    inputs_sha256 TEXT, balance_log TEXT, entry_stat TEXT,\n"
-        "    gaps_blocking INTEGER, gaps_major INTEGER, gaps_minor INTEGER\n"
+        "    gaps_blocking INTEGER, gaps_major INTEGER, gaps_minor INTEGER, stale_since TEXT\n"
     )
     old = SCHEMA.replace(added, "\n")
     assert old != SCHEMA
@@ -388,7 +420,7 @@ def test_an_old_store_gains_the_new_columns_and_keeps_its_history(tmp_path):
     new = connect(db)
     cols = {r[1] for r in new.execute("PRAGMA table_info(entries)")}
     assert {"error_location", "inputs_sha256", "balance_log", "entry_stat", "gaps_blocking",
-            "gaps_major", "gaps_minor"} <= cols  # fmt: skip
+            "gaps_major", "gaps_minor", "stale_since"} <= cols  # fmt: skip
     assert new.execute("SELECT COUNT(*) FROM history").fetchone() == (1,)
     with pytest.raises(sqlite3.IntegrityError, match="append-only"):
         new.execute("DELETE FROM history")

@@ -38,7 +38,7 @@ CREATE TABLE IF NOT EXISTS entries (
     date TEXT, sha256 TEXT, status TEXT NOT NULL, error TEXT, product TEXT, product_g REAL,
     tool_version TEXT NOT NULL, updated_at TEXT NOT NULL, error_location TEXT,
     inputs_sha256 TEXT, balance_log TEXT, entry_stat TEXT,
-    gaps_blocking INTEGER, gaps_major INTEGER, gaps_minor INTEGER
+    gaps_blocking INTEGER, gaps_major INTEGER, gaps_minor INTEGER, stale_since TEXT
 );
 CREATE TABLE IF NOT EXISTS metrics (
     entry_path TEXT PRIMARY KEY REFERENCES entries(path) ON DELETE CASCADE,
@@ -160,6 +160,7 @@ _ADDED_COLUMNS = (
     ("gaps_blocking", "INTEGER"),
     ("gaps_major", "INTEGER"),
     ("gaps_minor", "INTEGER"),
+    ("stale_since", "TEXT"),
 )
 
 
@@ -254,6 +255,8 @@ def _write(
     """Replace the entry's row and append its history row; True if history grew. Its rows
     for the other current tables are added to ``children``, inserted after all entries."""
     path = result.entry.path
+    if result.status == "error" and _keeps_last_good(conn, result, now):
+        return _append_history(conn, result, now)
     conn.execute("DELETE FROM entries WHERE path = ?", (path,))  # cascades to the rest
     meta = result.meta
     conn.execute(
@@ -272,13 +275,38 @@ def _write(
     if result.status == "ok":
         for table, rows in _rows(result).items():
             children.setdefault(table, []).extend(rows)
+    return _append_history(conn, result, now)
+
+
+def _keeps_last_good(conn: sqlite3.Connection, result: Result, now: str) -> bool:
+    """An entry that was read before and now cannot be: its rows stay (the last good figures,
+    marked stale since now), the entry row says the error; True if so."""
+    known = conn.execute("SELECT status, stale_since FROM entries WHERE path = ?",
+                         (result.entry.path,)).fetchone()  # fmt: skip
+    if known is None or (known[0] != "ok" and known[1] is None):
+        return False  # never read: nothing to keep
+    conn.execute(
+        "UPDATE entries SET status = 'error', error = ?, error_location = ?, sha256 = ?, "
+        "inputs_sha256 = ?, entry_stat = ?, tool_version = ?, updated_at = ?, "
+        "stale_since = COALESCE(stale_since, ?), gaps_blocking = 0, gaps_major = 0, "
+        "gaps_minor = 0 WHERE path = ?",
+        (result.error.message if result.error else None,
+         result.error.location if result.error else None, result.entry.sha256,
+         result.entry.inputs_sha256, result.entry._stat, __version__, now, now,
+         result.entry.path),
+    )  # fmt: skip
+    return True
+
+
+def _append_history(conn: sqlite3.Connection, result: Result, now: str) -> bool:
+    """Append the result to the history (once per entry bytes and masstrail version)."""
     if not result.entry.sha256:
         return False
     cur = conn.execute(
         "INSERT OR IGNORE INTO history (entry_path, entry_id, sha256, tool_version, computed_at, "
         "result) VALUES (?,?,?,?,?,?)",
         (
-            path,
+            result.entry.path,
             result.entry.id,
             result.entry.sha256,
             __version__,

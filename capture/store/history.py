@@ -25,33 +25,47 @@ def history_for(conn: sqlite3.Connection, path: str) -> list[dict]:
 def timeline(conn: sqlite3.Connection, path: str) -> list[dict]:
     """When each amount first appeared and each gap opened and closed, from the history.
 
-    Events, oldest first: ``{"at", "event": "recorded"|"gap opened"|"gap closed", "what"}``.
+    Events, oldest first: ``{"at", "event", "what"}``, the event one of "present at first
+    scan" (an amount already there when masstrail first read the entry: a notebook adopted
+    after the fact is not late), "recorded" (an amount masstrail saw added later), "gap
+    opened", "gap closed", "unreadable since" (a save masstrail could not read: it closes no
+    gap) and "readable again".
     """
     events: list[dict] = []
     seen_amounts: set[tuple[str, str]] = set()
     open_gaps: set[tuple[str, str]] = set()
+    first, unreadable = True, False
     for h in history_for(conn, path):
         r = h["result"]
         at = h["computed_at"]
+        if r.get("status") == "error":
+            if not unreadable:
+                why = (r.get("error") or {}).get("message", "")
+                events.append({"at": at, "event": "unreadable since", "what": why})
+            unreadable = True
+            continue
+        if unreadable:
+            events.append({"at": at, "event": "readable again", "what": ""})
+            unreadable = False
         for m in r.get("materials", []):
             key = (m["name"], m.get("stated") or "")
             if m.get("stated") and key not in seen_amounts:
                 seen_amounts.add(key)
-                events.append(
-                    {"at": at, "event": "recorded", "what": f"{m['name']}: {m['stated']}"}
-                )
+                events.append({"at": at, "event": "present at first scan" if first else "recorded",
+                               "what": f"{m['name']}: {m['stated']}"})  # fmt: skip
         now = {(g["kind"], g["item"]) for g in r.get("gaps", [])}
         for k in sorted(now - open_gaps):
             events.append({"at": at, "event": "gap opened", "what": f"{k[1]} ({k[0]})"})
         for k in sorted(open_gaps - now):
             events.append({"at": at, "event": "gap closed", "what": f"{k[1]} ({k[0]})"})
-        open_gaps = now
+        open_gaps, first = now, False
     return events
 
 
 def late_records(conn: sqlite3.Connection, days: float) -> list[dict]:
     """Amounts first recorded more than ``days`` after their entry's experiment date (ALCOA+:
-    records should be contemporaneous)."""
+    records should be contemporaneous). Only amounts masstrail saw added after it first read
+    the entry count: those present at its first scan are the notebook as it was adopted."""
     out = []
     for path, date in conn.execute("SELECT path, date FROM entries WHERE date IS NOT NULL"):
         experiment = dt.date.fromisoformat(date)
