@@ -92,3 +92,25 @@ def test_route_command_on_the_example_route(tmp_path):
     s2, s3 = rt["steps"]
     assert s2["scale"] == pytest.approx(1200 / 912, abs=1e-5)  # 1.20 kg used per 0.912 kg made
     assert rt["e_factor"] == pytest.approx(s2["scale"] * s2["e_factor"] + s3["e_factor"], abs=1e-3)
+
+
+def test_an_unreadable_step_is_its_last_good_figures_marked_stale(notebook):
+    """A step whose entry was read before and is broken now is not "not an entry": the
+    route uses its last good figures from the store and says they are stale."""
+    from capture.views.routes import route_for
+
+    _step(notebook, "s1", "id: S1\nproduct: {name: int-1, mass: 1 kg}\n"
+                          "materials: [{name: feed, amount: 10 kg}]")  # fmt: skip
+    _step(notebook, "s2", "id: S2\nproduct: {name: final, mass: 1 kg}\n"
+                          "materials: [{name: int-1, amount: 1 kg}, {name: fresh, amount: 9 kg}]")  # fmt: skip
+    notebook.scan()  # the store now knows both
+    s1 = notebook.root / "s1.md"
+    s1.write_text(s1.read_text().replace("id: S1", "id: S1\ntitle: [unclosed"))
+    notebook.scan()
+    rt = route_for(Notebook.open(notebook.root), notebook.root / "s2.md")
+    assert rt.pmi == pytest.approx(19.0)
+    (stale,) = [s for s in rt.steps if s.stale_since]
+    assert stale.id == "S1"
+    res = CliRunner().invoke(cli, ["route", str(notebook.root / "s2.md")])
+    assert res.exit_code == 0 and "S1 could not be read since" in res.output
+    assert "its last good figures are used" in res.output

@@ -41,6 +41,10 @@ def route(entry: Path, as_json: bool) -> None:
                   num(s.e_contribution))  # fmt: skip
     out = console()
     out.print(t)
+    for s in rt.steps:
+        if s.stale_since:
+            out.print(f"[yellow]{esc(s.id)} could not be read since {esc(s.stale_since[:16])}: "
+                      f"its last good figures are used ({esc(s.path)}).[/yellow]")  # fmt: skip
     out.print(f"Route PMI {num(rt.pmi)}, E-factor {num(rt.e_factor)} (step figures added, "
               "weighted by the mass each step's product contributes).")  # fmt: skip
     out.print(f"[dim]{esc(CAUTION)}[/dim]")

@@ -45,6 +45,9 @@ class RouteStep(BaseModel):
     pmi_contribution: float
     e_contribution: float
     uses: list[str]
+    stale_since: str | None = Field(
+        None, description="the entry cannot be read since then: its last good figures are used"
+    )
 
 
 class Route(BaseModel):
@@ -83,8 +86,10 @@ def _edges(results: dict[str, Result]) -> dict[str, list[tuple[str, float]]]:
     return edges
 
 
-def build_route(results: list[Result], final_id: str) -> Route:
-    """The route that ends in ``final_id``, with each step's share of the cumulative figures."""
+def build_route(results: list[Result], final_id: str, stale: dict[str, str] | None = None) -> Route:
+    """The route that ends in ``final_id``, with each step's share of the cumulative figures;
+    ``stale``: the ids of steps whose results are their last good ones, with since when."""
+    stale = stale or {}
     ok = {r.entry.id: r for r in results if r.status == "ok"}
     if final_id not in ok:
         raise RouteError(f"no readable entry with id {final_id!r}")
@@ -119,6 +124,7 @@ def build_route(results: list[Result], final_id: str) -> Route:
                 e_factor=round(e, 4), scale=round(scale[rid], 6),
                 pmi_contribution=round(scale[rid] * (r.totals.inputs_g - inter) / p, 4),
                 e_contribution=round(scale[rid] * e, 4), uses=[src for src, _ in edges[rid]],
+                stale_since=stale.get(rid),
             )
         )  # fmt: skip
     return Route(
@@ -136,8 +142,35 @@ def route_for(nb: Notebook, entry: Path) -> Route:
     from capture.scan import scan
 
     results = scan(nb, write=False).results
+    results, stale = _last_good(nb, results)
     rel = nb.relpath(entry.resolve())
     final = next((r for r in results if r.entry.path == rel), None)
     if final is None or final.status != "ok":
         raise RouteError(f"{entry} could not be read")
-    return build_route(results, final.entry.id)
+    return build_route(results, final.entry.id, stale)
+
+
+def _last_good(nb: Notebook, results: list[Result]) -> tuple[list[Result], dict[str, str]]:
+    """Each unreadable entry's last good result from the store, where it has one, and the
+    ids of those entries with since when they cannot be read."""
+    broken = {r.entry.path for r in results if r.status == "error"}
+    if not broken or not nb.config.store.enabled:
+        return results, {}
+    from capture.store import connect, history_for, store_path
+
+    db = store_path(nb.root, nb.config.store.path)[0]
+    if not db.exists():
+        return results, {}
+    conn = connect(db)
+    try:
+        since = dict(conn.execute("SELECT path, stale_since FROM entries "
+                                  "WHERE stale_since IS NOT NULL"))  # fmt: skip
+        good: dict[str, Result] = {}
+        for path in broken & set(since):
+            last = [h["result"] for h in history_for(conn, path) if h["result"]["status"] == "ok"]
+            if last:
+                good[path] = Result.model_validate(last[-1])
+    finally:
+        conn.close()
+    stale = {r.entry.id: since[path] for path, r in good.items()}
+    return [good.get(r.entry.path, r) for r in results], stale
