@@ -165,3 +165,30 @@ def test_solvent_waste_by_chem21_rank_names_the_unranked_share(notebook):
     assert ranks["not ranked in the guide"] == pytest.approx(8.0)  # 10 mL × 0.80 g/mL
     share = round(100 * 8.0 / sum(waste["streams"].values()))
     assert f"{share}% of the waste is solvent not ranked in the guide" in waste["summary"]
+
+
+def test_completeness_counts_every_input_without_a_mass_and_every_unread_quantity(notebook):
+    """An input that dropped out (1.5 equiv with no limiting reagent to scale it) and a
+    quantity the text states but nothing reads (25 mg) each lower completeness and add their
+    allowance to the estimated E-factor; neither leaves completeness at 100 %."""
+    notebook.write("e.md", """
+        ---
+        title: dropped inputs
+        product: {name: the amide, mass: 1.00 g}
+        materials:
+          - {name: A, amount: 2.00 g, role: reactant}
+          - {name: B, amount: 1.5 equiv, role: reagent}
+          - {name: toluene, amount: 10 mL, role: solvent}
+        ---
+        After an hour the mixture was treated with 25 mg.
+        """)
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    by_item = {g["item"]: g for g in side["gaps"]}
+    assert by_item["B"]["allowance_g"] == 2.0  # the entry's median recorded reagent mass
+    assert by_item["25 mg"]["allowance_g"] == 0.025
+    inputs = side["totals"]["inputs_g"]
+    assert side["metrics"]["completeness"] == pytest.approx(inputs / (inputs + 2.025), abs=1e-4)
+    assert side["metrics"]["completeness"] < 1
+    assert side["metrics"]["e_factor_estimated"] == pytest.approx(
+        side["metrics"]["e_factor"] + 2.025 / 1.00, abs=1e-3)  # fmt: skip

@@ -2,7 +2,7 @@
 
 - ``unread_gaps``: every quantity the text states that no rule read as an input, the
   product, an intermediate, a sample, equipment, a condition or characterisation; its size
-  is the amount as written (a volume at an assumed 1 g/mL);
+  is the amount as written (a volume at an assumed 1 g/mL, moles at an assumed molar mass);
 - ``procedure_elsewhere_gaps``: an entry that follows a procedure written elsewhere
   (``Following General procedure C``, ``in the same manner as in Example 1``) lacks that
   procedure's solvents and workup;
@@ -24,10 +24,13 @@ from masstrail_plugins.gaps import allowances as al
 
 def _size(line: MaterialLine, config: LabConfig) -> tuple[float | None, str | None]:
     a = line.amounts[0] if line.amounts else None
-    if a is None or a.kind not in {"mass", "volume"}:
+    if a is None or a.kind not in {"mass", "volume", "amount"}:
         return None, None
     if a.kind == "mass":
         return a.total, f"{a.text} as written"
+    if a.kind == "amount":
+        mw, basis = al.value("assumed_molar_mass_g_mol", config)
+        return a.total * mw / 1000, f"{a.text} as written × assumed {mw:g} g/mol ({basis})"
     d, basis = al.value("assumed_density_g_ml", config)
     return a.total * d, f"{a.text} as written × assumed {d:g} g/mL ({basis})"
 

@@ -94,11 +94,8 @@ def _allowance(
             return al.filter_paper_g(config)
         if line.category == "catalyst" or (line.role or "").lower() == "catalyst":
             return al.value("catalytic_amount_g", config)
-        if scale.reagent_g:
-            return (
-                scale.reagent_g,
-                f"{scale.reagent_g:g} g, the entry's median recorded reagent mass",
-            )
+    if scale.reagent_g:  # any other input without a mass: it still counts in the estimate
+        return scale.reagent_g, f"{scale.reagent_g:g} g, the entry's median recorded reagent mass"
     return None, None
 
 
