@@ -1,17 +1,13 @@
 """Every hook of a masstrail run, in the order the run calls them.
 
 A run over one entry goes: read → extract → describe → merge → balance → weigh →
-product → reaction → checks → gaps → grade → metrics → write. The run in
-:mod:`capture.run` does nothing but call these hooks and hand each answer to the
-next; the built-in behaviour lives in ``masstrail_plugins`` and is loaded through
-the ``masstrail`` entry-point group like any lab's own plugin. Hook
-implementations may take fewer arguments than the spec lists, so a spec can
-gain an argument later without breaking plugins. Arguments keep the
-same names across hooks: ``entry``, ``materials``, ``product``, ``gaps``,
-``config``.
+product → reaction → checks → gaps → grade → metrics → write. :mod:`capture.run`
+only calls these hooks and hands each answer to the next; the built-in behaviour
+lives in ``masstrail_plugins``, loaded through the ``masstrail`` entry-point group
+like any lab's own plugin. Implementations may take fewer arguments than the spec
+lists, so a spec can gain one later. Arguments keep their names across hooks.
 
-Units: masses in g, volumes in mL, amounts of substance in mmol, densities in
-g/mL, molar masses in g/mol.
+Units: masses g, volumes mL, amounts of substance mmol, densities g/mL, molar masses g/mol.
 """
 
 from __future__ import annotations
@@ -71,13 +67,11 @@ def masstrail_entry_suffixes(config: LabConfig) -> list[str]:
 def masstrail_knowledge_versions(config: LabConfig) -> list[tuple[str, str]]:
     """Name the data a plugin's answers come from, with its version.
 
-    Called once per notebook opened (scan, watcher), for the fingerprint that every
-    result records: a new version makes every result be computed again, and the scan
-    names the change ("the compound table: 1d2ca750 → 9b0e41c2").
+    Called once per notebook opened, for every result's fingerprint: a new version
+    recomputes every result, and the scan names the change.
 
     :param config: the lab configuration.
-    :returns: ``[(what, version)]``, e.g. ``[("the compound table", "1d2ca750")]``;
-        all answers are combined.
+    :returns: ``[(what, version)]``; all answers are combined.
     """
 
 
@@ -110,10 +104,9 @@ def masstrail_extract_amounts(entry: Entry, config: LabConfig) -> list[MaterialL
     """List the materials an entry records, each with its amounts as written.
 
     Called once per entry that was read. The built-ins give the front matter's and the
-    tables' materials (origin ``front-matter``, ``table``), recovered material (role
-    ``recovered``) and the procedure text's mentions (origin ``text``), the product's
-    mention among them with role ``product``. ``masstrail_merge_materials`` then
-    counts each material once.
+    tables' materials, recovered material (role ``recovered``) and the text's mentions
+    (the product's with role ``product``); ``masstrail_merge_materials`` then counts
+    each material once.
 
     :param entry: the entry, with ``body`` holding the procedure text.
     :param config: the lab configuration.
@@ -217,18 +210,16 @@ def masstrail_read_balance_log(
 ) -> list[BalanceReading] | None:
     """Read a balance's CSV export into readings.
 
-    Called once per file named in an entry's ``balance_log``, after the path was
-    checked to lie inside the notebook root and its bytes were read
-    (size-capped). A lab adds a plugin for its own balance's format here. A
-    reader raises :class:`capture.safeio.InputError` (with the line) for a file
-    it knows but cannot read.
+    Called once per file named in an entry's ``balance_log``, after the path was checked
+    to lie inside the notebook and its bytes were read (size-capped). A lab adds its own
+    balance's format here. A reader raises :class:`capture.safeio.InputError` (with the
+    line) for a file it knows but cannot read.
 
     :param path: the log on disk.
     :param data: its bytes.
     :param relpath: the path relative to the notebook root, with ``/``.
     :param config: the lab configuration (``[balance_layout]``).
-    :returns: the readings in file order, or None when the file is not this
-        reader's format.
+    :returns: the readings in file order, or None when the file is not this reader's.
 
     Stops at first non-None result.
     """
@@ -244,12 +235,9 @@ def masstrail_place_readings(
 ) -> ReadingPlacement | None:
     """Put each balance reading where it belongs: a line's mass, the product's, or a gap.
 
-    A reading may also weigh a material the text names without an amount: a new input.
-
     Called once per entry, after merging and before weighing. A line given a balance
-    mass is weighed from it (origin ``balance``), and its basis names the readings; new
-    input lines (``ReadingPlacement.inputs``) are described and join the materials.
-    Plugins may set each reading's ``assigned_to``.
+    mass is weighed from it (origin ``balance``); a reading of a material the text names
+    without an amount is a new input line. Plugins may set readings' ``assigned_to``.
 
     :param entry: the entry (its product's name and date).
     :param materials: the input lines, merged, not yet weighed.
@@ -381,9 +369,9 @@ def masstrail_check_records(
     """Find the operations in an entry that consume material, and check their records.
 
     Called once per entry, after every material has a mass or a problem, before
-    ``masstrail_find_gaps``. Each check says whether the record the operation
-    needs (drying agent mass, wash volume, filter paper, …) is anywhere in the
-    entry; an unrecorded one carries its gap, with an allowance.
+    ``masstrail_find_gaps``. Each check says whether the record the operation needs
+    (drying agent mass, wash volume, filter paper, …) is in the entry; an unrecorded
+    one carries its gap, with an allowance.
 
     :param entry: the entry, with ``body`` holding the procedure text.
     :param materials: its material lines, weighed.
@@ -484,10 +472,9 @@ def masstrail_compute_metrics(
     :param reaction: the reaction figures, or None without an equation.
     :param resolve: the material knowledge (name → properties, or None).
     :param config: the lab configuration.
-    :returns: metrics (plain numbers, fractions 0–1, None where not
-        computable) and, optionally, totals, breakdown and context; answers
-        are merged in plugin order, so a later answer does not erase an
-        earlier figure with None.
+    :returns: metrics (plain numbers, fractions 0–1, None where not computable) and,
+        optionally, totals, breakdown and context; answers are merged in plugin order,
+        so a later answer does not erase an earlier figure with None.
     """
 
 
@@ -517,20 +504,18 @@ def masstrail_write_result(
 ) -> list[Path]:
     """Write one entry's result somewhere: a sidecar, a card, a store.
 
-    Called once per entry, last, also for entries that could not be read
-    (their result has ``status="error"``).
+    Called once per entry, last, also for entries that could not be read (``status="error"``).
 
     :param result: the complete result.
     :param entry_path: the entry file on disk.
     :param root: the notebook root.
     :param config: the lab configuration.
-    :param batch: True when a scan hands over many results in a row; a writer may
-        hold them and write them together, at the latest in ``masstrail_flush_results``.
-        False for the watcher's single results, which must be written at once. In a
-        parallel scan, every writer runs in the worker processes, each in several at
-        once (a store must take concurrent writers, as SQLite in WAL mode does).
-    :returns: the paths written (unchanged files are not rewritten and not
-        listed); all answers are combined.
+    :param batch: True when a scan hands over many results in a row: a writer may hold
+        them until ``masstrail_flush_results``. False for the watcher's single results,
+        written at once. In a parallel scan, writers run in several workers at once (a
+        store must take concurrent writers, as SQLite in WAL mode does).
+    :returns: the paths written (unchanged files are not rewritten nor listed); all
+        answers are combined.
     """
 
 
@@ -546,6 +531,24 @@ def masstrail_previous_results(root: Path, config: LabConfig) -> dict[str, Entry
     :returns: ``{relative entry path: capture.models.EntrySummary}`` (with the
         fingerprint, hash and stat that tell whether each is still current), or None
         if this writer keeps nothing.
+    """
+
+
+@hookspec(firstresult=True)
+def masstrail_previous_gaps(
+    root: Path, relpath: str, config: LabConfig
+) -> list[tuple[str, str]] | None:
+    """Say which gaps an entry's last readable result had, across restarts.
+
+    Called by the watcher before recomputing an entry it holds no gaps of, so that what
+    it announces as opened and closed compares with the last good result.
+
+    :param root: the notebook root.
+    :param relpath: the entry's path relative to the root, with ``/``.
+    :param config: the lab configuration.
+    :returns: ``[(kind, item)]`` of each gap, or None if this writer keeps nothing.
+
+    Stops at first non-None result.
     """
 
 

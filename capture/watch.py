@@ -95,15 +95,6 @@ def release_lock(lock: Path) -> None:
             lock.unlink()
 
 
-def _sidecar_gaps(side: Path) -> set[tuple[str, str]]:
-    """The (kind, item) of each gap in a sidecar; empty when there is none to read."""
-    try:
-        data = json.loads(side.read_text(encoding="utf-8"))
-        return {(g["kind"], g["item"]) for g in data.get("gaps") or []}
-    except (OSError, ValueError, KeyError, TypeError, AttributeError):
-        return set()
-
-
 # ------------------------------------------------------------------ the watcher
 class Watcher:
     """Event intake, a settling queue and one worker over one notebook."""
@@ -150,8 +141,10 @@ class Watcher:
         if self.nb.fingerprints.current(path, self.summaries.get(rel)):
             return  # same content: nothing to do (duplicate events, saves without changes)
         before = self.open_gaps.get(path)
-        if before is None:
-            before = _sidecar_gaps(sidecar_path(path))
+        if before is None:  # not computed since the watcher started: the last good result's
+            known = self.nb.pm.hook.masstrail_previous_gaps(root=self.root, relpath=rel,
+                                                            config=self.nb.config)  # fmt: skip
+            before = set(map(tuple, known or ()))
         result = self.nb.process(path)
         summary = EntrySummary.of(result)
         self.summaries[rel] = summary
@@ -161,8 +154,8 @@ class Watcher:
     def _report(self, path: Path, result: Result, old: set, why: str) -> None:
         rel = self.nb.relpath(path)
         stamp = time.strftime("%H:%M:%S")
-        if result.status == "error":
-            self.open_gaps.pop(path, None)
+        if result.status == "error":  # its last good gaps stay what the next save is told against
+            self.open_gaps[path] = old
             self.echo(f"{stamp} {rel}: could not be read: {result.error.message}")
             return
         new = {(g.kind, g.item) for g in result.gaps}

@@ -171,7 +171,9 @@ def test_completeness_counts_every_input_without_a_mass_and_every_unread_quantit
     """An input that dropped out (1.5 equiv with no limiting reagent to scale it) and a
     quantity the text states but nothing reads (25 mg) each lower completeness and add their
     allowance to the estimated E-factor; neither leaves completeness at 100 %."""
-    notebook.write("e.md", """
+    notebook.write(
+        "e.md",
+        """
         ---
         title: dropped inputs
         product: {name: the amide, mass: 1.00 g}
@@ -181,7 +183,8 @@ def test_completeness_counts_every_input_without_a_mass_and_every_unread_quantit
           - {name: toluene, amount: 10 mL, role: solvent}
         ---
         After an hour the mixture was treated with 25 mg.
-        """)
+        """,
+    )
     notebook.scan()
     side = notebook.sidecar("e.md")
     by_item = {g["item"]: g for g in side["gaps"]}

@@ -303,3 +303,46 @@ def test_results_of_an_entry_deleted_while_no_watcher_ran_are_removed(notebook, 
     w2 = watched()
     assert _side(a) is not None and not (notebook.root / "b.waste.json").exists()
     assert w2.count("b.md: deleted") == 1
+
+
+DRYING = entry_md("""
+    title: dried
+    product: {name: p, mass: 1.00 g}
+    materials: [{name: A, amount: 3.00 g}, {name: EtOAc, amount: 30 mL, role: extraction solvent}]
+    """, "The organic layer was dried over Na2SO4 and concentrated.")  # fmt: skip
+
+
+@pytest.mark.parametrize("store", [True, False])
+def test_announcements_compare_with_the_last_good_result_across_restarts(notebook, watched, store):
+    """After a restart, and after a save that could not be read, a save is told against the
+    entry's last good result (the store's, else the sidecar's): adding the Na2SO4 mass closes
+    one gap (+0 −1), and no gap that was already open is announced again."""
+    if not store:
+        notebook.write("masstrail.toml", "[store]\nenabled = false\n")
+    entry = notebook.write("e.md", DRYING)
+    w = watched()
+    assert w.count("e.md: E-factor") == 1
+    w.stop()
+    w = watched()  # a restart: nothing changed, nothing computed, nothing announced
+    assert w.count("0 entries brought up to date") == 1 and w.count("e.md") == 0
+    entry.write_text(DRYING.replace("title: dried", "title: [unclosed"))
+    w.wait_for(lambda: w.count("e.md: could not be read") == 1, what="the broken save")
+    entry.write_text(DRYING.replace("Na2SO4 and", "Na2SO4 (3.0 g) and"))
+    w.wait_for(lambda: w.count("e.md: E-factor") == 1, what="the fixed save")
+    assert w.count("gaps +0 −1 (0 open)") == 1, w.lines
+    assert w.count("! e.md") == 0
+
+
+def test_a_restart_does_not_recompute_an_entry_with_a_balance_log(notebook, watched):
+    log = notebook.root / "logs" / "bal.csv"
+    log.parent.mkdir()
+    log.write_text("Label,Net,Unit\nA,3.012,g\nproduct,1.004,g\n")
+    notebook.write(
+        "e.md", ENTRY.replace("title: watched", "title: watched\nbalance_log: logs/bal.csv")
+    )
+    w = watched("--rescan", "0.5")
+    assert w.count("1 entry brought up to date") == 1
+    w.stop()
+    w = watched("--rescan", "0.5")
+    time.sleep(1.5)  # two periodic rescans
+    assert w.count("0 entries brought up to date") == 1 and w.count("e.md") == 0, w.lines

@@ -188,6 +188,15 @@ def previous_results(conn: sqlite3.Connection) -> dict[str, EntrySummary]:
     return out
 
 
+def previous_gaps(conn: sqlite3.Connection, path: str) -> list[tuple[str, str]] | None:
+    """The (kind, item) of the entry's current gaps (its last good ones while it cannot be
+    read), or None when the store does not know the entry."""
+    if conn.execute("SELECT 1 FROM entries WHERE path = ?", (path,)).fetchone() is None:
+        return None
+    return [tuple(r) for r in conn.execute("SELECT kind, item FROM gaps WHERE entry_path = ?",
+                                           (path,))]  # fmt: skip
+
+
 def remove_absent(conn: sqlite3.Connection, present: set[str]) -> int:
     """Drop the current rows of entries not in ``present`` (their history stays)."""
     gone = [p for (p,) in conn.execute("SELECT path FROM entries") if p not in present]

@@ -107,6 +107,20 @@ def sync_folders(written: list[str]) -> None:
         sync_folder(_unsynced.pop())
 
 
+@hookimpl(trylast=True, specname="masstrail_previous_gaps")
+def gaps_in_sidecar(root: Path, relpath: str, config: LabConfig) -> list[tuple[str, str]] | None:
+    """The gaps of the entry's sidecar, when it holds a readable result."""
+    import json
+
+    try:
+        data = json.loads(sidecar_path(root / relpath).read_text(encoding="utf-8"))
+        if data.get("status") != "ok":
+            return None
+        return [(g["kind"], g["item"]) for g in data.get("gaps") or []]
+    except (OSError, ValueError, KeyError, TypeError, AttributeError):
+        return None
+
+
 @hookimpl(trylast=True, specname="masstrail_previous_results")
 def previous_from_sidecars(root: Path, config: LabConfig) -> dict[str, EntrySummary] | None:
     """What the sidecars under ``root`` say of the last results, when no store answered

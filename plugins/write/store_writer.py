@@ -1,7 +1,8 @@
 """The store writer (plugin ``store``): every result goes to the lab's SQLite store too.
 
 The store itself (schema, writes, history) is :mod:`capture.store`; this plugin hands it
-the results of scans and of the watcher, and answers ``masstrail_previous_results``.
+the results of scans and of the watcher, and answers ``masstrail_previous_results`` and
+``masstrail_previous_gaps``.
 """
 
 from __future__ import annotations
@@ -17,6 +18,7 @@ from capture.hookspecs import hookimpl
 from capture.models import Result
 from capture.store import (
     connect,
+    previous_gaps,
     previous_results,
     remove_absent,
     remove_entry,
@@ -102,6 +104,15 @@ def previous(root: Path, config: LabConfig) -> dict | None:
     if not config.store.enabled:
         return None
     return previous_results(connection(root, config))
+
+
+@hookimpl(specname="masstrail_previous_gaps")
+def gaps_in_store(root: Path, relpath: str, config: LabConfig) -> list[tuple[str, str]] | None:
+    """The entry's gaps in the store (the last good ones while its saves cannot be read)."""
+    if not config.store.enabled:
+        return None
+    _flush(root, config)
+    return previous_gaps(connection(root, config), relpath)
 
 
 @hookimpl(specname="masstrail_remove_result")
