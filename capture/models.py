@@ -67,10 +67,26 @@ class AmountMention(_Model):
         return self.value * self.multiplier
 
 
-class StructuredMaterial(BaseModel):
-    """One item of the front-matter ``materials`` list or of a materials table."""
+class _Named(BaseModel):
+    """A front-matter mapping with a name. YAML flow mappings split at commas: ``{name:
+    3,4-difluoro…}`` gives the name '3' and an empty key '4-difluoro…'; that is refused,
+    never weighed (or named) as the wrong material."""
 
     model_config = ConfigDict(extra="allow")
+
+    @model_validator(mode="after")
+    def _no_split_names(self) -> _Named:
+        for key, value in (self.model_extra or {}).items():
+            if value is None or value == "":
+                raise ValueError(
+                    f"unexpected empty key {key!r} next to name {self.name!r}; a name that "
+                    f'contains commas must be quoted, e.g. name: "{self.name},{key}"'
+                )
+        return self
+
+
+class StructuredMaterial(_Named):
+    """One item of the front-matter ``materials`` list or of a materials table."""
 
     name: str
     amount: str | None = None
@@ -86,18 +102,6 @@ class StructuredMaterial(BaseModel):
             raise ValueError("a material needs a name")
         return str(value) if isinstance(value, (int, float)) else value
 
-    @model_validator(mode="after")
-    def _no_split_names(self) -> StructuredMaterial:
-        # YAML flow mappings split at commas: {name: 3,4-difluoro…} gives name '3' and an
-        # empty key '4-difluoro…'. Say so rather than weigh the wrong material.
-        for key, value in (self.model_extra or {}).items():
-            if value is None or value == "":
-                raise ValueError(
-                    f"unexpected empty key {key!r} next to name {self.name!r}; a name that "
-                    f'contains commas must be quoted, e.g. name: "{self.name},{key}"'
-                )
-        return self
-
     @field_validator("amount", mode="before")
     @classmethod
     def _amount_has_unit(cls, value: Any) -> Any:
@@ -109,10 +113,8 @@ class StructuredMaterial(BaseModel):
         return value
 
 
-class Product(BaseModel):
+class Product(_Named):
     """The desired product of an entry."""
-
-    model_config = ConfigDict(extra="allow")
 
     name: str | None = None
     mass: str | None = None
@@ -123,10 +125,8 @@ class Product(BaseModel):
     _u = field_validator("mass", mode="before")(StructuredMaterial._amount_has_unit.__func__)
 
 
-class Recovered(BaseModel):
+class Recovered(_Named):
     """Material recovered and credited against the waste (e.g. distilled solvent)."""
-
-    model_config = ConfigDict(extra="allow")
 
     name: str
     amount: str
@@ -363,9 +363,9 @@ class EntryRef(_Model):
     inputs_sha256: str | None = Field(
         None,
         description="fingerprint of everything this result depends on: the entry, its balance "
-        "logs, the lab configuration and the versions of masstrail, its plugins and the "
-        "libraries it reads names and SMILES with; a scan recomputes the entry only when it "
-        "changes",
+        "logs, the lab configuration, and the versions of masstrail, its plugins, the libraries "
+        "it weighs with and the material data it answers from; a scan recomputes the entry only "
+        "when it changes",
     )
     # the entry file's stat when it was read, "mtime_ns:ctime_ns:inode:size", for the store
     # only (not in the sidecar: a copy of the notebook has other stats); None when the file

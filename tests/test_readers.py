@@ -135,3 +135,15 @@ def test_pipe_tables_with_name_and_amount_columns():
         ("ethanol", "15 mL", "solvent"),
         ("Et3N", "4.2 mL", None),
     ]
+
+
+def test_a_product_name_with_a_comma_in_a_flow_mapping_is_a_clear_error(notebook):
+    """'{name: 2-(4-(benzyloxy)phenyl)-1,3-dioxolane, mass: 1.2 g}' splits at the comma; the
+    entry is refused with the same message as for materials, never cut silently."""
+    notebook.write("e.md", "---\ntitle: t\nproduct: {name: 2-(4-(benzyloxy)phenyl)-1,3-dioxolane, "
+                           "mass: 1.2 g}\nmaterials: [{name: A, amount: 2 g}]\n---\n")  # fmt: skip
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    assert side["status"] == "error" and side["error"]["location"] == "key product"
+    assert "a name that contains commas must be quoted" in side["error"]["message"]
+    assert '"2-(4-(benzyloxy)phenyl)-1,3-dioxolane"' in side["error"]["message"]
