@@ -401,3 +401,27 @@ def test_a_known_commercial_solution_uses_its_own_density(notebook):
     # 0.693 g/mL: supplier value for 2.5 M n-BuLi in hexanes (FIELD.md, from memory)
     assert line["mass_g"] == pytest.approx(8.8 * 0.693, abs=1e-4)
     assert "n-BuLi 2.5 M in hexanes" in line["basis"] and line["moles_mmol"] == 22.0
+
+
+def test_each_gap_of_a_card_is_its_own_line(notebook):
+    """The card (NAME.waste.md) lists one gap per Markdown list item, whether or not the gap
+    has an allowance; an error card ends its message before the caution."""
+    notebook.write("masstrail.toml", "[output]\ncard = true\n")
+    notebook.write("e.md", """
+        ---
+        title: two gaps
+        product: {name: p, mass: 1.00 g}
+        materials: [{name: A, amount: 3.00 g}, {name: B}]
+        ---
+        The solid was collected on a filter paper and dried over MgSO4.
+        """)
+    notebook.write("bad.md", "---\ntitle: [unclosed\n---\n")
+    notebook.scan()
+    card = (notebook.root / "e.waste.md").read_text()
+    items = [line for line in card.splitlines() if line.startswith("- **")]
+    assert len(items) == len(notebook.sidecar("e.md")["gaps"]) >= 2
+    assert all(line.count("- **") == 1 for line in items)
+    bad = (notebook.root / "bad.waste.md").read_text()
+    assert "**This entry could not be read:**" in bad
+    message_line = next(line for line in bad.splitlines() if "could not be read" in line)
+    assert "_These figures" not in message_line
