@@ -58,8 +58,31 @@ def test_report_is_self_contained_and_agrees_with_the_store(lab, tmp_path):
     db = sqlite3.connect(lab / ".masstrail" / "records.db")
     assert int(page.ids["n-entries"]) == db.execute("SELECT COUNT(*) FROM entries").fetchone()[0]
     es = [e for (e,) in db.execute("SELECT e_factor FROM metrics WHERE e_factor IS NOT NULL")]
-    assert float(page.ids["median-e"]) == pytest.approx(statistics.median(es), abs=1e-3)
+    # shown as the terminal shows figures: three significant figures
+    assert page.ids["median-e"] == format(statistics.median(es), ".3g")
     assert "not a hazard assessment" in html and "screening aid" in html
+
+
+def test_waste_by_stream_is_shown_per_group_and_per_gram_of_product(lab, tmp_path):
+    """The pilot bay's kilograms and the bench's grams are not added into one column: each
+    group's streams are its own, with their waste per gram of that group's product."""
+    from capture.notebook import Notebook
+    from capture.scan import scan
+    from capture.views.filters import GapFilter
+    from capture.views.report import figures
+
+    results = scan(Notebook.open(lab)).results
+    rows = figures(results, GapFilter())["streams"]
+    groups = {g for g, _, _, _ in rows}
+    assert {"Pilot bay", "Fenwick"} <= groups
+    pilot = [r for r in results if r.meta.get("group") == "Pilot bay" and r.waste]
+    product = sum(r.product.mass_g for r in pilot)
+    for g, stream, grams, per in rows:
+        if g == "Pilot bay":
+            want = sum(r.waste.streams.get(stream, 0) for r in pilot)
+            assert grams == pytest.approx(want, abs=1e-3) and per == pytest.approx(
+                want / product, abs=1e-3
+            )
 
 
 def test_report_filters(lab, tmp_path):

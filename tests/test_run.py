@@ -407,14 +407,17 @@ def test_each_gap_of_a_card_is_its_own_line(notebook):
     """The card (NAME.waste.md) lists one gap per Markdown list item, whether or not the gap
     has an allowance; an error card ends its message before the caution."""
     notebook.write("masstrail.toml", "[output]\ncard = true\n")
-    notebook.write("e.md", """
+    notebook.write(
+        "e.md",
+        """
         ---
         title: two gaps
         product: {name: p, mass: 1.00 g}
         materials: [{name: A, amount: 3.00 g}, {name: B}]
         ---
         The solid was collected on a filter paper and dried over MgSO4.
-        """)
+        """,
+    )
     notebook.write("bad.md", "---\ntitle: [unclosed\n---\n")
     notebook.scan()
     card = (notebook.root / "e.waste.md").read_text()

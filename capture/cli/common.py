@@ -55,12 +55,11 @@ def notebook_of(entry: Path):
 
 
 def num(x: float | None, spec: str = ".3g") -> str:
-    """A figure for a table: '—' for none, thousands separated above 1000."""
-    if x is None:
-        return "—"
-    if abs(x) >= 1000:
-        return f"{x:,.0f}"  # 16,043 g, not 1.6e+04 g
-    return format(x, spec)
+    """A figure for a table: '—' for none, thousands separated above 1000 (the report's own
+    rule: :func:`capture.views.filters.figure_text`)."""
+    from capture.views.filters import figure_text
+
+    return figure_text(x, spec)
 
 
 def esc(text: str) -> str:

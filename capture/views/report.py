@@ -18,7 +18,7 @@ from typing import TYPE_CHECKING
 
 from capture.models import SEVERITY_RANK, Result
 from capture.views.charts import CardChart, bar_chart
-from capture.views.filters import GapFilter
+from capture.views.filters import GapFilter, figure_text
 from capture.views.gaplist import GroupSummary
 
 if TYPE_CHECKING:
@@ -44,6 +44,7 @@ def build(
         trim_blocks=True,
         lstrip_blocks=True,
     )
+    env.filters["fig"] = figure_text  # the terminal's rule: three significant figures
     ctx = figures(results, flt, cards)
     return env.get_template("report.html.j2").render(title=title, caution=caution, **ctx)
 
@@ -58,7 +59,8 @@ class _Tally:
         self.e_all: list[float] = []
         self.pmi_all: list[float] = []
         self.by: dict[str, dict[str, list]] = {"group": {}, "project": {}, "month": {}}
-        self.streams: Counter[str] = Counter()
+        self.streams: dict[str, Counter[str]] = {}  # group → stream → waste, g
+        self.products: dict[str, float] = {}  # group → product, g (of entries with streams)
         self.contributors: Counter[str] = Counter()
         self.gap_sums: dict[str, dict[str, dict]] = {"author": {}, "group": {}}
         self.heap: list[tuple] = []  # the `cards` entries most in need: (rank key, n, result)
@@ -109,7 +111,12 @@ class _Tally:
                 cell[1].append(e)
             if pmi is not None:
                 cell[2].append(pmi)
-        self.streams.update((r.get("waste") or {}).get("streams") or {})
+        streams = (r.get("waste") or {}).get("streams") or {}
+        product = (r.get("product") or {}).get("mass_g")
+        if streams and product:  # each group at its own scale: bench grams, pilot kilograms
+            group = meta.get("group") or "(none)"
+            self.streams.setdefault(group, Counter()).update(streams)
+            self.products[group] = self.products.get(group, 0.0) + product
         for x in r.get("materials") or []:
             if x.get("mass_g"):
                 self.contributors[x.get("resolved") or x["name"]] += x["mass_g"]
@@ -125,6 +132,13 @@ class _Tally:
                     for cats in [(r.get("breakdown") or {}).get("by_category") or {}]]  # fmt: skip
         finally:
             chart.close()
+
+    def stream_rows(self) -> list[tuple[str, str, float, float]]:
+        """(group, stream, waste g, waste g per g of product) by group, largest first: a lab's
+        pilot plant and its bench are not added up in one column of grams."""
+        return [(g, k, round(v, 4), round(v / self.products[g], 4))
+                for g in sorted(self.streams)
+                for k, v in self.streams[g].most_common()]  # fmt: skip
 
     def table(self, label: str) -> list[tuple[str, int, float | None, float | None]]:
         return [(k, c[0], _median(c[1]), _median(c[2])) for k, c in sorted(self.by[label].items())]
@@ -149,7 +163,7 @@ def figures(results: Iterable[dict | Result], flt: GapFilter, cards: int = 100) 
     t = _Tally(flt, cards)
     for n, r in enumerate(results):
         t.add(n, json.loads(r.sidecar_json()) if isinstance(r, Result) else r)
-    streams, top = t.streams.most_common(), t.contributors.most_common(10)
+    streams, top = t.stream_rows(), t.contributors.most_common(10)
     return dict(
         flt=flt,
         n_entries=t.n_kept,
@@ -159,8 +173,9 @@ def figures(results: Iterable[dict | Result], flt: GapFilter, cards: int = 100) 
         by_group=t.table("group"),
         by_project=t.table("project"),
         by_month=t.table("month"),
-        streams=sorted(t.streams.items(), key=lambda kv: -kv[1]),
-        stream_chart=bar_chart([k for k, _ in streams], [v for _, v in streams], "waste, g")
+        streams=streams,
+        stream_chart=bar_chart([f"{g}: {k}" for g, k, _, _ in streams],
+                               [per for _, _, _, per in streams], "waste, g per g of product")
         if streams else "",
         top=top,
         top_chart=bar_chart([k for k, _ in top], [v for _, v in top], "input mass, g")
