@@ -33,4 +33,5 @@ def test_audit_checklist_and_markdown(notebook, tmp_path):
         "| ✗ | drying | drying agent mass | MgSO4 |" in text and "not a hazard assessment" in text
     )
     res = CliRunner().invoke(cli, ["audit", str(notebook.root), "--group", "Nobody"])
-    assert res.exit_code == 2 and "no entries of group" in res.output
+    assert res.exit_code == 2 and "no entries of group 'Nobody'" in res.output
+    assert "the groups there are: 'Alder', 'Birch'" in " ".join(res.output.split())

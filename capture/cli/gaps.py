@@ -132,7 +132,8 @@ def audit(path, group_, markdown_file):
 
     report = audit_notebook(open_notebook(path), group_)
     if not report.entries:
-        fail(f"no entries of group {group_!r} under {path}")
+        known = ", ".join(repr(g) for g in report.groups) or "none (no entry names a group)"
+        fail(f"no entries of group {group_!r} under {path}; the groups there are: {known}")
     out = console()
     med = report.median_completeness
     pct = num(med * 100 if med is not None else None, ".1f")

@@ -42,6 +42,7 @@ class GroupAudit(BaseModel):
     entries: list[EntryAudit]
     median_completeness: float | None
     most_missed: list[tuple[str, int]] = Field(description="(record, entries missing it)")
+    groups: list[str] = Field(default_factory=list, description="every group of the notebook")
 
 
 def _next_time(r: Result) -> list[str]:
@@ -65,6 +66,7 @@ def audit(results: Iterable[Result], group: str) -> GroupAudit:
     """The checklist of every entry of ``group``, and the group's summary."""
     entries = []
     missed: Counter[str] = Counter()
+    results = list(results)
     results_kept = [
         r for r in results if (r.meta.get("group") or "").casefold() == group.casefold()
     ]
@@ -100,6 +102,7 @@ def audit(results: Iterable[Result], group: str) -> GroupAudit:
         entries=entries,
         median_completeness=round(statistics.median(scores), 4) if scores else None,
         most_missed=missed.most_common(5),
+        groups=sorted({str(r.meta["group"]) for r in results if r.meta.get("group")}),
     )
 
 
