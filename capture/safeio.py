@@ -210,7 +210,39 @@ def load_yaml(text: str, line_offset: int = 0) -> Any:
         mark = getattr(exc, "problem_mark", None)
         where = f"line {mark.line + 1 + line_offset}" if mark is not None else None
         problem = getattr(exc, "problem", None) or str(exc)
-        raise InputError(f"invalid YAML: {problem}", location=where) from exc
+        advice = _yaml_advice(exc, text, line_offset)
+        message = f"{advice} (the YAML reader says: {problem})" if advice else problem
+        raise InputError(f"invalid YAML: {message}", location=where) from exc
+
+
+def _yaml_advice(exc: yaml.YAMLError, text: str, line_offset: int) -> str | None:
+    """What a chemist should change, for the YAML mistakes notebooks show most."""
+    problem = getattr(exc, "problem", None) or ""
+    context = getattr(exc, "context", None) or ""
+    mark, start = getattr(exc, "problem_mark", None), getattr(exc, "context_mark", None)
+    lines = text.splitlines()
+    line = lines[mark.line].strip() if mark is not None and mark.line < len(lines) else ""
+    opened = f"line {start.line + 1 + line_offset}" if start is not None else "above"
+    key, _, value = line.partition(":")
+    if "mapping values are not allowed" in problem and value.strip():
+        quoted = value.strip().replace('"', '\\"')
+        return f'a colon inside a value needs quotes: {key.strip()}: "{quoted}"'
+    if "expected ',' or ']'" in problem or "expected ',' or '}'" in problem:
+        bracket = "[" if "]" in problem else "{"
+        return (f'a "{bracket}" opened on {opened} is not closed: close it, or put a value that '
+                f'starts with "{bracket}" in quotes')  # fmt: skip
+    if "tab character" in problem:
+        return "a tab is used for indentation; indent with spaces"
+    if "quoted scalar" in context:
+        return f"a quote opened on {opened} is not closed"
+    if "cannot start any token" in problem and value.strip()[:1] in {"@", "`", "%"}:
+        return f'a value cannot start with "{value.strip()[0]}" unless it is in quotes: ' \
+               f'{key.strip()}: "{value.strip()}"'  # fmt: skip
+    if any(p in problem for p in ("expected '-' indicator", "expected key", "expected ':'")):
+        return ("this line does not line up with the lines around it, or lacks 'key: value': "
+                "indent it with as many spaces as its neighbours, and put a value that runs "
+                "onto the next line in quotes")  # fmt: skip
+    return None
 
 
 def _no_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:

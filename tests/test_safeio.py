@@ -159,3 +159,23 @@ def test_the_fast_yaml_path_gives_what_the_pure_python_loader_gives(text):
     assert outcome(safeio._load_fast) == outcome(
         lambda t: yaml.load(t, Loader=safeio._StringLoader)
     )
+
+
+@pytest.mark.parametrize(
+    ("text", "line", "advice"),
+    [("title: Step 2: reduction\n", 4, 'a colon inside a value needs quotes: title: "Step 2: reduction"'),
+     ("title: [unclosed\nauthor: A\n", 5, 'a "[" opened on line 4 is not closed'),
+     ("product: {name: p, mass: 1 g\nauthor: A\n", 5, 'a "{" opened on line 4 is not closed'),
+     ("title: x\n\tauthor: A\n", 5, "a tab is used for indentation; indent with spaces"),
+     ('title: "unclosed\nauthor: A\n', 6, "a quote opened on line 4 is not closed"),
+     ("author: @kim\n", 4, 'a value cannot start with "@" unless it is in quotes: author: "@kim"'),
+     ("materials:\n  - name: A\n   amount: 2 g\n", 6, "this line does not line up")],
+)  # fmt: skip
+def test_a_broken_yaml_line_is_explained_in_the_chemist_s_words(text, line, advice):
+    """The front matter's mistakes as chemists make them, each with what to change and the
+    line (the front matter starts on line 2 of the entry: offset 3 here)."""
+    with pytest.raises(InputError) as err:
+        load_yaml(text, line_offset=3)
+    assert err.value.location == f"line {line}"
+    assert err.value.message.startswith(f"invalid YAML: {advice}")
+    assert "(the YAML reader says:" in err.value.message
