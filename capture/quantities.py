@@ -292,6 +292,7 @@ def disagreement(measured: float, typed: float) -> tuple[str, bool] | None:
     for k in (10, 100, 1000):
         if abs(ratio / k - 1) <= 0.05 or abs(ratio * k - 1) <= 0.05:
             return f"a factor of {k} apart (a slip of the decimal point or the unit?)", True
-    if abs(ratio - 1) > 0.05:
-        return f"{abs(ratio - 1):.0%} apart", False
+    off = abs(ratio - 1)
+    if off > 0.05:
+        return f"{off:.1%} apart" if off < 0.1 else f"{off:.0%} apart", False
     return None

@@ -359,7 +359,7 @@ def test_quoted_decimal_commas_in_a_comma_separated_file():
 
 @pytest.mark.parametrize(
     ("typed", "severity", "words"),
-    [("30.1 g", "major", "a factor of 10 apart"), ("3.30 g", "minor", "9% apart"),
+    [("30.1 g", "major", "a factor of 10 apart"), ("3.30 g", "minor", "8.7% apart"),
      ("3.05 g", None, None)],
 )  # fmt: skip
 def test_a_typed_mass_far_from_the_balance_is_named(notebook, typed, severity, words):
