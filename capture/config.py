@@ -6,6 +6,7 @@ and the file, because a silently ignored setting is worse than none.
 
 from __future__ import annotations
 
+import os
 import tomllib
 from pathlib import Path
 
@@ -200,13 +201,15 @@ class LabConfig(_Section):
 
 def load_config(root: Path) -> LabConfig:
     """Read ``masstrail.toml`` at ``root`` if there is one, else the defaults."""
+    from capture.safeio import InputError, decode_text, read_bounded
+
     path = root / CONFIG_NAME
-    if not path.is_file():
+    if not os.path.lexists(path):
         return LabConfig()
     try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8-sig"))
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(f"{path}: cannot be read: {exc}") from exc
+        raw = tomllib.loads(decode_text(read_bounded(path, 2**20, follow=True)))
+    except InputError as exc:
+        raise ConfigError(f"{path}: cannot be read: {exc.message}") from exc
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"{path}: invalid TOML: {exc}") from exc
     try:

@@ -23,7 +23,7 @@ import pluggy
 from capture import __version__
 from capture.config import LabConfig
 from capture.paths import STATE_DIR, sidecar_name
-from capture.safeio import InputError, atomic_write, read_bounded, safe_log_path
+from capture.safeio import InputError, atomic_write, read_bounded, read_small, safe_log_path
 
 if TYPE_CHECKING:
     from capture.models import EntrySummary
@@ -97,7 +97,8 @@ class Fingerprints:
         key = (st.st_mtime_ns, st.st_size)
         known = self._log_shas.get(path)
         if known is None or known[0] != key:
-            known = (key, hashlib.sha256(path.read_bytes()).hexdigest())
+            known = (key, hashlib.sha256(read_bounded(path, self.config.scan.max_entry_bytes)
+                                         ).hexdigest())  # fmt: skip
             self._log_shas[path] = known
         return known[1]
 
@@ -156,8 +157,8 @@ def read_basis(root: Path) -> dict[str, str] | None:
     """The :attr:`Fingerprints.parts` the last writing scan recorded, or None (none yet, or a
     damaged file: then the scan cannot name what changed, and says nothing of it)."""
     try:
-        data = json.loads((root / STATE_DIR / BASIS_FILE).read_text(encoding="utf-8"))
-    except (OSError, ValueError):
+        data = json.loads(read_small(root / STATE_DIR / BASIS_FILE, 2**20) or "")
+    except ValueError:
         return None
     parts = data.get("parts") if isinstance(data, dict) else None
     if not isinstance(parts, dict) or not all(isinstance(v, str) for v in parts.values()):

@@ -31,28 +31,74 @@ class InputError(Exception):
         self.location = location
 
 
-def read_bounded(path: Path, limit: int) -> bytes:
-    """Read a regular file of at most ``limit`` bytes (the lab's ``[scan] max_entry_mb``,
-    ``LabConfig.scan.max_entry_bytes``), or raise :class:`InputError`."""
+_READ_FLAGS = (os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0)
+               | getattr(os, "O_NOCTTY", 0))  # fmt: skip
+_NOFOLLOW = getattr(os, "O_NOFOLLOW", 0)
+
+
+def _kind(mode: int) -> str:
+    if stat.S_ISLNK(mode):
+        return (
+            "a symbolic link (masstrail does not follow links: its target may lie "
+            "outside the notebook)"
+        )
+    if stat.S_ISFIFO(mode):
+        return "a FIFO (named pipe), not a regular file"
+    if stat.S_ISSOCK(mode):
+        return "a socket, not a regular file"
+    if stat.S_ISCHR(mode) or stat.S_ISBLK(mode):
+        return "a device, not a regular file"
+    if stat.S_ISDIR(mode):
+        return "a folder, not a file"
+    return "not a regular file"
+
+
+def read_bounded(path: Path, limit: int, follow: bool = False) -> bytes:
+    """Read a regular file of at most ``limit`` bytes (for entries, the lab's ``[scan]
+    max_entry_mb``), or raise :class:`InputError`. Never blocks: a FIFO, socket or device is
+    refused (opened non-blocking, checked with fstat after opening, so a file swapped for one
+    in between is refused too); a symbolic link is refused unless ``follow``."""
     try:
-        st = path.lstat()
+        st = os.stat(path) if follow else os.lstat(path)
     except OSError as exc:
         raise InputError(f"cannot read the file: {exc.strerror}") from exc
     if not stat.S_ISREG(st.st_mode):
-        raise InputError("not a regular file")
+        raise InputError(_kind(st.st_mode))
     if st.st_size > limit:
         raise InputError(
-            f"the file is {st.st_size / 2**20:.1f} MB; entries larger than "
+            f"the file is {st.st_size / 2**20:.1f} MB; files larger than "
             f"{limit / 2**20:.0f} MB are not read"
         )
-    # unbuffered, and sized by the stat (not a limit-sized buffer per file)
-    with open(path, "rb", buffering=0) as fh:
-        data = fh.read(st.st_size + 1)
-        if len(data) > st.st_size:  # it grew while it was read
-            data += fh.read(max(0, limit + 1 - len(data)))
-    if len(data) > limit:
+    try:
+        fd = os.open(path, _READ_FLAGS | (0 if follow else _NOFOLLOW))
+    except OSError as exc:
+        raise InputError(f"cannot read the file: {exc.strerror}") from exc
+    try:
+        st = os.fstat(fd)
+        if not stat.S_ISREG(st.st_mode):
+            raise InputError(_kind(st.st_mode))
+        chunks, size = [], 0
+        while size <= limit:  # sized by the stat, read until the end (it may have grown)
+            chunk = os.read(fd, max(st.st_size - size, 0) + 65536)
+            if not chunk:
+                break
+            chunks.append(chunk)
+            size += len(chunk)
+    finally:
+        os.close(fd)
+    if size > limit:
         raise InputError(f"the file grew past {limit / 2**20:.0f} MB while it was read")
-    return data
+    return b"".join(chunks)
+
+
+def read_small(path: Path, limit: int = 64 * 2**20) -> str | None:
+    """The text of a file masstrail wrote or reads for itself (a sidecar, the lab config, its
+    state), through :func:`read_bounded` (links followed: a lab may link its config); None
+    when it is missing, special or too big."""
+    try:
+        return decode_text(read_bounded(path, limit, follow=True))
+    except InputError:
+        return None
 
 
 @functools.lru_cache(maxsize=16)
@@ -66,6 +112,8 @@ def safe_log_path(root: Path, entry_dir: Path, ref: str) -> Path:
     root are refused, so an entry can never make masstrail read outside its notebook."""
     if not ref or not ref.strip():
         raise InputError("an empty balance_log path")
+    if "\x00" in ref:
+        raise InputError(f"balance_log {ref!r} holds a NUL character; it is not a path")
     if PureWindowsPath(ref).drive or ref.startswith(("\\\\", "//")):
         raise InputError(
             f"balance_log {ref!r} is a drive or network path; use a path inside the notebook"
@@ -76,8 +124,12 @@ def safe_log_path(root: Path, entry_dir: Path, ref: str) -> Path:
         raise InputError(
             f"balance_log {ref!r} leads outside the notebook folder; logs must lie inside it"
         )
-    if not resolved.is_file():
-        raise InputError(f"balance_log {ref!r} does not exist")
+    try:
+        mode = os.stat(resolved).st_mode
+    except OSError:
+        raise InputError(f"balance_log {ref!r} does not exist") from None
+    if not stat.S_ISREG(mode):
+        raise InputError(f"balance_log {ref!r} is {_kind(mode)}")
     return resolved
 
 
@@ -285,11 +337,11 @@ def atomic_write(path: Path, text: str, sync_dir: bool = True) -> bool:
 
 
 def holds(path: Path, data: bytes) -> bool:
-    """True when the file at ``path`` holds exactly ``data`` (then it need not be written)."""
+    """True when the file at ``path`` holds exactly ``data`` (then it need not be written);
+    a special file there (a FIFO someone put in the sidecar's place) is never read."""
     try:
-        with open(path, "rb", buffering=0) as fh:
-            return fh.readall() == data
-    except OSError:
+        return read_bounded(path, len(data) + 1) == data
+    except InputError:
         return False
 
 

@@ -320,7 +320,7 @@ class Watcher:
                     if now - seen >= self.settle and self._stable(path):
                         del pending[path]
                         try:
-                            self.handle(path.resolve() if path.exists() else path)
+                            self.handle(path)  # as found: a link is never followed out
                         except Exception as exc:  # one entry never stops the watcher
                             self.echo(f"{path}: {exc!r}")
                 if now >= next_rescan:

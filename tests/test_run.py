@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
 import shutil
 
 import pytest
@@ -291,7 +292,7 @@ def test_a_link_out_of_the_notebook_is_refused_not_followed(notebook, tmp_path):
     by_path = {r.entry.path: r for r in report.results}
     assert by_path["good.md"].status == "ok"
     assert by_path["linked.md"].status == "error"
-    assert "not a regular file" in by_path["linked.md"].error.message
+    assert "a symbolic link (masstrail does not follow links" in by_path["linked.md"].error.message
     assert outside.read_text() == GOOD
 
 
@@ -428,3 +429,25 @@ def test_each_gap_of_a_card_is_its_own_line(notebook):
     assert "**This entry could not be read:**" in bad
     message_line = next(line for line in bad.splitlines() if "could not be read" in line)
     assert "_These figures" not in message_line
+
+
+def test_a_scan_with_fifos_and_a_null_byte_in_a_log_path_completes(notebook):
+    """A FIFO as an entry, as a balance log or in the sidecar's place never blocks a scan (a
+    real process, with a timeout); a NUL byte in a balance_log path is a gap naming it."""
+    import subprocess
+    import sys
+
+    os.mkfifo(notebook.root / "pipe.md")
+    os.mkfifo(notebook.root / "bal.csv")
+    notebook.write("a.md", GOOD.replace("title: good", "title: a\nbalance_log: bal.csv"))
+    notebook.write("b.md", GOOD.replace("title: good", 'title: b\nbalance_log: "x\\0y.csv"'))
+    notebook.write("c.md", GOOD)
+    os.mkfifo(notebook.root / "c.waste.json")  # someone's FIFO where c's sidecar goes
+    done = subprocess.run([sys.executable, "-c", "from capture.cli import main; main()", "scan",
+                           "--json", str(notebook.root)], capture_output=True, text=True,
+                          timeout=60)  # fmt: skip
+    rows = {json.loads(line)["entry"]: json.loads(line) for line in done.stdout.splitlines()}
+    assert rows["pipe.md"]["status"] == "error" and rows["c.md"]["status"] == "ok"
+    a, b = notebook.sidecar("a.md"), notebook.sidecar("b.md")
+    assert any("a FIFO" in g["message"] for g in a["gaps"] if g["kind"] == "balance_log_unreadable")
+    assert any("NUL" in g["message"] for g in b["gaps"] if g["item"].startswith("x"))

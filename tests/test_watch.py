@@ -346,3 +346,34 @@ def test_a_restart_does_not_recompute_an_entry_with_a_balance_log(notebook, watc
     w = watched("--rescan", "0.5")
     time.sleep(1.5)  # two periodic rescans
     assert w.count("0 entries brought up to date") == 1 and w.count("e.md") == 0, w.lines
+
+
+def test_links_fifos_and_sigterm(notebook, watched, tmp_path):
+    """A link out of the notebook is an error result written next to the link (nothing is
+    read or written outside); a FIFO as an entry or as a balance log never blocks; SIGTERM
+    stops the watcher within two seconds. At start and while running."""
+    outside = tmp_path / "elsewhere"
+    outside.mkdir()
+    secret = outside / "secret.md"
+    secret.write_text(ENTRY)
+    (notebook.root / "linked.md").symlink_to(secret)
+    os.mkfifo(notebook.root / "pipe.md")
+    os.mkfifo(notebook.root / "bal.csv")
+    good = notebook.write(
+        "good.md", ENTRY.replace("title: watched", "title: w\nbalance_log: bal.csv")
+    )
+    w = watched()
+    assert w.count("linked.md: could not be read: a symbolic link") == 1
+    assert w.count("pipe.md: could not be read: a FIFO") == 1
+    gap = next(g for g in _side(good)["gaps"] if g["kind"] == "balance_log_unreadable")
+    assert "a FIFO" in gap["message"]
+    (notebook.root / "linked2.md").symlink_to(secret)
+    os.mkfifo(notebook.root / "pipe2.md")
+    w.wait_for(lambda: w.count("linked2.md: could not be read") == 1, what="the new link")
+    w.wait_for(lambda: w.count("pipe2.md: could not be read") == 1, what="the new FIFO")
+    assert sorted(p.name for p in outside.iterdir()) == ["secret.md"]  # nothing written there
+    assert (notebook.root / "linked2.waste.json").exists() and not (
+        outside / "secret.waste.json"
+    ).exists()
+    start = time.monotonic()
+    assert w.stop() == 0 and time.monotonic() - start < 2.0

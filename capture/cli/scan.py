@@ -78,12 +78,13 @@ def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: 
 
 def _print_json(nb, report) -> None:
     from capture.paths import sidecar_path
+    from capture.safeio import read_small
 
     for s in report.summaries:
         side = sidecar_path(nb.root / s.path)
         try:  # the full metrics are in the sidecar, just written or still current
-            metrics = json.loads(side.read_text(encoding="utf-8")).get("metrics")
-        except (OSError, ValueError):
+            metrics = json.loads(read_small(side) or "").get("metrics")
+        except ValueError:
             metrics = None
         click.echo(json.dumps({
             "entry": s.path,

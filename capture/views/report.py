@@ -193,6 +193,7 @@ def lab_report(nb: Notebook, flt: GapFilter, title: str, cards: int = 100,
     the last scan are computed (and written) first; the figures come from the sidecars."""
     from capture.paths import sidecar_path
     from capture.run import CAUTION
+    from capture.safeio import read_small
     from capture.scan import scan
 
     done = scan(nb, reuse=True, keep=False, jobs=jobs)
@@ -200,7 +201,7 @@ def lab_report(nb: Notebook, flt: GapFilter, title: str, cards: int = 100,
     def sidecars():
         for s in done.summaries:
             try:
-                yield json.loads(sidecar_path(nb.root / s.path).read_text(encoding="utf-8"))
+                yield json.loads(read_small(sidecar_path(nb.root / s.path)) or "")
             except (OSError, ValueError):  # gone or damaged since the scan: say so in the report
                 why = s.error or "its result file could not be read"
                 yield {"status": "error", "entry": {"path": s.path, "id": s.path}, "meta": {},

@@ -14,7 +14,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import EntrySummary, Result
 from capture.paths import SIDECAR_SUFFIX, EntryRule, card_path, sidecar_path
-from capture.safeio import atomic_write, holds, replace_atomically, sync_folder
+from capture.safeio import atomic_write, holds, read_small, replace_atomically, sync_folder
 
 
 @functools.lru_cache(maxsize=1)
@@ -113,7 +113,7 @@ def gaps_in_sidecar(root: Path, relpath: str, config: LabConfig) -> list[tuple[s
     import json
 
     try:
-        data = json.loads(sidecar_path(root / relpath).read_text(encoding="utf-8"))
+        data = json.loads(read_small(sidecar_path(root / relpath)) or "")
         if data.get("status") != "ok":
             return None
         return [(g["kind"], g["item"]) for g in data.get("gaps") or []]
@@ -136,9 +136,8 @@ def previous_from_sidecars(root: Path, config: LabConfig) -> dict[str, EntrySumm
             if not name.endswith(SIDECAR_SUFFIX):
                 continue
             try:
-                with open(os.path.join(dirpath, name), encoding="utf-8") as fh:
-                    summary = _summary_of(json.load(fh))
-            except (OSError, ValueError, KeyError, TypeError, AttributeError):
+                summary = _summary_of(json.loads(read_small(Path(dirpath, name)) or ""))
+            except (ValueError, KeyError, TypeError, AttributeError):
                 continue
             if summary is not None:
                 out[summary.path] = summary
