@@ -28,6 +28,7 @@ class Notebook:
     config: LabConfig
     pm: pluggy.PluginManager
     _resolved: dict[str, MaterialInfo | None] = field(default_factory=dict)
+    unnamed: list[str] = field(default_factory=list, init=False)  # see entry_files
 
     @classmethod
     def open(cls, root: Path, pm: pluggy.PluginManager | None = None) -> Notebook:
@@ -46,14 +47,21 @@ class Notebook:
         return EntryRule(suffixes, self.config.scan.ignore)
 
     def entry_files(self) -> list[Path]:
-        """Every entry file under the root, sorted by folder, then name."""
+        """Every entry file under the root, sorted by folder, then name. Files and folders
+        whose names are not UTF-8 (no result could name them) are left out and listed in
+        :attr:`unnamed`, escaped, so the caller can say so."""
         rule, found = self.rule, []
+        self.unnamed = []
         top = os.fspath(self.root)
         for dirpath, dirnames, filenames in os.walk(top):
-            dirnames[:] = sorted(filter(rule.folder_ok, dirnames))
+            for bad in [d for d in dirnames if not _utf8(d)]:
+                self.unnamed.append(_escaped(os.path.join(dirpath, bad), top) + "/")
+            dirnames[:] = sorted(d for d in dirnames if _utf8(d) and rule.folder_ok(d))
             rel_dir = dirpath[len(top) + 1 :].replace(os.sep, "/")  # strings: 100,000 files
             folder = Path(dirpath)
-            found += [folder / n for n in sorted(n for n in filenames if rule.file_ok(rel_dir, n))]
+            names = sorted(n for n in filenames if rule.file_ok(rel_dir, n))
+            self.unnamed += [_escaped(os.path.join(dirpath, n), top) for n in names if not _utf8(n)]
+            found += [folder / n for n in names if _utf8(n)]
         return found
 
     def is_entry(self, path: Path) -> bool:
@@ -62,7 +70,7 @@ class Notebook:
             rel = self.relpath(path)
         except ValueError:
             return False
-        return not rel.startswith("../") and self.rule.relpath_ok(rel)
+        return not rel.startswith("../") and _utf8(rel) and self.rule.relpath_ok(rel)
 
     @functools.cached_property
     def _root_prefix(self) -> str:
@@ -112,3 +120,24 @@ class Notebook:
                 result=result, entry_path=path, root=self.root, config=self.config, batch=batch
             )
         )
+
+
+def _utf8(name: str) -> bool:
+    """False for a name with bytes that are not UTF-8 (Python keeps them as surrogates)."""
+    try:
+        name.encode("utf-8")
+    except UnicodeEncodeError:
+        return False
+    return True
+
+
+def unnamed_message(names: list[str]) -> str:
+    """What to tell the user about files left out for their names."""
+    shown = ", ".join(names[:5]) + (f" and {len(names) - 5} more" if len(names) > 5 else "")
+    return (f"{len(names)} file(s) left out because their names are not UTF-8 text, so no "
+            f"result could name them: {shown}; rename them")  # fmt: skip
+
+
+def _escaped(path: str, top: str) -> str:
+    """A path relative to ``top`` with its non-UTF-8 bytes written as \\xNN."""
+    return os.fsencode(os.path.relpath(path, top)).decode("utf-8", "backslashreplace")

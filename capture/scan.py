@@ -44,6 +44,7 @@ class ScanReport:
     written: list[str]  # the files written, as strings (a scan of 100,000 writes 200,000)
     summaries: list[EntrySummary] = field(default_factory=list)
     basis_changes: list[str] = field(default_factory=list)  # what changed since the last scan
+    unnamed: list[str] = field(default_factory=list)  # files left out: names not UTF-8
     changed: list[str] = field(default_factory=list)  # entries whose figures changed with it
 
     def count(self, severity: str) -> int:
@@ -135,7 +136,8 @@ def scan(
                                              written=written)  # fmt: skip
         if basis != last_basis:
             write_basis(notebook.root, basis)
-    return ScanReport(notebook.root, results, written, summaries, changes, changed)
+    return ScanReport(notebook.root, results, written, summaries, basis_changes=changes,
+                      changed=changed, unnamed=list(notebook.unnamed))  # fmt: skip
 
 
 def _figures_differ(before: EntrySummary | None, now: EntrySummary) -> bool:

@@ -120,6 +120,7 @@ class Watcher:
         self.summaries: dict[str, EntrySummary] = {}  # entry → what its current result is
         self.open_gaps: dict[Path, set[tuple[str, str]]] = {}  # entry → its gaps, last computed
         self.logs: dict[Path, set[Path]] = {}  # balance log → entries naming it
+        self.unnamed: set[str] = set()  # files left out for their names, already said
         self.observer = None
 
     # -------------------------------------------------------------- which paths matter
@@ -231,6 +232,11 @@ class Watcher:
             self._removed(self.root / rel)
         if report.basis_note():
             self.echo(f"{time.strftime('%H:%M:%S')} {report.basis_note()}")
+        if report.unnamed and set(report.unnamed) != self.unnamed:
+            from capture.notebook import unnamed_message
+
+            self.echo(f"{time.strftime('%H:%M:%S')} {unnamed_message(report.unnamed)}")
+        self.unnamed = set(report.unnamed)
         return report.recomputed
 
     def _say(self, rel: str, s: EntrySummary, why: str) -> None:

@@ -451,3 +451,33 @@ def test_a_scan_with_fifos_and_a_null_byte_in_a_log_path_completes(notebook):
     a, b = notebook.sidecar("a.md"), notebook.sidecar("b.md")
     assert any("a FIFO" in g["message"] for g in a["gaps"] if g["kind"] == "balance_log_unreadable")
     assert any("NUL" in g["message"] for g in b["gaps"] if g["item"].startswith("x"))
+
+
+def test_a_file_name_that_is_not_utf8_is_left_out_and_named(notebook, tmp_path):
+    """A name with a byte that is not UTF-8 cannot be named in a result: the file (or folder)
+    is left out with a message naming it escaped; every other entry is processed, the store is
+    complete, and report and export work (real processes)."""
+    import sqlite3
+    import subprocess
+    import sys
+
+    for i in range(3):
+        notebook.write(f"e{i}.md", GOOD.replace("title: good", f"title: e{i}\nid: E{i}"))
+    root = os.fsencode(notebook.root)
+    with open(root + b"/bad\xff name.md", "wb") as fh:
+        fh.write(GOOD.encode())
+    os.mkdir(root + b"/dir\xfe")
+    with open(root + b"/dir\xfe/inside.md", "wb") as fh:
+        fh.write(GOOD.encode())
+    cli = [sys.executable, "-c", "from capture.cli import main; main()"]
+    done = subprocess.run([*cli, "scan", str(notebook.root)], capture_output=True, text=True,
+                          timeout=120)  # fmt: skip
+    assert done.returncode == 0, done.stderr
+    assert "2 file(s) left out because their names are not UTF-8" in done.stderr
+    assert "bad\\xff name.md" in done.stderr and "dir\\xfe/" in done.stderr
+    db = sqlite3.connect(notebook.root / ".masstrail" / "records.db")
+    assert db.execute("SELECT count(*) FROM entries").fetchone()[0] == 3
+    for args in (["report", str(notebook.root), "-o", str(tmp_path / "r.html")],
+                 ["export", str(notebook.root), "--format", "json"]):  # fmt: skip
+        done = subprocess.run([*cli, *args], capture_output=True, text=True, timeout=120)
+        assert done.returncode == 0, done.stderr

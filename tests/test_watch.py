@@ -377,3 +377,13 @@ def test_links_fifos_and_sigterm(notebook, watched, tmp_path):
     ).exists()
     start = time.monotonic()
     assert w.stop() == 0 and time.monotonic() - start < 2.0
+
+
+def test_a_file_name_that_is_not_utf8_does_not_stop_the_watcher(notebook, watched):
+    entry = notebook.write("e.md", ENTRY)
+    w = watched()
+    with open(os.fsencode(notebook.root) + b"/odd\xff.md", "wb") as fh:
+        fh.write(ENTRY.encode())
+    entry.write_text(ENTRY.replace("1.00 g", "1.10 g"))
+    w.wait_for(lambda: _mass(entry) == 1.1, what="the next save")
+    assert w.proc.poll() is None  # still running

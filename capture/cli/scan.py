@@ -64,6 +64,10 @@ def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: 
     finally:
         if bar is not None:
             bar.stop()
+    if report.unnamed:
+        from capture.notebook import unnamed_message
+
+        click.echo(f"masstrail: {unnamed_message(report.unnamed)}", err=True)
     if as_json:
         _print_json(nb, report)
         if report.basis_note():
