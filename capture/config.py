@@ -50,6 +50,16 @@ class ScanSettings(_Section):
         default_factory=list, description="glob patterns, relative to the notebook root"
     )
     max_entry_mb: float = Field(5.0, gt=0, description="entries larger than this are not read")
+    max_text_kb: float = Field(
+        200, gt=0, description="procedure text read per entry; the rest is a gap, not read"
+    )
+    max_materials: int = Field(
+        1000, gt=0, description="materials an entry may list (front matter and tables)"
+    )
+    max_readings: int = Field(
+        2000, gt=0, description="balance readings read per entry; the rest is a gap"
+    )
+    max_gaps: int = Field(200, gt=0, description="gaps listed per entry; the rest are summed up")
 
     @property
     def max_entry_bytes(self) -> int:

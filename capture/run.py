@@ -40,6 +40,7 @@ from capture.paths import entry_stem
 from capture.safeio import InputError, read_bounded, safe_log_path
 
 if TYPE_CHECKING:
+    from capture.config import LabConfig
     from capture.notebook import Notebook
 
 __all__ = ["CAUTION", "GENERATOR", "compute", "error_result", "process_entry"]
@@ -82,13 +83,23 @@ def process_entry(nb: Notebook, path: Path) -> Result:
 def compute(nb: Notebook, entry: Entry) -> Result:
     """Everything masstrail says about one entry that was read: each stage is a hook call."""
     hook, config, resolve = nb.pm.hook, nb.config, nb.resolve
+    limit_gaps = _bound_text(entry, config)
     lines = flatten(hook.masstrail_extract_amounts(entry=entry, config=config))
+    if len(lines) > config.scan.max_materials:  # the text's mentions: the list's were refused
+        left = len(lines) - config.scan.max_materials
+        lines = lines[: config.scan.max_materials]
+        limit_gaps.append(Gap(kind="text_not_read", item="procedure text", severity="major",
+                              evidence=f"{left:,} more mentions of amounts",
+                              message=f"the entry names more than "
+                              f"{config.scan.max_materials:,} amounts ([scan] max_materials); "
+                              f"the last {left:,} were not read"))  # fmt: skip
     infos = {id(line): describe(nb, line) for line in lines}
     merged = hook.masstrail_merge_materials(entry=entry, lines=lines, config=config)
     merged = merged or _unmerged(lines)
     materials, gaps = merged.materials, list(merged.gaps)
 
     readings, log_gaps = read_balance_logs(nb, entry)
+    log_gaps += limit_gaps
     placement = (
         hook.masstrail_place_readings(
             entry=entry, materials=materials, readings=readings, resolve=resolve, config=config
@@ -130,6 +141,7 @@ def compute(nb: Notebook, entry: Entry) -> Result:
     graded = hook.masstrail_grade_gaps(entry=entry, gaps=gaps, materials=materials,
                                        product=product, config=config)  # fmt: skip
     gaps = sorted(gaps if graded is None else graded, key=lambda g: SEVERITY_RANK[g.severity])
+    gaps = _bound_gaps(gaps, config.scan.max_gaps)
     figures = merge_reports(hook.masstrail_compute_metrics(gaps=gaps, **common))
     return Result(
         generator=GENERATOR,
@@ -206,6 +218,15 @@ def read_balance_logs(nb: Notebook, entry: Entry) -> tuple[list[BalanceReading],
                                                         config=nb.config)  # fmt: skip
             if got is None:
                 raise InputError("no balance reader knows this file's format")
+            room = nb.config.scan.max_readings - len(readings)
+            if len(got) > room:
+                gaps.append(Gap(kind="readings_not_read", item=str(ref), severity="major",
+                                evidence=f"balance_log: {ref}",
+                                message=f"the balance logs hold more than "
+                                f"{nb.config.scan.max_readings:,} readings ([scan] "
+                                f"max_readings); those of {ref} after its first "
+                                f"{max(room, 0):,} were not read"))  # fmt: skip
+                got = got[: max(room, 0)]
             readings += got
         except InputError as exc:
             where = f" ({exc.location})" if exc.location else ""
@@ -215,6 +236,41 @@ def read_balance_logs(nb: Notebook, entry: Entry) -> tuple[list[BalanceReading],
                             message=f"the balance log {ref}{where} cannot be used: "
                             f"{exc.message}"))  # fmt: skip
     return readings, gaps
+
+
+def _bound_text(entry: Entry, config: LabConfig) -> list[Gap]:
+    """Cut a procedure text longer than ``[scan] max_text_kb`` at the last sentence end before
+    the limit (the work per entry stays bounded); a gap says how much was not read."""
+    limit = int(config.scan.max_text_kb * 1024)
+    if len(entry.body) <= limit:
+        return []
+    cut = max(entry.body.rfind(". ", 0, limit) + 1, limit // 2)
+    left = len(entry.body) - cut
+    entry.body = entry.body[:cut]
+    return [Gap(kind="text_not_read", item="procedure text", severity="major",
+                evidence=f"the last {left:,} of {cut + left:,} characters",
+                message=f"the procedure text is {cut + left:,} characters long; masstrail read the "
+                f"first {cut:,} ([scan] max_text_kb) and not the last {left:,}, so their amounts "
+                "are not in the figures")]  # fmt: skip
+
+
+_LIMIT_KINDS = {"text_not_read", "readings_not_read"}
+
+
+def _bound_gaps(gaps: list[Gap], most: int) -> list[Gap]:
+    """At most ``most`` gaps, the most serious first; the rest summed up in one gap."""
+    if len(gaps) <= most:
+        return gaps
+    first = [g for g in gaps if g.kind in _LIMIT_KINDS]  # what was not read: always listed
+    gaps = first + [g for g in gaps if g.kind not in _LIMIT_KINDS]
+    kept, rest = gaps[: most - 1], gaps[most - 1 :]
+    kinds = sorted({g.kind for g in rest})
+    allowance = sum(g.allowance_g or 0.0 for g in rest)
+    return [*kept, Gap(kind="more_gaps", item=f"{len(rest)} more gaps", severity=rest[0].severity,
+                       evidence=", ".join(kinds)[:300], allowance_g=round(allowance, 4) or None,
+                       message=f"{len(rest):,} more gaps ({', '.join(kinds)[:200]}) are not "
+                       "listed one by one ([scan] max_gaps); their allowances are summed "
+                       "here")]  # fmt: skip
 
 
 def take_reading(line: MaterialLine, reading: BalanceMass) -> None:

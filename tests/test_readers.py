@@ -7,6 +7,7 @@ from pathlib import Path
 
 import pytest
 
+from capture.config import LabConfig
 from capture.safeio import InputError
 from masstrail_plugins.read.entries import (
     read_json,
@@ -20,7 +21,9 @@ from helpers import entry_md
 
 
 def _md(text: str, name: str = "e.md"):
-    return read_markdown(path=Path(name), data=text.encode(), relpath=f"g/{name}")
+    return read_markdown(
+        path=Path(name), data=text.encode(), relpath=f"g/{name}", config=LabConfig()
+    )
 
 
 def test_markdown_front_matter_and_defaults():
@@ -80,13 +83,13 @@ def test_yaml_error_line_counts_from_the_file_start():
 
 def test_yaml_entry_reads_procedure():
     text = "title: Y\nproduct: {name: p, mass: 1 g}\nprocedure: |\n  Washed with brine (10 mL).\n"
-    e = read_yaml(path=Path("y.yaml"), data=text.encode(), relpath="y.yaml")
+    e = read_yaml(path=Path("y.yaml"), data=text.encode(), relpath="y.yaml", config=LabConfig())
     assert e.format == "yaml" and "brine (10 mL)" in e.body
 
 
 def test_json_numbers_are_text_and_the_unit_is_demanded_later():
     data = json.dumps({"title": "J", "materials": [{"name": "DCM", "amount": 40}]}).encode()
-    e = read_json(path=Path("j.json"), data=data, relpath="j.json")
+    e = read_json(path=Path("j.json"), data=data, relpath="j.json", config=LabConfig())
     assert e.materials[0].amount == "40"
 
 
@@ -99,19 +102,23 @@ def test_notebook_front_matter_in_first_markdown_cell():
         ],
         "nbformat": 4,
     }
-    e = read_notebook(path=Path("n.ipynb"), data=json.dumps(nb).encode(), relpath="n.ipynb")
+    e = read_notebook(
+        path=Path("n.ipynb"), data=json.dumps(nb).encode(), relpath="n.ipynb", config=LabConfig()
+    )
     assert e.title == "N" and e.format == "ipynb"
     assert "Intro." in e.body and "water (5 mL)" in e.body and "x = 1" not in e.body
 
 
 def test_notebook_without_cells_is_an_error():
     with pytest.raises(InputError, match="no list of cells"):
-        read_notebook(path=Path("n.ipynb"), data=b"{}", relpath="n.ipynb")
+        read_notebook(path=Path("n.ipynb"), data=b"{}", relpath="n.ipynb", config=LabConfig())
 
 
 def test_readers_ignore_other_file_types():
-    assert read_markdown(path=Path("a.yaml"), data=b"", relpath="a.yaml") is None
-    assert read_yaml(path=Path("a.md"), data=b"", relpath="a.md") is None
+    assert (
+        read_markdown(path=Path("a.yaml"), data=b"", relpath="a.yaml", config=LabConfig()) is None
+    )
+    assert read_yaml(path=Path("a.md"), data=b"", relpath="a.md", config=LabConfig()) is None
 
 
 def test_pipe_tables_with_name_and_amount_columns():

@@ -481,3 +481,32 @@ def test_a_file_name_that_is_not_utf8_is_left_out_and_named(notebook, tmp_path):
                  ["export", str(notebook.root), "--format", "json"]):  # fmt: skip
         done = subprocess.run([*cli, *args], capture_output=True, text=True, timeout=120)
         assert done.returncode == 0, done.stderr
+
+
+def test_the_work_and_output_per_entry_are_bounded(notebook):
+    """Too much text, too many materials, readings or gaps: what is over the lab's limits is
+    one gap saying so, never a silent loss and never unbounded work or output."""
+    notebook.write("masstrail.toml", "[scan]\nmax_text_kb = 2\nmax_materials = 40\n"
+                                     "max_readings = 20\nmax_gaps = 10\n")  # fmt: skip
+    body = "".join(f"Then reagent {i} ({i % 9 + 1}.5 g) was added. " for i in range(200))
+    notebook.write("text.md", "---\ntitle: t\nproduct: {name: p, mass: 1 g}\n---\n" + body)
+    listed = "".join(f"  - {{name: M{i}, amount: 1 g}}\n" for i in range(41))
+    notebook.write("list.yaml", "title: l\nproduct: {name: p, mass: 1 g}\nmaterials:\n" + listed)
+    log = "Label,Net,Unit\n" + "".join(f"r{i},1.{i:03d},g\n" for i in range(30))
+    notebook.write("logs/bal.csv", log)
+    notebook.write("log.md", "---\ntitle: g\nbalance_log: logs/bal.csv\nproduct: {name: p, mass: 1 g}\n"
+                             "materials: [{name: A, amount: 2 g}]\n---\n")  # fmt: skip
+    notebook.scan()
+    text = notebook.sidecar("text.md")
+    cut = next(g for g in text["gaps"] if g["kind"] == "text_not_read")
+    assert "masstrail read the first" in cut["message"] and cut["severity"] == "major"
+    assert len(text["materials"]) <= 40 and len(text["gaps"]) <= 10
+    assert text["gaps"][-1]["kind"] == "more_gaps" or len(text["gaps"]) < 10
+    listed = notebook.sidecar("list.yaml")
+    assert listed["status"] == "error" and "more than 40 materials" in listed["error"]["message"]
+    log = notebook.sidecar("log.md")
+    assert len(log["readings"]) == 20
+    gap = next(g for g in log["gaps"] if g["kind"] == "readings_not_read")
+    assert "those of logs/bal.csv after its first 20 were not read" in gap["message"]
+    more = next(g for g in log["gaps"] if g["kind"] == "more_gaps")
+    assert len(log["gaps"]) == 10 and more["item"].endswith("more gaps")

@@ -231,8 +231,11 @@ def _body(lines: list[str], head: int, delimiter: str) -> list[tuple[int, list[s
     return body
 
 
-def read_log(data: bytes, relpath: str, layout: BalanceLayout) -> list[BalanceReading]:
-    """Readings from one balance CSV export; InputError with the line for what cannot be read."""
+def read_log(
+    data: bytes, relpath: str, layout: BalanceLayout, most: int | None = None
+) -> list[BalanceReading]:
+    """Readings from one balance CSV export; InputError with the line for what cannot be read.
+    With ``most``, reading stops after that many readings (the caller says what was left)."""
     text = decode(data, layout).replace("\r\n", "\n").replace("\r", "\n")
     lines = text.split("\n")
     head, delimiter, cells = _find_header(lines, layout)
@@ -245,6 +248,8 @@ def read_log(data: bytes, relpath: str, layout: BalanceLayout) -> list[BalanceRe
     decimal = _decimal([r for _, r in body], mass_col, delimiter, layout)
     readings = []
     for lineno, row in body:
+        if most is not None and len(readings) >= most:
+            break
         if cols["label"] >= len(row) or not row[cols["label"]]:
             continue
         label = row[cols["label"]]
@@ -286,14 +291,7 @@ def read_log(data: bytes, relpath: str, layout: BalanceLayout) -> list[BalanceRe
                     )
             if m.group("flag"):
                 stable = False
-        flag = cell("stable")
-        if flag is not None:
-            f = flag.strip().casefold()
-            stable = True if f in _STABLE_YES else False if f in _STABLE_NO else stable
-        stamp = None
-        day = parse_date(cell("date") or "", layout.date_order) if cell("date") else None
-        if day is not None:
-            stamp = day.isoformat() + (f"T{cell('time')}" if cell("time") else "")
+        stable, stamp = _flag_and_stamp(cell, stable, layout)
         readings.append(
             BalanceReading(
                 file=relpath,
@@ -310,9 +308,25 @@ def read_log(data: bytes, relpath: str, layout: BalanceLayout) -> list[BalanceRe
     return readings
 
 
+def _flag_and_stamp(
+    cell, stable: bool | None, layout: BalanceLayout
+) -> tuple[bool | None, str | None]:
+    """A row's stability (its column wins over a flag beside the value) and its time stamp."""
+    flag = cell("stable")
+    if flag is not None:
+        f = flag.strip().casefold()
+        stable = True if f in _STABLE_YES else False if f in _STABLE_NO else stable
+    stamp = None
+    day = parse_date(cell("date") or "", layout.date_order) if cell("date") else None
+    if day is not None:
+        stamp = day.isoformat() + (f"T{cell('time')}" if cell("time") else "")
+    return stable, stamp
+
+
 @hookimpl(trylast=True, specname="masstrail_read_balance_log")
 def read_csv_export(
     path: Path, data: bytes, relpath: str, config: LabConfig
 ) -> list[BalanceReading]:
-    """Balance CSV exports, layout detected or declared in [balance_layout]."""
-    return read_log(data, relpath, config.balance_layout)
+    """Balance CSV exports, layout detected or declared in [balance_layout]; one reading more
+    than ``[scan] max_readings`` at most, so that the run can say the rest was not read."""
+    return read_log(data, relpath, config.balance_layout, config.scan.max_readings + 1)

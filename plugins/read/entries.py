@@ -14,6 +14,7 @@ from typing import Any
 
 from pydantic import ValidationError
 
+from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, StructuredMaterial
 from capture.safeio import InputError, decode_text, load_json, load_yaml
@@ -46,7 +47,7 @@ def _cells(line: str) -> list[str]:
     return [c.strip() for c in m.group(1).split("|")] if m else []
 
 
-def read_tables(body: str) -> list[StructuredMaterial]:
+def read_tables(body: str, limit: int | None = None) -> list[StructuredMaterial]:
     """Materials from every pipe table whose header has a name and an amount column."""
     lines = body.split("\n")
     found: list[StructuredMaterial] = []
@@ -79,6 +80,8 @@ def read_tables(body: str) -> list[StructuredMaterial]:
                     line=i,  # 1-based line in the body
                 )
             )
+            if limit is not None and len(found) >= limit:
+                return found  # enough to know the entry is over the limit
     return found
 
 
@@ -101,15 +104,26 @@ def _split_front_matter(text: str) -> tuple[str, str, int]:
 
 
 def build_entry(
-    meta: Any, body: str, *, data: bytes, relpath: str, fmt: str, where: str = ""
-) -> Entry:
-    """Type the front-matter mapping with masstrail's schema; keep unknown keys."""
+    meta: Any, body: str, *, data: bytes, relpath: str, fmt: str, where: str = "",
+    max_materials: int = 1000,
+) -> Entry:  # fmt: skip
+    """Type the front-matter mapping with masstrail's schema; keep unknown keys. An entry that
+    lists more than ``max_materials`` materials is refused before its list is typed."""
     import hashlib
 
     if meta is None:
         meta = {}
     if not isinstance(meta, dict):
         raise InputError(f"the {where or 'front matter'} must be a mapping of keys to values")
+    listed = meta.get("materials")
+    tables = read_tables(body, max_materials + 1)
+    count = (len(listed) if isinstance(listed, list) else 0) + len(tables)
+    if count > max_materials:
+        raise InputError(
+            f"the entry lists more than {max_materials:,} materials (front matter and tables); "
+            "masstrail reads entries of one experiment ([scan] max_materials in masstrail.toml)",
+            location="key materials",
+        )
     known = {k: v for k, v in meta.items() if k in KNOWN_KEYS}
     extra = {str(k): v for k, v in meta.items() if k not in KNOWN_KEYS and k != "procedure"}
     known.setdefault("id", Path(relpath).name.split(".")[0])
@@ -122,7 +136,7 @@ def build_entry(
             sha256=hashlib.sha256(data).hexdigest(),
             format=fmt,
             body=body,
-            table_materials=read_tables(body),
+            table_materials=tables,
             extra=extra,
         )
     except ValidationError as exc:
@@ -138,14 +152,15 @@ def builtin_suffixes() -> list[str]:
 
 
 @hookimpl(specname="masstrail_read_entry")
-def read_markdown(path: Path, data: bytes, relpath: str) -> Entry | None:
+def read_markdown(path: Path, data: bytes, relpath: str, config: LabConfig) -> Entry | None:
     """Markdown with a YAML front-matter block."""
     if path.suffix.lower() not in {".md", ".markdown"}:
         return None
     text = decode_text(data)
     front, body, offset = _split_front_matter(text)
     meta = load_yaml(front, line_offset=offset)
-    return build_entry(meta, body, data=data, relpath=relpath, fmt="markdown")
+    return build_entry(meta, body, data=data, relpath=relpath, fmt="markdown",
+                       max_materials=config.scan.max_materials)  # fmt: skip
 
 
 def _procedure(meta: Any) -> str:
@@ -160,13 +175,19 @@ def _procedure(meta: Any) -> str:
 
 
 @hookimpl(specname="masstrail_read_entry")
-def read_yaml(path: Path, data: bytes, relpath: str) -> Entry | None:
+def read_yaml(path: Path, data: bytes, relpath: str, config: LabConfig) -> Entry | None:
     """A YAML entry: the front-matter keys at the top level, the text under ``procedure``."""
     if path.suffix.lower() not in {".yaml", ".yml"}:
         return None
     meta = load_yaml(decode_text(data))
     return build_entry(
-        meta, _procedure(meta), data=data, relpath=relpath, fmt="yaml", where="YAML document"
+        meta,
+        _procedure(meta),
+        data=data,
+        relpath=relpath,
+        fmt="yaml",
+        where="YAML document",
+        max_materials=config.scan.max_materials,
     )
 
 
@@ -182,18 +203,24 @@ def _typed_as_text(value: Any) -> Any:
 
 
 @hookimpl(specname="masstrail_read_entry")
-def read_json(path: Path, data: bytes, relpath: str) -> Entry | None:
+def read_json(path: Path, data: bytes, relpath: str, config: LabConfig) -> Entry | None:
     """A JSON entry, laid out like a YAML one."""
     if path.suffix.lower() != ".json":
         return None
     meta = _typed_as_text(load_json(decode_text(data)))
     return build_entry(
-        meta, _procedure(meta), data=data, relpath=relpath, fmt="json", where="JSON document"
+        meta,
+        _procedure(meta),
+        data=data,
+        relpath=relpath,
+        fmt="json",
+        where="JSON document",
+        max_materials=config.scan.max_materials,
     )
 
 
 @hookimpl(specname="masstrail_read_entry")
-def read_notebook(path: Path, data: bytes, relpath: str) -> Entry | None:
+def read_notebook(path: Path, data: bytes, relpath: str, config: LabConfig) -> Entry | None:
     """A Jupyter notebook: front matter in the first Markdown cell, text from all Markdown cells."""
     if path.suffix.lower() != ".ipynb":
         return None
@@ -214,4 +241,5 @@ def read_notebook(path: Path, data: bytes, relpath: str) -> Entry | None:
         raise InputError(f"first Markdown cell: {exc.message}") from None
     meta = load_yaml(front)
     body = "\n\n".join([first_body, *texts[1:]])
-    return build_entry(meta, body, data=data, relpath=relpath, fmt="ipynb")
+    return build_entry(meta, body, data=data, relpath=relpath, fmt="ipynb",
+                       max_materials=config.scan.max_materials)  # fmt: skip
