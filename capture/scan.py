@@ -200,7 +200,37 @@ _worker_notebook: Notebook | None = None
 
 def _start_worker(root: str) -> None:
     global _worker_notebook
+    _die_with_parent()
     _worker_notebook = Notebook.open(Path(root))
+
+
+def _die_with_parent() -> None:
+    """A worker ends the moment its scanning process does (killed, or stopped by a signal):
+    on Linux the kernel sends it SIGKILL (``PR_SET_PDEATHSIG``); everywhere a watchdog thread
+    notices the parent is gone within 0.2 s and ends the process without writing more."""
+    import sys
+    import threading
+    import time
+
+    parent = os.getppid()
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+            import signal
+
+            ctypes.CDLL(None, use_errno=True).prctl(1, int(signal.SIGKILL))  # PR_SET_PDEATHSIG
+        except (OSError, AttributeError):
+            pass
+    if os.getppid() != parent:  # gone already, before the signal was armed
+        os._exit(1)
+
+    def watch() -> None:
+        while True:
+            time.sleep(0.2)
+            if os.getppid() != parent:
+                os._exit(1)
+
+    threading.Thread(target=watch, name="masstrail-parent-watch", daemon=True).start()
 
 
 def _one(notebook: Notebook, path: Path, write: bool) -> tuple[Result, list[str]]:

@@ -138,3 +138,53 @@ def test_basis_changes_in_words():
         "a new table x1 is now used",
     ]
     assert basis_changes(now, now) == []
+
+
+def _stat(pid: int | str) -> list[str] | None:
+    """The fields of /proc/PID/stat after the command name: state, parent pid, …"""
+    try:
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().rsplit(")", 1)[1].split()
+    except OSError:
+        return None
+
+
+def _children(pid: int) -> set[int]:
+    """The processes whose parent is ``pid`` (Linux /proc)."""
+    return {int(d) for d in os.listdir("/proc")
+            if d.isdigit() and (f := _stat(d)) is not None and int(f[1]) == pid}  # fmt: skip
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="reads /proc")
+@pytest.mark.parametrize("sig", ["SIGKILL", "SIGTERM"])
+def test_workers_die_with_a_killed_scan_and_write_nothing_after(tmp_path, sig):
+    """kill -9 (or SIGTERM) of a parallel `masstrail scan`: its worker processes end within
+    two seconds and no result file is written after that."""
+    import shutil
+    import signal
+    import time
+
+    root = tmp_path / "nb"
+    shutil.copytree(EXAMPLES, root, ignore=shutil.ignore_patterns("*.waste.*", ".masstrail"))
+    entries = [p for p in root.rglob("*.md") if "templates" not in p.parts]
+    for i in range(40):  # 200 entries: the workers are busy for seconds
+        for p in entries:
+            shutil.copy(p, p.with_name(f"{p.stem}-c{i}{p.suffix}"))
+    scan = subprocess.Popen([sys.executable, "-c", "from capture.cli import main; main()",
+                             "scan", "--jobs", "2", str(root)], stdout=subprocess.DEVNULL,
+                            stderr=subprocess.DEVNULL)  # fmt: skip
+    deadline = time.monotonic() + 60
+    workers: set[int] = set()
+    while time.monotonic() < deadline and not list(root.rglob("*-c1*.waste.json")):
+        workers |= _children(scan.pid)
+        time.sleep(0.05)
+    workers |= _children(scan.pid)
+    assert len(workers) >= 2, "the scan did not start its workers"
+    scan.send_signal(getattr(signal, sig))
+    scan.wait(timeout=10)
+    time.sleep(2.0)
+    alive = [w for w in workers if (f := _stat(w)) is not None and f[0] != "Z"]
+    assert alive == [], f"workers still running after the scan was killed: {alive}"
+    written = {p: p.stat().st_mtime_ns for p in root.rglob("*.waste.json")}
+    time.sleep(1.0)
+    assert {p: p.stat().st_mtime_ns for p in root.rglob("*.waste.json")} == written
