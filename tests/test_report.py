@@ -152,3 +152,23 @@ def test_cards_are_capped_and_the_worst_entries_get_them(lab, tmp_path):
         "ORDER BY g.blocking DESC, g.major DESC, g.minor DESC, e.date DESC LIMIT 3"
     ).fetchall()
     assert [f'id="entry-{i}"' in html for (i,) in worst] == [True, True, True]
+
+
+def test_a_name_with_dollar_signs_is_drawn_as_text(tmp_path):
+    """'$…$' is matplotlib's math markup; a material named '$\\alpha$-pinene$' or 'Cu$_2$O' must
+    not break the report."""
+    from helpers import entry_md
+
+    root = tmp_path / "nb"
+    root.mkdir()
+    (root / "e.md").write_text(
+        entry_md("""
+        title: dollars
+        product: {name: p, mass: 1.00 g}
+        materials: [{name: "$\\\\frac{1}{$x", amount: 2.0 g}, {name: "Cu$_2$O", amount: 1 g}]
+        """)
+    )
+    out = tmp_path / "r.html"
+    res = CliRunner().invoke(cli, ["report", str(root), "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    assert out.read_text().count("<svg") >= 2  # the charts were drawn

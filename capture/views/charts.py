@@ -17,6 +17,12 @@ def _svg(fig) -> str:
     return text[text.index("<svg") :]  # drop the XML prolog and DOCTYPE: inline SVG
 
 
+def _plain(labels: list[str]) -> list[str]:
+    """Labels as plain text: matplotlib reads '$…$' as math and fails on what is not (a
+    material named '$X$'), so every dollar sign is escaped."""
+    return [str(x).replace("$", r"\$") for x in labels]
+
+
 def bar_chart(labels: list[str], values: list[float], xlabel: str, width: float = 6.0) -> str:
     """A horizontal bar chart as inline SVG."""
     import matplotlib
@@ -27,7 +33,7 @@ def bar_chart(labels: list[str], values: list[float], xlabel: str, width: float 
     plt.rcParams["svg.fonttype"] = "none"  # text stays text in the SVG
     plt.rcParams["svg.hashsalt"] = "masstrail"  # the same data gives the same file
     fig, ax = plt.subplots(figsize=(width, 0.35 * len(labels) + 0.8))
-    ax.barh(labels[::-1], values[::-1], color="#4a7a8c")
+    ax.barh(_plain(labels)[::-1], values[::-1], color="#4a7a8c")
     ax.set_xlabel(xlabel)
     for side in ("top", "right"):
         ax.spines[side].set_visible(False)
@@ -53,7 +59,7 @@ class CardChart:
             self.fig, self.ax = plt.subplots()
         ax = self.ax
         ax.clear()
-        labels, values = list(cats), list(cats.values())
+        labels, values = _plain(list(cats)), list(cats.values())
         self.fig.set_size_inches(4.5, 0.35 * len(labels) + 0.8)
         ax.barh(labels[::-1], values[::-1], color="#4a7a8c")
         ax.set_xlabel("input mass, g")
