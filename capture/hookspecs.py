@@ -567,19 +567,19 @@ def masstrail_flush_results(root: Path, config: LabConfig) -> None:
 
 @hookspec
 def masstrail_scan_done(
-    root: Path, config: LabConfig, present: list[str], written: list[str]
+    root: Path, config: LabConfig, present: list[str], written: list[str], outputs: list[str]
 ) -> None:
     """A scan has handed over all its results.
 
-    Called once at the end of every scan that writes, after
-    ``masstrail_flush_results``. Writers drop what they keep of entries that are no
-    longer in the notebook.
+    Called once at the end of every scan that writes, after ``masstrail_flush_results``.
+    Writers drop what they keep of entries that are no longer in the notebook.
 
     :param root: the notebook root.
     :param config: the lab configuration.
     :param present: the relative paths of every entry the scan saw.
-    :param written: every file the scan's writers wrote, in this process or in its
-        workers (the sidecar writer fsyncs their folders, once each).
+    :param written: every file the scan's writers wrote, here or in workers.
+    :param outputs: every result file (``*.waste.json``, ``*.waste.md``) the scan's walk
+        found, before it wrote: those of entries no longer present are orphans.
     :returns: nothing.
     """
 

@@ -12,7 +12,7 @@ import pluggy
 from capture.config import LabConfig, load_config
 from capture.fingerprint import Fingerprints
 from capture.models import MaterialInfo, Result
-from capture.paths import EntryRule
+from capture.paths import EntryRule, is_own_output
 
 
 def flatten(answers) -> list:
@@ -29,6 +29,7 @@ class Notebook:
     pm: pluggy.PluginManager
     _resolved: dict[str, MaterialInfo | None] = field(default_factory=dict)
     unnamed: list[str] = field(default_factory=list, init=False)  # see entry_files
+    outputs: list[str] = field(default_factory=list, init=False)  # result files entry_files saw
 
     @classmethod
     def open(cls, root: Path, pm: pluggy.PluginManager | None = None) -> Notebook:
@@ -49,9 +50,10 @@ class Notebook:
     def entry_files(self) -> list[Path]:
         """Every entry file under the root, sorted by folder, then name. Files and folders
         whose names are not UTF-8 (no result could name them) are left out and listed in
-        :attr:`unnamed`, escaped, so the caller can say so."""
+        :attr:`unnamed`, escaped, so the caller can say so; the result files seen on the way
+        are kept in :attr:`outputs`."""
         rule, found = self.rule, []
-        self.unnamed = []
+        self.unnamed, self.outputs = [], []
         top = os.fspath(self.root)
         for dirpath, dirnames, filenames in os.walk(top):
             for bad in [d for d in dirnames if not _utf8(d)]:
@@ -60,6 +62,7 @@ class Notebook:
             rel_dir = dirpath[len(top) + 1 :].replace(os.sep, "/")  # strings: 100,000 files
             folder = Path(dirpath)
             names = sorted(n for n in filenames if rule.file_ok(rel_dir, n))
+            self.outputs += [os.path.join(dirpath, n) for n in filenames if is_own_output(n)]
             self.unnamed += [_escaped(os.path.join(dirpath, n), top) for n in names if not _utf8(n)]
             found += [folder / n for n in names if _utf8(n)]
         return found

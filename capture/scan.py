@@ -133,7 +133,7 @@ def scan(
         notebook.pm.hook.masstrail_flush_results(root=notebook.root, config=notebook.config)
         notebook.pm.hook.masstrail_scan_done(root=notebook.root, config=notebook.config,
                                              present=[s.path for s in summaries],
-                                             written=written)  # fmt: skip
+                                             written=written, outputs=notebook.outputs)  # fmt: skip
         if basis != last_basis:
             write_basis(notebook.root, basis)
     return ScanReport(notebook.root, results, written, summaries, basis_changes=changes,

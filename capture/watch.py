@@ -172,9 +172,9 @@ class Watcher:
         if serious:
             self.nb.pm.hook.masstrail_notify(result=result, gaps=serious, config=self.nb.config)
 
-    def _removed(self, path: Path) -> None:
+    def _removed(self, path: Path, known: bool = False) -> None:
         rel = self.nb.relpath(path)
-        if rel not in self.summaries and not sidecar_path(path).exists():
+        if not known and rel not in self.summaries and not sidecar_path(path).exists():
             return
         self.summaries.pop(rel, None)
         self.open_gaps.pop(path, None)
@@ -229,7 +229,7 @@ class Watcher:
             if s.logs:
                 self._note_logs(self.root / s.path, s.logs)
         for rel in set(known) - set(self.summaries):
-            self._removed(self.root / rel)
+            self._removed(self.root / rel, known=True)  # its files may be gone with the scan
         if report.basis_note():
             self.echo(f"{time.strftime('%H:%M:%S')} {report.basis_note()}")
         if report.unnamed and set(report.unnamed) != self.unnamed:

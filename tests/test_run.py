@@ -510,3 +510,21 @@ def test_the_work_and_output_per_entry_are_bounded(notebook):
     assert "those of logs/bal.csv after its first 20 were not read" in gap["message"]
     more = next(g for g in log["gaps"] if g["kind"] == "more_gaps")
     assert len(log["gaps"]) == 10 and more["item"].endswith("more gaps")
+
+
+def test_a_scan_removes_the_results_of_entries_that_are_gone_and_only_its_own(notebook):
+    notebook.write("masstrail.toml", "[output]\ncard = true\n")
+    notebook.write("a.md", GOOD)
+    gone = notebook.write("sub/b.md", GOOD)
+    notebook.scan()
+    assert (notebook.root / "sub/b.waste.json").exists() and (
+        notebook.root / "sub/b.waste.md"
+    ).exists()
+    gone.unlink()  # deleted while no watcher ran
+    foreign = notebook.write("c.waste.json", '{"made by": "another tool"}')
+    mine = notebook.write("d.waste.md", "# Notes on the waste drum\n")
+    notebook.scan()
+    assert not (notebook.root / "sub/b.waste.json").exists()
+    assert not (notebook.root / "sub/b.waste.md").exists()
+    assert foreign.exists() and mine.exists()  # not masstrail's: left alone
+    assert (notebook.root / "a.waste.json").exists()

@@ -387,3 +387,18 @@ def test_a_file_name_that_is_not_utf8_does_not_stop_the_watcher(notebook, watche
     entry.write_text(ENTRY.replace("1.00 g", "1.10 g"))
     w.wait_for(lambda: _mass(entry) == 1.1, what="the next save")
     assert w.proc.poll() is None  # still running
+
+
+def test_a_delete_just_before_sigterm_is_not_lost(notebook, watched):
+    """An entry deleted a moment before the watcher is stopped: its results are removed by
+    the next start's catch-up (a scan drops results whose entry is gone)."""
+    notebook.write("masstrail.toml", "[store]\nenabled = false\n")
+    entry = notebook.write("e.md", ENTRY)
+    notebook.write("f.md", ENTRY)
+    w = watched("--settle", "2")
+    entry.unlink()
+    w.stop()  # the delete is still settling
+    assert (notebook.root / "e.waste.json").exists()
+    watched()
+    assert not (notebook.root / "e.waste.json").exists()
+    assert (notebook.root / "f.waste.json").exists()

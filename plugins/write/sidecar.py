@@ -107,6 +107,32 @@ def sync_folders(written: list[str]) -> None:
         sync_folder(_unsynced.pop())
 
 
+@hookimpl(specname="masstrail_scan_done")
+def remove_orphans(root: Path, present: list[str], outputs: list[str]) -> None:
+    """Result files whose entry is gone (deleted while no watcher ran) are removed, when they
+    are masstrail's own: a JSON result with masstrail's format, a card with its heading."""
+    import contextlib
+    import os
+
+    expected = set()
+    for rel in present:
+        entry = os.path.join(os.fspath(root), *rel.split("/"))
+        expected |= {os.fspath(sidecar_path(Path(entry))), os.fspath(card_path(Path(entry)))}
+    for out in outputs:
+        if out not in expected and _ours(Path(out)):
+            with contextlib.suppress(OSError):
+                os.unlink(out)
+
+
+def _ours(path: Path) -> bool:
+    text = read_small(path, 256 * 2**20)
+    if text is None:
+        return False
+    if path.name.endswith(SIDECAR_SUFFIX):
+        return text.lstrip().startswith("{") and '"format": "masstrail-result/' in text[:200]
+    return text.startswith("# Waste record:") and "Written by masstrail" in text[:2000]
+
+
 @hookimpl(trylast=True, specname="masstrail_previous_gaps")
 def gaps_in_sidecar(root: Path, relpath: str, config: LabConfig) -> list[tuple[str, str]] | None:
     """The gaps of the entry's sidecar, when it holds a readable result."""
