@@ -142,6 +142,26 @@ _BODY = re.compile(
 )
 
 
+_SUPERSCRIPT = re.compile(r"[⁰¹²³⁴⁵⁶⁷⁸⁹₀₁₂₃₄₅₆₇₈₉]")
+_FRACTION = re.compile(r"[½⅓⅔¼¾⅕⅖⅗⅘⅙⅚⅛⅜⅝⅞⁄]")
+_EXPONENT = re.compile(r"\d(?:[.,]\d+)?\s*[eE][-+−]?\d")
+
+
+def _refuse_odd_numbers(text: str) -> None:
+    """Numbers that NFKC would turn into other numbers ('10²' into 102, '½' into '1⁄2') or
+    that a unit reader would misread ('1e3 g') are refused, saying what is wrong."""
+    if m := _SUPERSCRIPT.search(text):
+        raise AmountError(f"{text!r}: the number has a superscript or subscript digit "
+                          f"({m.group(0)}); write it out in plain digits, e.g. '100 mL' for "
+                          "10² mL")  # fmt: skip
+    if m := _FRACTION.search(text):
+        raise AmountError(f"{text!r}: the number is written with a fraction sign ({m.group(0)});"
+                          " write it as a decimal, e.g. '0.5 g' or '2.5 g'")  # fmt: skip
+    if _EXPONENT.search(text):
+        raise AmountError(f"{text!r}: the number is in exponent notation; write it out as a "
+                          "decimal in a suitable unit, e.g. '1.5 mg' for 1.5e-3 g")  # fmt: skip
+
+
 def _number(raw: str, whole: str) -> float:
     if "," in raw:
         head, _, tail = raw.partition(",")
@@ -191,6 +211,7 @@ def parse_amount(text: str, span: tuple[int, int] | None = None) -> AmountMentio
         if value > 0:
             return AmountMention(value=value, unit=CANONICAL[kind], kind=kind, text=text, span=span)
     original = text
+    _refuse_odd_numbers(text)
     s = normalise(text)
     if not s:
         raise AmountError("the amount is empty")

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import contextlib
+import re
 
 import pytest
 from hypothesis import example, given
@@ -116,3 +117,36 @@ def test_only_our_error_escapes(text):
 @given(st.text(max_size=30))
 def test_normalise_is_idempotent(text):
     assert normalise(normalise(text)) == normalise(text)
+
+
+@pytest.mark.parametrize(
+    ("text", "says"),
+    [("10² mL", "superscript or subscript digit (²)"), ("½ g", "fraction sign (½)"),
+     ("2 ½ g", "fraction sign (½)"), ("1e308 g", "exponent notation"),
+     ("1.5e-3 g", "exponent notation")],
+)  # fmt: skip
+def test_numbers_unicode_would_change_are_refused_saying_why(text, says):
+    """NFKC would read '10²' as 102 and '½' as '1⁄2': never a silent wrong number."""
+    with pytest.raises(AmountError, match=re.escape(says)):
+        parse_amount(text)
+
+
+def test_odd_numbers_in_front_matter_and_text_are_named_never_misread(notebook):
+    notebook.write(
+        "e.md",
+        """
+        ---
+        title: odd numbers
+        product: {name: p, mass: 1.00 g}
+        materials: [{name: A, amount: 2.00 g}, {name: water, amount: 10² mL}]
+        ---
+        Then ½ g of the salt was added, and brine (10² mL).
+        """,
+    )
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    water = next(m for m in side["materials"] if m["name"] == "water")
+    assert water["mass_g"] is None and "superscript" in water["problem"]
+    unread = {g["item"]: g["message"] for g in side["gaps"] if g["kind"] == "unread_amount"}
+    assert "fraction sign" in unread["½ g"] and "superscript" in unread["10² mL"]
+    assert all(m["mass_g"] != 102 for m in side["materials"])

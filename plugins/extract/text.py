@@ -85,7 +85,7 @@ _PASSIVE_PRODUCT = re.compile(
 _GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtracking
 # "… and the product was recrystallised": an operation after this belongs to another clause
 _NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
-_DIGIT = re.compile(r"\d")
+_DIGIT = re.compile(r"[\d½⅓⅔¼¾⅛⅜⅝⅞]")  # a number, or a fraction sign
 _PER = re.compile(r"\s*(?:per|for\s+each)\s", re.I)
 _PERCENT_REMARK = re.compile(r"\d+(?:[.,]\d+)?\s*%\s+\w")  # "(35% calculated from …)"
 # "a SNAP 25 g column", "(330g column)": a prepacked column is sold by its silica's mass
@@ -118,7 +118,8 @@ _LEDGER_UNITS = "|".join(
 )  # fmt: skip (the micro sign U+00B5 is written as often as the Greek mu)
 _QUANTITY = re.compile(
     r"(?<![\w.,/-])(?P<q>(?P<more>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?(?:\d+\s*[×xX*]\s*)?)"
-    r"(?P<num>\d+(?:[.,]\d+)?|[.,]\d+)(?P<range>\s*(?:-|–|—|to)\s*\d+(?:[.,]\d+)?)?"
+    r"(?P<num>\d+(?:[.,]\d+)?(?:[eE][-+]?\d+|[⁰¹²³⁴⁵⁶⁷⁸⁹]+)?|[.,]\d+|(?:\d+\s?)?[½⅓⅔¼¾⅛⅜⅝⅞])"
+    r"(?P<range>\s*(?:-|–|—|to)\s*\d+(?:[.,]\d+)?)?"
     rf"\s*(?P<unit>{_LEDGER_UNITS}))(?![\w/])(?P<dot>\.(?!\d))?"
     r"(?:\s*[×x]\s*(?P<times>\d)(?![\d.]))?"
 )
@@ -234,7 +235,8 @@ def _read_quantity(m: re.Match, offset: int) -> AmountMention | None:
     span = (offset + m.start(), offset + m.start() + len(written))
     num = m.group("num")
     amount = None
-    if not (m.group("more") or m.group("range") or "," in num):  # "2.76 g": the fast path
+    if not (m.group("more") or m.group("range") or "," in num) and num.isascii() and \
+            num.replace(".", "").isdigit():  # "2.76 g": the fast path  # fmt: skip
         amount = plain_amount(num, m.group("unit"), m.group("q"), span)
     if amount is None:
         try:
@@ -535,10 +537,19 @@ class _Reading:
             if any(x < b and a < y for x, y in taken):
                 continue
             amounts = [q.amount] if q.amount else []
-            problem = None if q.amount else f"{q.text!r} could not be read as an amount"
+            problem = None if q.amount else _why_not(q.text)
             self._add(q.text, amounts, "unread", q.start, problem=problem, stated=q.text)
         for q in self.tail:
             self._add(q.text, [q.amount] if q.amount else [], "characterisation", q.start)
+
+
+def _why_not(text: str) -> str:
+    """Why a quantity of the text could not be read (the amount reader's words)."""
+    try:
+        parse_amount(text)
+    except AmountError as exc:
+        return str(exc)
+    return f"{text!r} could not be read as an amount"
 
 
 def _first_position(line: MaterialLine) -> int:
