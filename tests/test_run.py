@@ -528,3 +528,34 @@ def test_a_scan_removes_the_results_of_entries_that_are_gone_and_only_its_own(no
     assert not (notebook.root / "sub/b.waste.md").exists()
     assert foreign.exists() and mine.exists()  # not masstrail's: left alone
     assert (notebook.root / "a.waste.json").exists()
+
+
+def test_html_in_an_entry_is_text_in_its_card_and_the_audit_handout(notebook, tmp_path):
+    """A title or material name holding HTML is written as text (entities) in the Markdown
+    outputs, as the HTML report already escapes it: a Markdown viewer shows, not runs, it."""
+    from click.testing import CliRunner
+
+    from capture.cli import cli
+
+    notebook.write("masstrail.toml", "[output]\ncard = true\n")
+    notebook.write(
+        "e.md",
+        """
+        ---
+        title: "<script>alert(1)</script>"
+        group: Alder
+        product: {name: p, mass: 1.00 g}
+        materials: [{name: "<img src=x onerror=alert(2)>", amount: 2.00 g}, {name: B}]
+        ---
+        """,
+    )
+    notebook.scan()
+    card = (notebook.root / "e.waste.md").read_text()
+    assert "<script>" not in card and "<img" not in card
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in card and "&lt;img src=x" in card
+    handout = tmp_path / "audit.md"
+    res = CliRunner().invoke(cli, ["audit", str(notebook.root), "--group", "Alder", "--markdown",
+                                   str(handout)])  # fmt: skip
+    assert res.exit_code == 0, res.output
+    text = handout.read_text()
+    assert "<script>" not in text and "&lt;script&gt;" in text

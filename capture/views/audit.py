@@ -108,16 +108,9 @@ def audit(results: Iterable[Result], group: str) -> GroupAudit:
 
 def audit_markdown(report: GroupAudit, caution: str) -> str:
     """The audit as a Markdown handout (Jinja2 template ``templates/audit.md.j2``)."""
-    import jinja2
+    from capture.views.filters import markdown_environment
 
-    env = jinja2.Environment(
-        loader=jinja2.PackageLoader("capture", "templates"),
-        autoescape=False,
-        keep_trailing_newline=True,
-        trim_blocks=True,
-        lstrip_blocks=True,
-    )
-    return env.get_template("audit.md.j2").render(a=report, caution=caution)
+    return markdown_environment().get_template("audit.md.j2").render(a=report, caution=caution)
 
 
 def audit_notebook(nb: Notebook, group: str) -> GroupAudit:

@@ -50,3 +50,27 @@ def figure_text(x: float | None, spec: str = ".3g") -> str:
     if abs(x) >= 1000:
         return f"{x:,.0f}"
     return format(x, spec)
+
+
+def markdown_text(value: object) -> object:
+    """A value as plain text in Markdown: HTML in an entry (``<script>``, ``<img onerror=…>``)
+    is shown, not run, by a Markdown viewer, and a ``|`` does not split a table cell."""
+    if value is None or isinstance(value, (int, float)):
+        return value
+    text = str(value)
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;").replace("|", "\\|")
+
+
+def markdown_environment():
+    """The Jinja2 environment of masstrail's Markdown outputs (cards, audit handouts): every
+    value is written through :func:`markdown_text`."""
+    import jinja2
+
+    return jinja2.Environment(
+        loader=jinja2.PackageLoader("capture", "templates"),
+        autoescape=False,  # Markdown, not HTML: values are made safe by finalize
+        finalize=markdown_text,
+        keep_trailing_newline=True,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )

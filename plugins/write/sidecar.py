@@ -19,16 +19,9 @@ from capture.safeio import atomic_write, holds, read_small, replace_atomically, 
 
 @functools.lru_cache(maxsize=1)
 def _card_template():
-    import jinja2
+    from capture.views.filters import markdown_environment
 
-    env = jinja2.Environment(
-        loader=jinja2.PackageLoader("capture", "templates"),
-        autoescape=False,  # Markdown, not HTML
-        keep_trailing_newline=True,
-        trim_blocks=True,
-        lstrip_blocks=True,
-    )
-    return env.get_template("card.md.j2")
+    return markdown_environment().get_template("card.md.j2")
 
 
 def render_card(result: Result) -> str:
