@@ -2,8 +2,8 @@
 
 How it works (the evidence behind each point is in shared RELIABILITY.md):
 
-1. **One watcher per notebook.** ``.masstrail/watch.lock`` holds the PID; a second
-   watcher exits with a message; a lock left by a crashed watcher is taken over.
+1. **One watcher per notebook.** An OS lock on ``.masstrail/watch.lock`` (one atomic call,
+   released by the OS however the watcher ends); a second watcher exits with a message.
 2. **Catch up first, with a scan.** The catch-up and the periodic rescans are reusing
    scans (:func:`capture.scan.scan`): the same entry rule and the same "is this result
    current" rule (the fingerprint of the entry, its balance logs, the lab config and the
@@ -37,6 +37,7 @@ import signal
 import threading
 import time
 from collections.abc import Callable
+from dataclasses import dataclass
 from pathlib import Path
 
 from capture.models import EntrySummary, Result
@@ -52,47 +53,59 @@ class WatchError(Exception):
 
 
 # ------------------------------------------------------------------ the lock
-def _alive(pid: int) -> bool:
+@dataclass
+class Lock:
+    """The watcher's hold on its notebook: an OS lock on ``.masstrail/watch.lock`` (flock on
+    POSIX, msvcrt on Windows), held by an open file for the watcher's life. Taking it is one
+    atomic call, so two watchers starting at the same instant cannot both hold it, and the
+    OS lets go when the process ends however it ends (kill -9 included): a lock file left
+    behind is never "stale". The file says which process holds it, for the message."""
+
+    path: Path
+    fd: int
+
+
+def _try_lock(fd: int) -> bool:
     try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
+        if os.name == "nt":
+            import msvcrt
+
+            msvcrt.locking(fd, msvcrt.LK_NBLCK, 1)
+        else:
+            import fcntl
+
+            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
         return False
-    except PermissionError:
-        return True
     return True
 
 
-def acquire_lock(root: Path) -> Path:
-    """Take ``.masstrail/watch.lock``; WatchError if a live watcher holds it."""
+def acquire_lock(root: Path) -> Lock:
+    """Take the notebook's watcher lock; WatchError if another watcher holds it."""
     state = root / STATE_DIR
     state.mkdir(exist_ok=True)
-    lock = state / LOCK_NAME
-    for _ in range(3):
+    path = state / LOCK_NAME
+    fd = os.open(path, os.O_RDWR | os.O_CREAT | getattr(os, "O_NOFOLLOW", 0), 0o644)
+    if not _try_lock(fd):
         try:
-            fd = os.open(lock, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
-        except FileExistsError:
-            try:
-                pid = int(json.loads(lock.read_text())["pid"])
-            except (OSError, ValueError, KeyError, TypeError):
-                pid = -1
-            if pid > 0 and pid != os.getpid() and _alive(pid):
-                raise WatchError(
-                    f"another masstrail watcher (pid {pid}) is already watching {root}; "
-                    f"stop it first, or remove {lock} if that process is not masstrail"
-                ) from None
-            with contextlib.suppress(FileNotFoundError):
-                lock.unlink()  # stale: its process is gone
-            continue
-        with os.fdopen(fd, "w") as fh:
-            json.dump({"pid": os.getpid(), "started": time.time()}, fh)
-        return lock
-    raise WatchError(f"could not take the lock {lock}")
+            pid = json.loads(os.pread(fd, 4096, 0) or b"{}").get("pid", "?")
+        except (OSError, ValueError, AttributeError):
+            pid = "?"
+        os.close(fd)
+        raise WatchError(f"another masstrail watcher (pid {pid}) is already watching {root}; "
+                         "stop it first")  # fmt: skip
+    os.ftruncate(fd, 0)
+    os.pwrite(fd, json.dumps({"pid": os.getpid(), "started": time.time()}).encode(), 0)
+    return Lock(path, fd)
 
 
-def release_lock(lock: Path) -> None:
-    with contextlib.suppress(OSError, ValueError, KeyError):
-        if json.loads(lock.read_text())["pid"] == os.getpid():
-            lock.unlink()
+def release_lock(lock: Lock) -> None:
+    """Let go of the lock (the file stays: removing it could let a third watcher lock a new
+    file while a second still waits on the old one)."""
+    with contextlib.suppress(OSError):
+        os.ftruncate(lock.fd, 0)
+    with contextlib.suppress(OSError):
+        os.close(lock.fd)  # closing releases the OS lock
 
 
 # ------------------------------------------------------------------ the watcher

@@ -172,7 +172,27 @@ def test_one_watcher_per_notebook_and_a_stale_lock_is_recovered(notebook, watche
     w2 = watched()
     assert _mass(entry) == 1.5  # caught up at restart
     assert json.loads(lock.read_text())["pid"] == w2.proc.pid
-    assert w2.stop() == 0 and not lock.exists() and "watcher stopped" in w2.lines[-1]
+    assert w2.stop() == 0 and lock.read_text() == "" and "watcher stopped" in w2.lines[-1]
+
+
+def test_watchers_started_at_the_same_instant_never_both_hold_the_lock(notebook):
+    """The lock is one atomic OS call: of several watchers started together, exactly one
+    watches and the others say another one is already watching (three trials)."""
+    notebook.write("e.md", ENTRY)
+    cmd = [sys.executable, "-c", "from capture.cli import main; main()", "watch",
+           str(notebook.root), "--rescan", "30"]  # fmt: skip
+    for _ in range(3):
+        procs = [subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+                 for _ in range(5)]  # fmt: skip
+        time.sleep(4)
+        running = [p for p in procs if p.poll() is None]
+        for p in procs:
+            if p.poll() is None:
+                p.send_signal(signal.SIGTERM)
+        outs = [p.communicate(timeout=20) for p in procs]
+        assert len(running) == 1, [o[1][-200:] for o in outs]
+        refused = [o for p, o in zip(procs, outs, strict=True) if p not in running]
+        assert all("already watching" in err for _, err in refused)
 
 
 def test_polling_mode_and_an_idle_notebook_stays_idle(notebook, watched):
