@@ -283,6 +283,8 @@ def _yaml_advice(exc: yaml.YAMLError, text: str, line_offset: int) -> str | None
         bracket = "[" if "]" in problem else "{"
         return (f'a "{bracket}" opened on {opened} is not closed: close it, or put a value that '
                 f'starts with "{bracket}" in quotes')  # fmt: skip
+    if "nesting depth" in problem:
+        return "lists and mappings nest too deep here; an entry needs a few levels"
     if "tab character" in problem:
         return "a tab is used for indentation; indent with spaces"
     if "quoted scalar" in context:
@@ -310,8 +312,38 @@ def _no_constants(name: str) -> Any:
     raise InputError(f"{name} is not a number masstrail accepts")
 
 
+MAX_DEPTH = 64  # lists and mappings within each other: an entry needs a handful
+
+
+def _too_deep(text: str, most: int) -> int | None:
+    """The offset where JSON text nests deeper than ``most``, or None (strings skipped)."""
+    depth, in_string, escaped = 0, False, False
+    for i, c in enumerate(text):
+        if in_string:
+            if escaped:
+                escaped = False
+            elif c == "\\":
+                escaped = True
+            elif c == '"':
+                in_string = False
+        elif c == '"':
+            in_string = True
+        elif c in "[{":
+            depth += 1
+            if depth > most:
+                return i
+        elif c in "]}":
+            depth -= 1
+    return None
+
+
 def load_json(text: str) -> Any:
-    """Load JSON strictly: no NaN/Infinity, no duplicate keys; errors name the line."""
+    """Load JSON strictly: no NaN/Infinity, no duplicate keys, at most ``MAX_DEPTH`` levels
+    of nesting; errors name the line."""
+    if text.count("[") + text.count("{") > MAX_DEPTH and (at := _too_deep(text, MAX_DEPTH)):
+        line = text.count("\n", 0, at) + 1
+        raise InputError(f"invalid JSON: lists and objects nest more than {MAX_DEPTH} levels "
+                         "deep; an entry needs a few", location=f"line {line}")  # fmt: skip
     try:
         return json.loads(text, object_pairs_hook=_no_duplicates, parse_constant=_no_constants)
     except json.JSONDecodeError as exc:

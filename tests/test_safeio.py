@@ -179,3 +179,16 @@ def test_a_broken_yaml_line_is_explained_in_the_chemist_s_words(text, line, advi
     assert err.value.location == f"line {line}"
     assert err.value.message.startswith(f"invalid YAML: {advice}")
     assert "(the YAML reader says:" in err.value.message
+
+
+def test_deep_nesting_is_an_input_error_with_a_line_not_an_internal_error():
+    """1,000 levels of lists: JSON is refused before the parser recurses, YAML by LibYAML's
+    depth limit, both with a line and a message in plain words."""
+    deep = "[" * 1000 + "]" * 1000
+    with pytest.raises(InputError) as err:
+        load_json('{"title": "t",\n"x": ' + deep + "}")
+    assert err.value.location == "line 2" and "nest more than 64 levels" in err.value.message
+    with pytest.raises(InputError) as err:
+        load_yaml("title: t\nx: " + deep + "\n")
+    assert err.value.location == "line 2" and "nest too deep" in err.value.message
+    assert load_json('{"s": "[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[["}')
