@@ -175,24 +175,41 @@ def test_one_watcher_per_notebook_and_a_stale_lock_is_recovered(notebook, watche
     assert w2.stop() == 0 and lock.read_text() == "" and "watcher stopped" in w2.lines[-1]
 
 
+def _take_lock_at(root: str, at: float, results) -> None:
+    from capture.watch import WatchError, acquire_lock, release_lock
+
+    while time.time() < at:  # every process tries at the same instant
+        pass
+    try:
+        lock = acquire_lock(Path(root))
+    except WatchError:
+        results.put("refused")
+        return
+    results.put("held")
+    time.sleep(0.3)
+    release_lock(lock)
+
+
 def test_watchers_started_at_the_same_instant_never_both_hold_the_lock(notebook):
-    """The lock is one atomic OS call: of several watchers started together, exactly one
-    watches and the others say another one is already watching (three trials)."""
-    notebook.write("e.md", ENTRY)
-    cmd = [sys.executable, "-c", "from capture.cli import main; main()", "watch",
-           str(notebook.root), "--rescan", "30"]  # fmt: skip
-    for _ in range(3):
-        procs = [subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-                 for _ in range(5)]  # fmt: skip
-        time.sleep(4)
-        running = [p for p in procs if p.poll() is None]
+    """Taking the lock is one atomic OS call: of eight processes that try at the same
+    instant, exactly one holds it (ten trials; the lock file that an earlier watcher left
+    behind, or none, makes no difference)."""
+    import multiprocessing
+
+    ctx = multiprocessing.get_context("fork")
+    for trial in range(10):
+        if trial % 2:
+            (notebook.root / ".masstrail" / "watch.lock").unlink(missing_ok=True)
+        results = ctx.Queue()
+        at = time.time() + 0.3
+        procs = [ctx.Process(target=_take_lock_at, args=(str(notebook.root), at, results))
+                 for _ in range(8)]  # fmt: skip
         for p in procs:
-            if p.poll() is None:
-                p.send_signal(signal.SIGTERM)
-        outs = [p.communicate(timeout=20) for p in procs]
-        assert len(running) == 1, [o[1][-200:] for o in outs]
-        refused = [o for p, o in zip(procs, outs, strict=True) if p not in running]
-        assert all("already watching" in err for _, err in refused)
+            p.start()
+        got = sorted(results.get(timeout=10) for _ in procs)
+        for p in procs:
+            p.join(timeout=10)
+        assert got.count("held") == 1, (trial, got)
 
 
 def test_polling_mode_and_an_idle_notebook_stays_idle(notebook, watched):
