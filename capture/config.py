@@ -185,6 +185,13 @@ class StoreSettings(_Section):
     )
 
 
+class OrdSettings(_Section):
+    creator: str | None = Field(
+        None,
+        description='who creates exported ORD records, "Name <email>" (the standard needs both)',
+    )
+
+
 class PluginSettings(_Section):
     block: list[str] = Field(default_factory=list, description="plugin names not to load")
 
@@ -206,6 +213,7 @@ class LabConfig(_Section):
     waste_streams: WasteStreamSettings = Field(default_factory=WasteStreamSettings)
     hazard_weights: HazardWeights = Field(default_factory=HazardWeights)
     store: StoreSettings = Field(default_factory=StoreSettings)
+    ord: OrdSettings = Field(default_factory=OrdSettings)
     source: str | None = Field(None, exclude=True, description="the file this was read from")
 
 

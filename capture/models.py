@@ -160,6 +160,11 @@ class Entry(BaseModel):
     materials: list[StructuredMaterial] = Field(default_factory=list)
     table_materials: list[StructuredMaterial] = Field(default_factory=list)
     recovered: list[Recovered] = Field(default_factory=list)
+    amounts_from_text: bool = Field(
+        True,
+        description="false: the front matter lists every amount; the body (its text and its "
+        "tables) only describes",
+    )
     body: str = ""
     extra: dict[str, Any] = Field(default_factory=dict)
 

@@ -62,11 +62,7 @@ def process_entry(nb: Notebook, path: Path) -> Result:
     stat = file_stat(path)  # before the read: a change after it shows in the next stat
     try:
         data = read_bounded(path, nb.config.scan.max_entry_bytes)
-        entry = nb.pm.hook.masstrail_read_entry(path=path, data=data, relpath=rel,
-                                                config=nb.config)  # fmt: skip
-        if entry is None:
-            raise InputError("no reader for this kind of file")
-        result = compute(nb, entry)
+        result = compute(nb, read_entry(nb, path, data, rel))
     except InputError as exc:
         result = error_result(path, rel, _sha(data), exc.message, exc.location)
     except Exception as exc:  # a plugin's bug must not stop the scan
@@ -78,6 +74,14 @@ def process_entry(nb: Notebook, path: Path) -> Result:
         )
         result.entry._stat = stat
     return result
+
+
+def read_entry(nb: Notebook, path: Path, data: bytes, rel: str) -> Entry:
+    """The entry in ``data`` (the bytes of ``path``), by the readers; InputError if none can."""
+    entry = nb.pm.hook.masstrail_read_entry(path=path, data=data, relpath=rel, config=nb.config)
+    if entry is None:
+        raise InputError("no reader for this kind of file")
+    return entry
 
 
 def compute(nb: Notebook, entry: Entry) -> Result:

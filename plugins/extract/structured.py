@@ -46,7 +46,8 @@ def _evidence(item: StructuredMaterial, origin: str) -> str:
 def structured_materials(entry: Entry, config: LabConfig) -> list[MaterialLine]:
     """The front matter's and the tables' materials, then the recovered material."""
     lines = []
-    for items, origin in ((entry.materials, "front-matter"), (entry.table_materials, "table")):
+    tables = entry.table_materials if entry.amounts_from_text else []  # the body only describes
+    for items, origin in ((entry.materials, "front-matter"), (tables, "table")):
         for item in items:
             line = line_of(item, origin)
             own = (item.model_extra or {}).get("formula")

@@ -569,5 +569,7 @@ def extract(body: str) -> list[MaterialLine]:
 
 @hookimpl(specname="masstrail_extract_amounts")
 def extract_procedure_amounts(entry: Entry, config: LabConfig) -> list[MaterialLine]:
-    """Read materials and their amounts, and every other quantity, from the procedure text."""
-    return extract(entry.body)
+    """Read materials and their amounts, and every other quantity, from the procedure text
+    (not when the front matter says ``amounts_from_text: false``: a record whose structured
+    fields list every amount, as an imported ORD record)."""
+    return extract(entry.body) if entry.amounts_from_text else []

@@ -32,6 +32,7 @@ KNOWN_KEYS = {
     "uses",
     "materials",
     "recovered",
+    "amounts_from_text",
 }
 
 _NAME_HEADERS = {"material", "materials", "reagent", "reagents", "chemical", "chemicals",
