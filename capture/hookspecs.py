@@ -301,23 +301,23 @@ def masstrail_product(
     entry: Entry,
     mention: MaterialLine | None,
     reading: BalanceMass | None,
+    limiting: MaterialLine | None,
     resolve: Callable[[str], MaterialInfo | None],
     weigh: Callable[[MaterialLine, MaterialInfo | None], None],
     config: LabConfig,
 ) -> ProductFinding | None:
-    """Give the product its mass: from the balance, the front matter or the text.
+    """Give the product its mass: from the balance, the front matter, the text or a yield.
 
     Called once per entry, after the inputs were weighed.
 
-    :param entry: the entry (its ``product``: name, mass, formula, SMILES).
+    :param entry: the entry (its ``product``: name, mass, formula, SMILES, yield).
     :param mention: the product as the text reports it, or None.
     :param reading: the balance's mass for the product, or None.
+    :param limiting: the limiting reagent's line, weighed, or None.
     :param resolve: the material knowledge (name → properties, or None).
-    :param weigh: weighs a line with the given knowledge (``masstrail_assign_mass``),
-        setting its mass and basis in place.
+    :param weigh: weighs a line with the given knowledge, setting its mass and basis.
     :param config: the lab configuration.
-    :returns: the product with its mass (None when not recorded) and the gaps its
-        records raise.
+    :returns: the product with its mass (None when not recorded) and its records' gaps.
 
     Stops at first non-None result.
     """

@@ -127,7 +127,7 @@ def compute(nb: Notebook, entry: Entry) -> Result:
 
     finding = hook.masstrail_product(
         entry=entry, mention=merged.product_mention, reading=placement.product,
-        resolve=resolve, weigh=weigh_product, config=config,
+        limiting=limiting, resolve=resolve, weigh=weigh_product, config=config,
     ) or ProductFinding(product=ProductOut(name=entry.product.name, mass_g=None))  # fmt: skip
     product, gaps = finding.product, gaps + finding.gaps
     reaction = hook.masstrail_reaction_figures(

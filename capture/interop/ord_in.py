@@ -46,7 +46,10 @@ _CUSTOM_ROLES = {"recrystallisation": "recrystallisation", "trituration": "tritu
 
 
 def _text(value: float) -> str:
-    return f"{value:.6g}"
+    """A number in plain decimals (masstrail refuses exponent notation): 5.11e-05 → 0.0000511."""
+    from decimal import Decimal
+
+    return format(Decimal(repr(float(value))).normalize(), "f")
 
 
 def amount_text(amount, r) -> str | None:

@@ -287,6 +287,7 @@ _SCHEMA = """
     CREATE TABLE names (key TEXT PRIMARY KEY, compound INTEGER NOT NULL, own INTEGER NOT NULL)
         WITHOUT ROWID;
     CREATE TABLE formulas (key TEXT PRIMARY KEY, compound INTEGER NOT NULL) WITHOUT ROWID;
+    CREATE TABLE smiles (key TEXT PRIMARY KEY, compound INTEGER NOT NULL) WITHOUT ROWID;
     CREATE TABLE sources (key TEXT PRIMARY KEY, text TEXT NOT NULL);
     CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
 """
@@ -303,6 +304,7 @@ class NameIndex:
         self.keys: dict[str, tuple[int, int]] = {}  # key → (compound, level: 0 best)
         self.shared: set[str] = set()
         self.by_formula: dict[str, list[int]] = {}
+        self.by_smiles: dict[str, list[int]] = {}
 
     def add(self, n: int, names: list[tuple[str, int]], hill: str | None, key_of) -> None:
         if hill:
@@ -366,10 +368,14 @@ def build(out: Path = OUT) -> dict[str, int]:
         counts["estimated densities"] += bool(d and d[1] == "costald")
         index.add(n, names_of(c, idc), hill_formula(formula) if formula else None,
                   lambda name: compact_key(material_key(name)))  # fmt: skip
+        if smiles:  # written as PubChem writes it: a name exactly as given (SMILES keeps case)
+            index.by_smiles.setdefault(smiles, []).append(n)
     names, formulas = index.name_rows(), index.formula_rows()
     db.executemany("INSERT INTO names VALUES (?,?,?)", names)
     db.executemany("INSERT INTO formulas VALUES (?,?)", formulas)
-    counts |= {"names": len(names), "formulas": len(formulas)}
+    smiles = [(k, ns[0]) for k, ns in index.by_smiles.items() if len(ns) == 1]
+    db.executemany("INSERT INTO smiles VALUES (?,?)", smiles)
+    counts |= {"names": len(names), "formulas": len(formulas), "SMILES": len(smiles)}
     db.executemany(
         "INSERT INTO sources VALUES (?,?)", [(k, v.format(v=version)) for k, v in SOURCES.items()]
     )

@@ -26,7 +26,7 @@ ALWAYS_MINOR = {"conflicting_amounts", "conflicting_product_mass", "eluent_compo
                 "balance_reading_date", "balance_row_unreadable", "yield_mismatch"}  # fmt: skip
 ALWAYS_MAJOR = {"yield_above_100", "balance_log_refused", "balance_log_unreadable",
                 "balance_difference_not_positive", "mass_moles_mismatch",
-                "procedure_elsewhere"}  # fmt: skip
+                "procedure_elsewhere", "product_mass_from_yield"}  # fmt: skip
 # the rule that found these knows their weight: a balance and a typed mass a factor of ten apart
 # (a slip) is major, 5-20 % apart minor
 AS_FOUND = {"balance_disagrees"}

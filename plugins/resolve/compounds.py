@@ -13,12 +13,20 @@ module, not a plugin: the ``materials`` resolver uses it.
 from __future__ import annotations
 
 import functools
+import re
 import sqlite3
 import threading
 import tomllib
 from pathlib import Path
 
-from capture.chem import compact_key, hill_formula, looks_like_formula, material_key, molar_mass
+from capture.chem import (
+    compact_key,
+    hill_formula,
+    looks_like_formula,
+    looks_like_smiles,
+    material_key,
+    molar_mass,
+)
 from capture.models import MaterialInfo
 
 DATA = Path(__file__).resolve().parent.parent / "data"
@@ -26,6 +34,7 @@ TABLE = DATA / "compounds.sqlite"
 CURATION = DATA / "curation.toml"
 SOURCE = "masstrail compound table (plugins/data/compounds.sqlite)"
 _HALOGENS = ("F", "Cl", "Br", "I")
+_CHAIN = re.compile(r"(?=.*[CN].*[CNOS])[CNOS]{5,}")  # SMILES of plain atoms, five or more
 _AT_20_C = {"vdi", "perry", "costald"}  # the fits, evaluated at 20 °C; the handbook's may be 25
 _lock = threading.Lock()
 
@@ -87,6 +96,14 @@ def _row_of_formula(name: str) -> tuple | None:
         return _connection().execute(_COLUMNS + " WHERE c.id = ?", found).fetchone()
 
 
+@functools.lru_cache(maxsize=2048)
+def _row_of_smiles(smiles: str) -> tuple | None:
+    """The compound whose SMILES is exactly ``smiles`` as PubChem writes it, if one only."""
+    with _lock:
+        return _connection().execute(_COLUMNS + " JOIN smiles s ON c.id = s.compound "
+                                     "WHERE s.key = ?", (smiles,)).fetchone()  # fmt: skip
+
+
 def look_up(name: str) -> MaterialInfo | None:
     """What the table says of ``name`` (or of the full name of an abbreviation, or of the one
     compound with the formula the name is written as), or None."""
@@ -96,6 +113,9 @@ def look_up(name: str) -> MaterialInfo | None:
         row = _row(compact_key(material_key(abbreviations()[key])))
     if row is None:
         row = _row_of_formula(name.strip())
+    text = name.strip()
+    if row is None and (looks_like_smiles(text) or _CHAIN.fullmatch(text)):
+        row = _row_of_smiles(text)  # "CC(=O)N(C)C", or a chain of atoms ("COCCOC", "CCNCC")
     if row is None:
         return None
     table_name, cas, formula, state, density, density_source, rank = row

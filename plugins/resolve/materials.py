@@ -77,7 +77,10 @@ def resolve_builtin(name: str, config: LabConfig) -> MaterialInfo | None:
         return apply_lab_density(data.info(rec), name, config)
     if material_key(name) in GENERIC_CLASS_NAMES:
         return None  # "the acid" is a class, not one compound
-    info = look_up(name) or _from_smiles(name) or _dilute_solution(name, config)
+    info = look_up(name)
+    if info is not None and (rec := data.index.get(material_key(info.name))) is not None:
+        return apply_lab_density(data.info(rec), name, config)  # "CC1=CC=CC=C1": curated toluene
+    info = info or _from_smiles(name) or _dilute_solution(name, config)
     return None if info is None else apply_lab_density(info, name, config)
 
 

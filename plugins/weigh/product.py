@@ -15,6 +15,7 @@ Plugin ``product`` (``masstrail_product``):
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable
 
 from capture.chem import formula_from_smiles, looks_like_smiles
@@ -56,16 +57,53 @@ def _from_text(entry: Entry, formula: str | None, mention: MaterialLine) -> Prod
     )
 
 
+def _from_yield(
+    p, formula: str | None, limiting: MaterialLine | None, resolve: Callable
+) -> tuple[ProductOut, list[Gap]]:
+    """The product's mass from a stated yield: yield × the limiting reagent's moles × the
+    product's molar mass (a 1:1 reaction assumed, as the yield itself assumes), with a
+    major gap: no mass was recorded. Without the moles or the molar mass, no mass."""
+    m = re.fullmatch(r"\s*(\d+(?:\.\d+)?)\s*%?\s*", str(p.model_extra["yield"]))
+    info = info_from_formula(p.name or "product", formula) if formula else (
+        resolve(p.name) if p.name else None)  # fmt: skip
+    mw = info.molar_mass if info else None
+    out = ProductOut(name=p.name, mass_g=None, formula=formula, molar_mass=mw)
+    if m is None or limiting is None or not limiting.moles_mmol or not mw:
+        missing = (
+            "a yield that can be read"
+            if m is None
+            else "a limiting reagent with moles"
+            if limiting is None or not limiting.moles_mmol
+            else "the product's molar mass"
+        )
+        return out, [Gap(kind="product_mass_missing", item=p.name or "product", severity="blocking",
+                         evidence=f"product: yield {p.model_extra['yield']}",
+                         message=f"no product mass was recorded, and the stated yield cannot "
+                         f"give one without {missing}; weigh the product and record its "
+                         "mass")]  # fmt: skip
+    grams = float(m.group(1)) / 100 * limiting.moles_mmol * mw / 1000
+    basis = (f"derived: yield {m.group(1)} % × {limiting.moles_mmol:g} mmol of {limiting.name} "
+             f"(limiting) × {mw:g} g/mol; no mass was recorded")  # fmt: skip
+    out = out.model_copy(update={"mass_g": round(grams, 4), "basis": basis})
+    return out, [Gap(kind="product_mass_from_yield", item=p.name or "product", severity="major",
+                     evidence=f"product: yield {p.model_extra['yield']}",
+                     message=f"no product mass was recorded: {grams:.4g} g is derived from the "
+                     "stated yield, the limiting reagent's moles and the product's molar mass; "
+                     "the E-factor and PMI rest on it. Record the weighed mass")]  # fmt: skip
+
+
 @hookimpl(trylast=True, specname="masstrail_product")
 def product_of_entry(
     entry: Entry,
     mention: MaterialLine | None,
     reading: BalanceMass | None,
+    limiting: MaterialLine | None,
     resolve: Callable[[str], MaterialInfo | None],
     weigh: Callable[[MaterialLine, MaterialInfo | None], None],
     config: LabConfig,
 ) -> ProductFinding:
-    """The balance's reading, else the front matter's mass, else the text's."""
+    """The balance's reading, else the front matter's mass, else the text's, else the mass a
+    stated yield gives (with a gap: no mass was recorded)."""
     p = entry.product
     formula = p.formula or (formula_from_smiles(p.smiles) if p.smiles else None) or (
         formula_from_smiles(p.name) if p.name and looks_like_smiles(p.name) else None)  # fmt: skip
@@ -74,6 +112,8 @@ def product_of_entry(
     if not p.mass:
         if said is None:
             out = ProductOut(name=p.name, mass_g=None, formula=formula)
+            if reading is None and (p.model_extra or {}).get("yield"):
+                out, gaps = _from_yield(p, formula, limiting, resolve)
         else:
             out = _from_text(entry, formula, mention)
     else:
