@@ -200,6 +200,25 @@ def test_lookup_order_lab_then_curated_then_table_then_smiles():
     assert smiles.formula == "C8H6" and "SMILES" in smiles.source
 
 
+@pytest.mark.parametrize(
+    "smiles, name",
+    [("CN(C)C=O", "N,N-dimethylformamide"), ("CCN(CC)CC", "triethylamine"),
+     ("COCCOC", "1,2-dimethoxyethane"), ("CC(=O)N(C)C", "N,N-dimethylacetamide")],
+)  # fmt: skip
+def test_a_reagent_named_by_its_pubchem_smiles_gets_the_tables_compound(smiles, name):
+    """ORD records often name solvents only by SMILES (PubChem's canonical form: from memory);
+    the table's compound gives the density, held to the handbook as by name."""
+    assert compounds.look_up(smiles).name == name
+    info = resolve_builtin(smiles, LabConfig())  # the curated record where there is one
+    assert info.formula == compounds.look_up(name).formula
+    assert info.density_g_ml == pytest.approx(HANDBOOK_20C[name], rel=0.01)
+
+
+def test_a_smiles_of_a_curated_material_gets_the_curated_record():
+    info = resolve_builtin("CC1=CC=CC=C1", LabConfig())  # toluene as PubChem writes it
+    assert info.source == BUILTIN_SOURCE and info.density_g_ml == pytest.approx(0.8669, rel=2e-3)
+
+
 def test_salts_do_not_take_their_parents_formula():
     """PubChem's row for a salt or hydrate is often its parent's; the table then keeps the
     handbook's name without a formula rather than a wrong one."""

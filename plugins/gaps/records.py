@@ -43,8 +43,9 @@ def product_mass_gaps(entry: Entry, product: ProductOut) -> list[Gap]:
             item=product.name or "product",
             severity="blocking",
             evidence="product.mass is not recorded",
-            message="no product mass is recorded, so there is no E-factor or PMI; weigh the "
-            "dried product and add it as product: {mass: '… g'}",
+            message="no product mass is recorded, so there is no E-factor or PMI"
+            + (f" ({product.basis})" if product.basis else "")
+            + "; weigh the dried product and add it as product: {mass: '… g'}",
         )
     ]
 

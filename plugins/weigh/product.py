@@ -62,7 +62,8 @@ def _from_yield(
 ) -> tuple[ProductOut, list[Gap]]:
     """The product's mass from a stated yield: yield × the limiting reagent's moles × the
     product's molar mass (a 1:1 reaction assumed, as the yield itself assumes), with a
-    major gap: no mass was recorded. Without the moles or the molar mass, no mass."""
+    major gap: no mass was recorded. Without the moles or the molar mass, no mass, and the
+    basis says why."""
     m = re.fullmatch(r"\s*(\d+(?:\.\d+)?)\s*%?\s*", str(p.model_extra["yield"]))
     info = info_from_formula(p.name or "product", formula) if formula else (
         resolve(p.name) if p.name else None)  # fmt: skip
@@ -76,11 +77,11 @@ def _from_yield(
             if limiting is None or not limiting.moles_mmol
             else "the product's molar mass"
         )
-        return out, [Gap(kind="product_mass_missing", item=p.name or "product", severity="blocking",
-                         evidence=f"product: yield {p.model_extra['yield']}",
-                         message=f"no product mass was recorded, and the stated yield cannot "
-                         f"give one without {missing}; weigh the product and record its "
-                         "mass")]  # fmt: skip
+        why = (
+            f"the stated yield ({p.model_extra['yield']}) cannot give a mass without "
+            f"{missing}"
+        )  # the product-mass rule's blocking gap says it
+        return out.model_copy(update={"basis": why}), []
     grams = float(m.group(1)) / 100 * limiting.moles_mmol * mw / 1000
     basis = (f"derived: yield {m.group(1)} % × {limiting.moles_mmol:g} mmol of {limiting.name} "
              f"(limiting) × {mw:g} g/mol; no mass was recorded")  # fmt: skip
