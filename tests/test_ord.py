@@ -13,9 +13,12 @@ import shutil
 from pathlib import Path
 
 import pytest
+import yaml
 from click.testing import CliRunner
 
 from capture.cli import cli
+from capture.notebook import Notebook
+from capture.run import read_entry
 
 from helpers import entry_md
 
@@ -31,6 +34,11 @@ CREATOR = "Imke Vasquez <imke.vasquez@larchmont.example>"  # an invented lab mem
 
 def _invoke(*args: str):
     return CliRunner().invoke(cli, list(args), catch_exceptions=False)
+
+
+def _front(path: Path) -> dict:
+    """The front matter of a Markdown entry."""
+    return yaml.safe_load(path.read_text(encoding="utf-8").split("---\n")[1])
 
 
 def _sidecars(folder: Path) -> dict[str, dict]:
@@ -80,6 +88,18 @@ def test_every_example_with_a_reaction_round_trips_to_the_same_pmi_and_e_factor(
             else:
                 assert b[key] == pytest.approx(a[key], rel=1e-3), (entry_id, key)
     assert f"wrote {examples_round_trip[2]}: {len(exported)} reaction(s)" in out
+
+
+def test_the_title_travels_and_the_reaction_id_becomes_the_entry_id(examples_round_trip):
+    before, after, data, _, _ = examples_round_trip
+    nb = Notebook.open(EXAMPLES)
+    for entry_id, side in after.items():
+        original = before[entry_id]["entry"]["path"]
+        title = read_entry(nb, EXAMPLES / original, (EXAMPLES / original).read_bytes(),
+                           original).title  # fmt: skip
+        imported = data.parent / "imported" / side["entry"]["path"]
+        assert side["entry"]["id"].startswith("ord-")
+        assert _front(imported)["title"] == (title or f"ORD {side['entry']['id']}")
 
 
 def test_every_exported_record_passes_ord_schemas_validation(examples_round_trip):

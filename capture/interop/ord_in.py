@@ -117,8 +117,9 @@ def entry_text(rx, r, index: int) -> tuple[str, str]:
     import yaml
 
     rid = rx.reaction_id or f"reaction-{index:05d}"
-    front: dict[str, Any] = {"id": rid, "title": f"ORD {rid}"}
     prov = rx.provenance
+    title = prov.reaction_metadata.get("masstrail.title")  # a masstrail export's entry title
+    front: dict[str, Any] = {"id": rid, "title": title.string_value if title else f"ORD {rid}"}
     if prov.experimenter.name:
         front["author"] = prov.experimenter.name
     day = prov.experiment_start.value[:10]

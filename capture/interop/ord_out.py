@@ -45,7 +45,8 @@ if TYPE_CHECKING:
     from capture.notebook import Notebook
     from capture.views.filters import GapFilter
 
-ORD_EXTRA = "the ORD commands need the ord extra: pip install 'masstrail[ord]'"
+ORD_EXTRA = ("the ORD commands need the ord extra: pip install 'masstrail[ord]' (from a checkout: "
+             "pip install -e '.[ord]')")  # fmt: skip
 LIMITING = {"limiting reagent", "limiting reactant", "limiting"}
 REACTANT = {"reactant", "starting material", "substrate"}
 
@@ -183,6 +184,8 @@ def _provenance(prov, entry: Entry, result: Result, creator: tuple[str, str]) ->
         )
     meta["masstrail.generator"].string_value = result.generator
     meta["masstrail.entry_id"].string_value = entry.id
+    if entry.title:
+        meta["masstrail.title"].string_value = entry.title
     meta["masstrail.entry_path"].string_value = entry.path
 
 
