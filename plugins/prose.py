@@ -110,6 +110,20 @@ CATEGORY_STAGE: dict[str, Stage] = {
     "filter medium": "workup",
     "sorbent": "purification",
 }
+# roles whose words name no operation but which belong to one
+ROLE_OPERATION = {"stationary phase": "chromatography", "antisolvent": "recrystallisation",
+                  "anti-solvent": "recrystallisation"}  # fmt: skip
+
+
+def operation_of_role(role: str | None) -> str | None:
+    """The operation a front-matter or table role names (``drying agent`` → drying,
+    ``extraction solvent`` → extraction, ``eluent`` → chromatography), or None."""
+    low = (role or "").strip().casefold()
+    if low in ROLE_OPERATION:
+        return ROLE_OPERATION[low]
+    return next((op for w in low.split() if (op := operation_of(w))), None)
+
+
 LIMITING_ROLES = {"limiting reagent", "limiting reactant", "limiting"}
 REACTANT_ROLES = {"reactant", "starting material", "substrate"}
 

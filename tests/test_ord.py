@@ -9,6 +9,7 @@ from their structured fields by the shared corpus's reference (see its README).
 from __future__ import annotations
 
 import json
+import re
 import shutil
 from pathlib import Path
 
@@ -100,6 +101,12 @@ def test_the_title_travels_and_the_reaction_id_becomes_the_entry_id(examples_rou
         imported = data.parent / "imported" / side["entry"]["path"]
         assert side["entry"]["id"].startswith("ord-")
         assert _front(imported)["title"] == (title or f"ORD {side['entry']['id']}")
+        # ORD's 32-bit floats are written as the chemist wrote them: 2.41 g, not 2.4100000858 g
+        assert not re.search(r"\d\.\d{8,}", imported.read_text(encoding="utf-8"))
+    fw = _front(data.parent / "imported" / after["FW-0412"]["entry"]["path"])
+    assert fw["product"]["mass"] == "2.41 g"
+    assert {"name": "MgSO4", "amount": "3 g", "role": "drying agent"} in fw["materials"]
+    assert {"name": "brine", "amount": "20 mL", "role": "wash"} in fw["materials"]
 
 
 def test_every_exported_record_passes_ord_schemas_validation(examples_round_trip):
@@ -135,13 +142,19 @@ def test_the_mapping_keeps_roles_units_and_workups(examples_round_trip):
     assert limiting
     kinds = {reaction_pb2.ReactionWorkup.ReactionWorkupType.Name(w.type)
              for rx in dataset.reactions for w in rx.workups}  # fmt: skip
-    assert {"EXTRACTION", "DRY_WITH_MATERIAL"} <= kinds
+    assert {
+        "EXTRACTION",
+        "WASH",
+        "DRY_WITH_MATERIAL",
+        "FILTRATION",
+        "FLASH_CHROMATOGRAPHY",
+    } <= kinds
     units = {c.amount.WhichOneof("kind") for rx in dataset.reactions
              for i in rx.inputs.values() for c in i.components}  # fmt: skip
     assert {"mass", "volume"} <= units  # as the chemist wrote: grams stay grams, mL stay mL
     # on import, the workup type gives the role back
     roles_in = {m["role"] for d in after.values() for m in d["materials"]}
-    assert {"extraction solvent", "drying agent"} & roles_in
+    assert {"extraction solvent", "wash", "drying agent", "eluent", "stationary phase"} <= roles_in
 
 
 @pytest.mark.parametrize("ending", [".pb", ".pb.gz", ".pbtxt", ".json"])

@@ -46,10 +46,11 @@ _CUSTOM_ROLES = {"recrystallisation": "recrystallisation", "trituration": "tritu
 
 
 def _text(value: float) -> str:
-    """A number in plain decimals (masstrail refuses exponent notation): 5.11e-05 → 0.0000511."""
+    """A number in plain decimals (masstrail refuses exponent notation): 5.11e-05 → 0.0000511.
+    ORD's values are 32-bit floats, good to about 7 digits: 2.4100000858 is written 2.41."""
     from decimal import Decimal
 
-    return format(Decimal(repr(float(value))).normalize(), "f")
+    return format(Decimal(f"{float(value):.7g}").normalize(), "f")
 
 
 def amount_text(amount, r) -> str | None:
@@ -87,6 +88,8 @@ def _material(compound, r, role: str | None = None) -> dict | None:
         item["amount"] = said
     role_name = r.ReactionRole.ReactionRoleType.Name(compound.reaction_role)
     item["role"] = role or _ROLES.get(role_name, "reagent")
+    if role == "eluent" and compound.amount.WhichOneof("kind") == "mass":
+        item["role"] = "stationary phase"  # a column's weighed solid: silica, alumina
     if compound.is_limiting and role_name == "REACTANT":
         item["role"] = "limiting reagent"
     return item

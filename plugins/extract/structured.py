@@ -14,6 +14,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, MaterialLine, StructuredMaterial
 from capture.quantities import AmountError, parse_amounts
+from masstrail_plugins.prose import operation_of_role
 
 
 def line_of(item: StructuredMaterial, origin: str, role: str | None = None) -> MaterialLine:
@@ -21,6 +22,7 @@ def line_of(item: StructuredMaterial, origin: str, role: str | None = None) -> M
     line = MaterialLine(
         name=item.name.strip(),
         role=role or item.role,
+        operation=operation_of_role(role or item.role),  # "drying agent": drying
         stage=item.stage,
         stated=item.amount,
         origin=origin,
