@@ -10,7 +10,14 @@ import os
 import tomllib
 from pathlib import Path
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
 
 CONFIG_NAME = "masstrail.toml"
 
@@ -183,6 +190,33 @@ class StoreSettings(_Section):
     late_record_days: float = Field(
         7, ge=0, description="flag amounts first recorded this many days after the experiment"
     )
+    url: str | None = Field(
+        None,
+        description="a shared PostgreSQL store, postgresql://USER@HOST/DB (the password from "
+        "PGPASSWORD, ~/.pgpass or a service file, never here); MASSTRAIL_STORE_URL wins",
+    )
+    notebook: str | None = Field(
+        None, description="this notebook's name in the shared store (default: its folder's)"
+    )
+
+    @model_validator(mode="after")
+    def _fed_from_the_local_store(self) -> StoreSettings:
+        if self.url and not self.enabled:
+            raise ValueError("a shared store (url) is fed from the local store: leave "
+                             "[store] enabled = true")  # fmt: skip
+        return self
+
+    @field_validator("url")
+    @classmethod
+    def _no_password(cls, url: str | None) -> str | None:
+        from capture.store.address import has_password
+
+        if url and has_password(url):
+            raise ValueError(
+                "holds a password; keep it out of masstrail.toml: use PGPASSWORD, ~/.pgpass "
+                "or a PostgreSQL service file"
+            )
+        return url
 
 
 class OrdSettings(_Section):

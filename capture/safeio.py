@@ -405,3 +405,20 @@ def sync_folder(folder: Path) -> None:
         pass
     finally:
         os.close(dir_fd)
+
+
+def try_lock(fd: int) -> bool:
+    """Take an OS lock on the open file ``fd`` without waiting (flock on POSIX, msvcrt on
+    Windows); False when another process holds it. Closing ``fd`` lets go."""
+    try:
+        if os.name == "nt":
+            import msvcrt
+
+            msvcrt.locking(fd, msvcrt.LK_NBLCK, 1)
+        else:
+            import fcntl
+
+            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        return False
+    return True

@@ -43,6 +43,7 @@ from pathlib import Path
 from capture.models import EntrySummary, Result
 from capture.notebook import Notebook
 from capture.paths import STATE_DIR, sidecar_path
+from capture.safeio import try_lock
 from capture.scan import scan
 
 LOCK_NAME = "watch.lock"
@@ -65,28 +66,13 @@ class Lock:
     fd: int
 
 
-def _try_lock(fd: int) -> bool:
-    try:
-        if os.name == "nt":
-            import msvcrt
-
-            msvcrt.locking(fd, msvcrt.LK_NBLCK, 1)
-        else:
-            import fcntl
-
-            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-    except OSError:
-        return False
-    return True
-
-
 def acquire_lock(root: Path) -> Lock:
     """Take the notebook's watcher lock; WatchError if another watcher holds it."""
     state = root / STATE_DIR
     state.mkdir(exist_ok=True)
     path = state / LOCK_NAME
     fd = os.open(path, os.O_RDWR | os.O_CREAT | getattr(os, "O_NOFOLLOW", 0), 0o644)
-    if not _try_lock(fd):
+    if not try_lock(fd):
         try:
             pid = json.loads(os.pread(fd, 4096, 0) or b"{}").get("pid", "?")
         except (OSError, ValueError, AttributeError):

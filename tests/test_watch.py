@@ -175,7 +175,7 @@ def test_one_watcher_per_notebook_and_a_stale_lock_is_recovered(notebook, watche
     assert w2.stop() == 0 and lock.read_text() == "" and "watcher stopped" in w2.lines[-1]
 
 
-def _take_lock_at(root: str, at: float, results) -> None:
+def _take_lock_at(root: str, at: float, results, done) -> None:
     from capture.watch import WatchError, acquire_lock, release_lock
 
     while time.time() < at:  # every process tries at the same instant
@@ -186,7 +186,7 @@ def _take_lock_at(root: str, at: float, results) -> None:
         results.put("refused")
         return
     results.put("held")
-    time.sleep(0.3)
+    done.wait(10)  # held until every process has tried, however late the machine starts it
     release_lock(lock)
 
 
@@ -200,13 +200,14 @@ def test_watchers_started_at_the_same_instant_never_both_hold_the_lock(notebook)
     for trial in range(10):
         if trial % 2:
             (notebook.root / ".masstrail" / "watch.lock").unlink(missing_ok=True)
-        results = ctx.Queue()
+        results, done = ctx.Queue(), ctx.Event()
         at = time.time() + 0.3
-        procs = [ctx.Process(target=_take_lock_at, args=(str(notebook.root), at, results))
+        procs = [ctx.Process(target=_take_lock_at, args=(str(notebook.root), at, results, done))
                  for _ in range(8)]  # fmt: skip
         for p in procs:
             p.start()
         got = sorted(results.get(timeout=10) for _ in procs)
+        done.set()
         for p in procs:
             p.join(timeout=10)
         assert got.count("held") == 1, (trial, got)

@@ -6,11 +6,12 @@ not failures), 1 when ``--fail-on`` (or ``gaps``) found such gaps, 2 for usage o
 configuration errors. The library never imports this package.
 """
 
-from capture.cli import gaps, ord, plugins, report, route, scan, show, store, watch
+from capture.cli import gaps, ord, plugins, report, route, scan, shared, show, store, watch
 from capture.cli.common import cli
 
 __all__ = ["cli", "main"]
-_COMMANDS = (gaps, ord, plugins, report, route, scan, show, store, watch)  # registered on import
+# registered on import
+_COMMANDS = (gaps, ord, plugins, report, route, scan, shared, show, store, watch)
 
 
 def main() -> None:

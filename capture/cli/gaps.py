@@ -19,11 +19,14 @@ from capture.cli.common import (
     num,
     open_notebook,
 )
+from capture.cli.shared import needs_path_or_store, shared_results, store_options
 
 
 @cli.command()
-@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.argument("path", required=False, type=click.Path(exists=True, file_okay=False,
+                                                        path_type=Path))  # fmt: skip
 @entry_filters
+@store_options
 @click.option(
     "--severity",
     type=click.Choice(["blocking", "major", "minor"]),
@@ -49,16 +52,28 @@ from capture.cli.common import (
     type=click.Path(dir_okay=False, allow_dash=True),
     help="Write the gaps as CSV to FILE ('-' for standard output).",
 )
-def gaps(path, author, group_, project, since, until, severity, by, as_json, late, csv_file):
-    """List the entries under PATH that lack records, with what is missing.
+def gaps(path, author, group_, project, since, until, store_url, notebook_name, severity, by,
+         as_json, late, csv_file):  # fmt: skip
+    """List the entries under PATH (or in the shared store) that lack records, with what is
+    missing.
 
     Exits 1 when any blocking gap is listed, so a scheduled job can alert.
     Nothing is written next to the entries.
     """
-    from capture.views.gaplist import gap_list, rows_to_csv, summarise
+    from capture.views.gaplist import gap_list, gap_rows, rows_to_csv, summarise
 
+    needs_path_or_store(path, store_url)
     flt = gap_filter(author, group_, project, since, until, severity)
-    rows, results = gap_list(open_notebook(path), flt, late=late)
+    if store_url:
+        if late:
+            fail("--late reads a notebook's own store: give its folder instead of --store")
+        from capture.store.address import shown
+
+        results = shared_results(store_url, notebook_name)
+        rows = gap_rows(results, flt)
+        path = shown(store_url)
+    else:
+        rows, results = gap_list(open_notebook(path), flt, late=late)
     if csv_file:
         text = rows_to_csv(rows)
         if csv_file == "-":
@@ -112,15 +127,17 @@ def _print_rows(path: Path, rows) -> None:
 
 
 @cli.command()
-@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.argument("path", required=False, type=click.Path(exists=True, file_okay=False,
+                                                        path_type=Path))  # fmt: skip
 @click.option("--group", "group_", required=True, help="The group (front-matter 'group') to audit.")
+@store_options
 @click.option(
     "--markdown",
     "markdown_file",
     type=click.Path(dir_okay=False),
     help="Also write the audit as a Markdown handout to FILE.",
 )
-def audit(path, group_, markdown_file):
+def audit(path, group_, store_url, notebook_name, markdown_file):
     """Audit the records of one group: a checklist per entry, completeness, what to record next.
 
     For teaching labs: each entry shows the operations found with ✓ recorded or
@@ -128,9 +145,16 @@ def audit(path, group_, markdown_file):
     mass), and the three records most worth taking next time.
     """
     from capture.run import CAUTION
-    from capture.views.audit import audit_markdown, audit_notebook
+    from capture.views.audit import audit, audit_markdown, audit_notebook
 
-    report = audit_notebook(open_notebook(path), group_)
+    needs_path_or_store(path, store_url)
+    if store_url:
+        from capture.store.address import shown
+
+        report = audit(shared_results(store_url, notebook_name), group_)
+        path = shown(store_url)
+    else:
+        report = audit_notebook(open_notebook(path), group_)
     if not report.entries:
         known = ", ".join(repr(g) for g in report.groups) or "none (no entry names a group)"
         fail(f"no entries of group {group_!r} under {path}; the groups there are: {known}")

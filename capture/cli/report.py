@@ -6,11 +6,13 @@ from pathlib import Path
 
 import click
 
-from capture.cli.common import cli, entry_filters, gap_filter, jobs_option, open_notebook
+from capture.cli.common import cli, entry_filters, fail, gap_filter, jobs_option, open_notebook
+from capture.cli.shared import needs_path_or_store, store_options
 
 
 @cli.command()
-@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.argument("path", required=False, type=click.Path(exists=True, file_okay=False,
+                                                        path_type=Path))  # fmt: skip
 @click.option(
     "-o",
     "--output",
@@ -19,6 +21,7 @@ from capture.cli.common import cli, entry_filters, gap_filter, jobs_option, open
     help="The HTML file to write.",
 )
 @entry_filters
+@store_options
 @click.option(
     "--cards",
     type=click.IntRange(min=0),
@@ -27,7 +30,8 @@ from capture.cli.common import cli, entry_filters, gap_filter, jobs_option, open
     help="At most this many entry cards; beyond it, those with the most serious gaps.",
 )
 @jobs_option
-def report(path, output, author, group_, project, since, until, cards, jobs):
+def report(path, output, author, group_, project, since, until, store_url, notebook_name, cards,
+           jobs):  # fmt: skip
     """Write the lab's report for PATH as one self-contained HTML file.
 
     The lab overview (median E-factor and PMI by group, project and month; waste
@@ -36,17 +40,28 @@ def report(path, output, author, group_, project, since, until, cards, jobs):
     since the last scan are computed first. Opens in a browser with no network.
     """
     from capture.scan import default_jobs
-    from capture.views.report import lab_report
+    from capture.store import StoreError
+    from capture.store.address import shown
+    from capture.views.report import lab_report, shared_report
 
+    needs_path_or_store(path, store_url)
     flt = gap_filter(author, group_, project, since, until)
-    html, n = lab_report(open_notebook(path), flt, f"masstrail report: {path}", cards=cards,
-                         jobs=jobs or default_jobs())  # fmt: skip
+    if store_url:
+        try:
+            title = f"masstrail report: {shown(store_url)}"
+            html, n = shared_report(store_url, notebook_name, flt, title, cards=cards)
+        except StoreError as exc:
+            fail(str(exc))
+    else:
+        html, n = lab_report(open_notebook(path), flt, f"masstrail report: {path}", cards=cards,
+                             jobs=jobs or default_jobs())  # fmt: skip
     output.write_text(html, encoding="utf-8")
     click.echo(f"wrote {output} ({n} entries)")
 
 
 @cli.command()
-@click.argument("path", type=click.Path(exists=True, file_okay=False, path_type=Path))
+@click.argument("path", required=False, type=click.Path(exists=True, file_okay=False,
+                                                        path_type=Path))  # fmt: skip
 @click.option(
     "--format", "fmt", type=click.Choice(["csv", "json", "ord"]), default="csv", show_default=True
 )
@@ -65,15 +80,20 @@ def report(path, output, author, group_, project, since, until, cards, jobs):
     "default [ord] creator in masstrail.toml.",
 )
 @entry_filters
+@store_options
 @jobs_option
 def export(path: Path, fmt: str, output: Path | None, creator: str | None, author, group_,
-           project, since, until, jobs: int) -> None:  # fmt: skip
+           project, since, until, store_url, notebook_name, jobs: int) -> None:  # fmt: skip
     """Export entries, materials, gaps and metrics under PATH as tables (CSV or JSON), or the
     entries as an Open Reaction Database dataset (ORD).
 
     The entries are scanned first, so the export is current. CSV cells that a
     spreadsheet would run as formulas are neutralised. The filters apply to ORD.
     """
+    needs_path_or_store(path, store_url)
+    if store_url:
+        _export_shared(store_url, notebook_name, fmt, output)
+        return
     if fmt == "ord":
         _export_ord(path, output, creator, gap_filter(author, group_, project, since, until))
         return
@@ -90,6 +110,28 @@ def export(path: Path, fmt: str, output: Path | None, creator: str | None, autho
             click.echo(text, nl=False)
         return
     written = export_csv(conn, output or Path("masstrail-export"))
+    click.echo(f"wrote {', '.join(str(p) for p in written)} ({', '.join(TABLES)})")
+
+
+def _export_shared(url: str, notebook: str | None, fmt: str, output: Path | None) -> None:
+    from capture.store import StoreError
+    from capture.views.export import TABLES, shared_tables, tables_csv, tables_json
+
+    if fmt == "ord":
+        fail("--format ord exports a notebook's entries: give its folder instead of --store")
+    try:
+        tables = shared_tables(url, notebook)
+    except StoreError as exc:
+        fail(str(exc))
+    if fmt == "json":
+        text = tables_json(tables)
+        if output:
+            output.write_text(text, encoding="utf-8")
+            click.echo(f"wrote {output}", err=True)
+        else:
+            click.echo(text, nl=False)
+        return
+    written = tables_csv(tables, output or Path("masstrail-export"))
     click.echo(f"wrote {', '.join(str(p) for p in written)} ({', '.join(TABLES)})")
 
 

@@ -52,14 +52,31 @@ def backup(path: Path, file: Path) -> None:
 
 @cli.command()
 @click.argument("entry", type=click.Path(exists=True, dir_okay=False, path_type=Path))
-def history(entry: Path) -> None:
+@click.option(
+    "--store",
+    "store_url",
+    metavar="URL",
+    help="Read the history from the shared store at URL, not the notebook's own.",
+)
+def history(entry: Path, store_url: str | None) -> None:
     """The history of ENTRY from the store: when each amount first appeared, when each gap
     opened and closed."""
-    from capture.store import timeline
+    from capture.store import StoreError, shared, timeline
+    from capture.store.address import notebook_id
+    from capture.store.history import timeline_of
     from capture.store.upkeep import open_store
 
     nb = notebook_of(entry)
-    events = timeline(open_store(nb)[0], nb.relpath(entry.resolve()))
+    rel = nb.relpath(entry.resolve())
+    if store_url:
+        try:
+            with shared.connect(store_url) as conn:
+                shared.require_current(conn, store_url)
+                events = timeline_of(shared.history_rows(conn, notebook_id(nb.root), rel))
+        except StoreError as exc:
+            fail(str(exc))
+    else:
+        events = timeline(open_store(nb)[0], rel)
     if not events:
         click.echo("no history yet: run masstrail scan or masstrail watch first")
         return

@@ -66,6 +66,10 @@ CREATE TABLE IF NOT EXISTS history (
     result TEXT NOT NULL,
     UNIQUE (entry_path, sha256, tool_version)
 );
+CREATE TABLE IF NOT EXISTS outbox (
+    seq INTEGER PRIMARY KEY AUTOINCREMENT, kind TEXT NOT NULL, entry_path TEXT NOT NULL,
+    computed_at TEXT NOT NULL, payload TEXT, streams TEXT
+);
 CREATE INDEX IF NOT EXISTS materials_entry ON materials(entry_path);
 CREATE INDEX IF NOT EXISTS gaps_entry ON gaps(entry_path);
 CREATE INDEX IF NOT EXISTS gaps_kind ON gaps(kind, severity);
@@ -197,13 +201,17 @@ def previous_gaps(conn: sqlite3.Connection, path: str) -> list[tuple[str, str]] 
                                            (path,))]  # fmt: skip
 
 
-def remove_absent(conn: sqlite3.Connection, present: set[str]) -> int:
-    """Drop the current rows of entries not in ``present`` (their history stays)."""
+def remove_absent(conn: sqlite3.Connection, present: set[str], queue: bool = False) -> int:
+    """Drop the current rows of entries not in ``present`` (their history stays); with
+    ``queue``, in the shared store's too, when the queue is sent."""
     gone = [p for (p,) in conn.execute("SELECT path FROM entries") if p not in present]
     if gone:
         conn.execute("BEGIN IMMEDIATE")
         try:
             conn.executemany("DELETE FROM entries WHERE path = ?", [(p,) for p in gone])
+            if queue:
+                now = _now()
+                conn.executemany(_QUEUE, [("remove", p, now, None, None) for p in gone])
             conn.execute("COMMIT")
         except BaseException:
             conn.execute("ROLLBACK")
@@ -211,8 +219,8 @@ def remove_absent(conn: sqlite3.Connection, present: set[str]) -> int:
     return len(gone)
 
 
-# the current tables' columns after entry_path, in the order _rows gives them
-_COLUMNS = {
+# the current tables' columns after entry_path, in the order child_rows gives them
+COLUMNS = {
     "metrics": ("e_factor", "e_factor_simple", "e_factor_estimated", "pmi", "completeness",
                 "atom_economy", "yield", "rme", "hazard_weighted_e", "inputs_g", "waste_g"),
     "materials": ("name", "resolved", "role", "category", "stage", "stated", "mass_g", "basis",
@@ -227,11 +235,11 @@ def _insert_sql(table: str, cols: tuple[str, ...]) -> str:
     return f"INSERT INTO {table} ({names}) VALUES ({', '.join('?' * (len(cols) + 1))})"
 
 
-_INSERT = {table: _insert_sql(table, cols) for table, cols in _COLUMNS.items()}
+_INSERT = {table: _insert_sql(table, cols) for table, cols in COLUMNS.items()}
 
 
-def _rows(result: Result) -> dict[str, list[tuple]]:
-    """The entry's rows for each current table but ``entries``, in ``_COLUMNS`` order (each
+def child_rows(result: Result) -> dict[str, list[tuple]]:
+    """The entry's rows for each current table but ``entries``, in ``COLUMNS`` order (each
     material's waste stream is the one ``masstrail_waste_stream`` gave it)."""
     path = result.entry.path
     m = result.metrics
@@ -267,24 +275,31 @@ def _write(
     if result.status == "error" and _keeps_last_good(conn, result, now):
         return _append_history(conn, result, now)
     conn.execute("DELETE FROM entries WHERE path = ?", (path,))  # cascades to the rest
-    meta = result.meta
-    conn.execute(
-        "INSERT INTO entries (path, id, title, author, grp, project, date, sha256, status, "
-        "error, product, product_g, tool_version, updated_at, error_location, inputs_sha256, "
-        "balance_log, entry_stat, gaps_blocking, gaps_major, gaps_minor) "
-        "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
-        (path, result.entry.id, meta.get("title"), meta.get("author"), meta.get("group"),
-         meta.get("project"), meta.get("date"), result.entry.sha256, result.status,
-         result.error.message if result.error else None, result.product.name,
-         result.product.mass_g, __version__, now,
-         result.error.location if result.error else None, result.entry.inputs_sha256,
-         json.dumps(result.entry.balance_log), result.entry._stat,
-         *_gap_counts(result)),
-    )  # fmt: skip
+    conn.execute(_INSERT_ENTRY, entry_row(result, now))
     if result.status == "ok":
-        for table, rows in _rows(result).items():
+        for table, rows in child_rows(result).items():
             children.setdefault(table, []).extend(rows)
     return _append_history(conn, result, now)
+
+
+ENTRY_COLUMNS = ("path", "id", "title", "author", "grp", "project", "date", "sha256", "status",
+                 "error", "product", "product_g", "tool_version", "updated_at", "error_location",
+                 "inputs_sha256", "balance_log", "entry_stat", "gaps_blocking", "gaps_major",
+                 "gaps_minor")  # fmt: skip
+_INSERT_ENTRY = (f"INSERT INTO entries ({', '.join(ENTRY_COLUMNS)}) "
+                 f"VALUES ({','.join('?' * len(ENTRY_COLUMNS))})")  # fmt: skip
+
+
+def entry_row(result: Result, now: str) -> tuple:
+    """The entry's row of ``entries``, in ``ENTRY_COLUMNS`` order."""
+    meta = result.meta
+    return (result.entry.path, result.entry.id, meta.get("title"), meta.get("author"),
+            meta.get("group"), meta.get("project"), meta.get("date"), result.entry.sha256,
+            result.status, result.error.message if result.error else None, result.product.name,
+            result.product.mass_g, __version__, now,
+            result.error.location if result.error else None, result.entry.inputs_sha256,
+            json.dumps(result.entry.balance_log), result.entry._stat,
+            *_gap_counts(result))  # fmt: skip
 
 
 def _keeps_last_good(conn: sqlite3.Connection, result: Result, now: str) -> bool:
@@ -336,10 +351,27 @@ def _now() -> str:
     return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
 
 
-def write_results(conn: sqlite3.Connection, results: list[Result], clear: bool = False) -> int:
+# the result as its sidecar's JSON, and its materials' waste streams (not in the sidecar)
+_QUEUE = "INSERT INTO outbox (kind, entry_path, computed_at, payload, streams) VALUES (?,?,?,?,?)"
+
+
+def _same(conn: sqlite3.Connection, result: Result) -> bool:
+    """True when the store holds this entry with the same fingerprint and status already (a
+    result the shared store has too: not queued again)."""
+    row = conn.execute("SELECT inputs_sha256, status FROM entries WHERE path = ?",
+                       (result.entry.path,)).fetchone()  # fmt: skip
+    return row is not None and row[0] is not None and row == (result.entry.inputs_sha256,
+                                                               result.status)  # fmt: skip
+
+
+def write_results(
+    conn: sqlite3.Connection, results: list[Result], clear: bool = False, queue: bool = False
+) -> int:
     """Write results in one BEGIN IMMEDIATE transaction; return how many history rows were added.
 
-    With ``clear``, the current tables are emptied first (history is never touched).
+    With ``clear``, the current tables are emptied first (history is never touched). With
+    ``queue``, each result is also queued for the shared store (``outbox``), in the same
+    transaction: durable exactly when the local store is.
     """
     added = 0
     now = _now()
@@ -347,12 +379,20 @@ def write_results(conn: sqlite3.Connection, results: list[Result], clear: bool =
     try:
         if clear:
             conn.execute("DELETE FROM entries")  # cascades to the current tables
+            if queue:
+                conn.execute(_QUEUE, ("clear", "", now, None, None))
         children: dict[str, list[tuple]] = {}
         latest = {r.entry.path: r for r in results}  # an entry handed over twice: its last
+        send = [r for r in latest.values() if clear or not _same(conn, r)] if queue else []
         for r in latest.values():
             added += _write(conn, r, now, children)
         for table, rows in children.items():  # one prepared statement per table
             conn.executemany(_INSERT[table], rows)
+        if queue:
+            conn.executemany(_QUEUE, [("result", r.entry.path, now,
+                                       r.model_dump_json(by_alias=True),
+                                       json.dumps([m.stream for m in r.materials]))
+                                      for r in send])  # fmt: skip
         conn.execute("COMMIT")
     except BaseException:
         conn.execute("ROLLBACK")
@@ -360,16 +400,19 @@ def write_results(conn: sqlite3.Connection, results: list[Result], clear: bool =
     return added
 
 
-def remove_entry(conn: sqlite3.Connection, path: str) -> None:
-    """Drop an entry's current rows (its history stays)."""
+def remove_entry(conn: sqlite3.Connection, path: str, queue: bool = False) -> None:
+    """Drop an entry's current rows (its history stays); with ``queue``, in the shared
+    store's too, when the queue is sent."""
     conn.execute("BEGIN IMMEDIATE")
     conn.execute("DELETE FROM entries WHERE path = ?", (path,))
+    if queue:
+        conn.execute(_QUEUE, ("remove", path, _now(), None, None))
     conn.execute("COMMIT")
 
 
-def rebuild(conn: sqlite3.Connection, results: list[Result]) -> int:
+def rebuild(conn: sqlite3.Connection, results: list[Result], queue: bool = False) -> int:
     """Recreate the current tables from ``results``; history rows are kept and added to."""
-    return write_results(conn, results, clear=True)
+    return write_results(conn, results, clear=True, queue=queue)
 
 
 def backup(conn: sqlite3.Connection, target: Path) -> None:

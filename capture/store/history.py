@@ -23,7 +23,13 @@ def history_for(conn: sqlite3.Connection, path: str) -> list[dict]:
 
 
 def timeline(conn: sqlite3.Connection, path: str) -> list[dict]:
-    """When each amount first appeared and each gap opened and closed, from the history.
+    """The entry's :func:`timeline_of` its history in the local store."""
+    return timeline_of(history_for(conn, path))
+
+
+def timeline_of(history: list[dict]) -> list[dict]:
+    """When each amount first appeared and each gap opened and closed, from a history
+    (:func:`history_for`, or the shared store's).
 
     Events, oldest first: ``{"at", "event", "what"}``, the event one of "present at first
     scan" (an amount already there when masstrail first read the entry: a notebook adopted
@@ -35,7 +41,7 @@ def timeline(conn: sqlite3.Connection, path: str) -> list[dict]:
     seen_amounts: set[tuple[str, str]] = set()
     open_gaps: set[tuple[str, str]] = set()
     first, unreadable = True, False
-    for h in history_for(conn, path):
+    for h in history:
         r = h["result"]
         at = h["computed_at"]
         if r.get("status") == "error":

@@ -23,11 +23,19 @@ def rebuild_store(nb: Notebook) -> tuple[Path, int, int]:
     """Recreate the store's current tables from the entries (sidecars written as by a scan);
     the history is kept and only grows. Returns (database, entries, history rows added)."""
     from capture.scan import scan
+    from capture.store.address import notebook_id, notebook_name, store_url
 
     conn, db, _message = open_store(nb)
     nb.pm.set_blocked("store")  # the rebuild writes the store itself, in one transaction
     report = scan(nb)
-    return db, len(report.results), rebuild(conn, report.results)
+    url = store_url(nb.config.store.url)
+    added = rebuild(conn, report.results, queue=url is not None)
+    if url is not None:  # the shared store's rows of this notebook are rebuilt as well
+        from capture.store.outbox import send
+
+        send(conn, nb.root, url, notebook_id(nb.root),
+             notebook_name(nb.root, nb.config.store.notebook), force=True)  # fmt: skip
+    return db, len(report.results), added
 
 
 def backup_store(nb: Notebook, target: Path) -> Path:

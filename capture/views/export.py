@@ -26,10 +26,15 @@ def _rows(conn: sqlite3.Connection, table: str):
 
 def export_csv(conn: sqlite3.Connection, folder: Path) -> list[Path]:
     """One CSV per table in ``folder``; formula-like cells neutralised (OWASP, CWE-1236)."""
+    return tables_csv({table: _rows(conn, table) for table in TABLES}, folder)
+
+
+def tables_csv(tables: dict, folder: Path) -> list[Path]:
+    """One CSV per table (``{name: (columns, rows as dicts)}``) in ``folder``, formula-like
+    cells neutralised."""
     folder.mkdir(parents=True, exist_ok=True)
     written = []
-    for table in TABLES:
-        cols, rows = _rows(conn, table)
+    for table, (cols, rows) in tables.items():
         path = folder / f"{table}.csv"
         with path.open("w", newline="", encoding="utf-8") as fh:
             w = csv.writer(fh)
@@ -42,10 +47,24 @@ def export_csv(conn: sqlite3.Connection, folder: Path) -> list[Path]:
 
 def export_json(conn: sqlite3.Connection) -> str:
     """All tables as one JSON object of lists of rows."""
-    out = {}
-    for table in TABLES:
-        out[table] = list(_rows(conn, table)[1])
+    return tables_json({table: _rows(conn, table) for table in TABLES})
+
+
+def tables_json(tables: dict) -> str:
+    """Tables (``{name: (columns, rows as dicts)}``) as one JSON object of lists of rows."""
+    out = {table: [{c: row[c] for c in cols} for row in rows]
+           for table, (cols, rows) in tables.items()}  # fmt: skip
     return json.dumps(out, indent=2, ensure_ascii=False) + "\n"
+
+
+def shared_tables(url: str, notebook: str | None) -> dict:
+    """The shared store's current tables (all notebooks, or one), each row with its
+    notebook's name and id."""
+    from capture.store import shared
+
+    with shared.connect(url) as conn:
+        shared.require_current(conn, url)
+        return {table: shared.table_rows(conn, table, notebook) for table in TABLES}
 
 
 def export_notebook(nb: Notebook, jobs: int = 1) -> sqlite3.Connection:

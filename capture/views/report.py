@@ -58,11 +58,12 @@ class _Tally:
         self.n_kept = self.n_errors = 0
         self.e_all: list[float] = []
         self.pmi_all: list[float] = []
-        self.by: dict[str, dict[str, list]] = {"group": {}, "project": {}, "month": {}}
+        self.by: dict[str, dict[str, list]] = {"notebook": {}, "group": {}, "project": {},
+                                               "month": {}}  # fmt: skip
         self.streams: dict[str, Counter[str]] = {}  # group → stream → waste, g
         self.products: dict[str, float] = {}  # group → product, g (of entries with streams)
         self.contributors: Counter[str] = Counter()
-        self.gap_sums: dict[str, dict[str, dict]] = {"author": {}, "group": {}}
+        self.gap_sums: dict[str, dict[str, dict]] = {"author": {}, "group": {}, "notebook": {}}
         self.heap: list[tuple] = []  # the `cards` entries most in need: (rank key, n, result)
         self.errors: list[dict] = []
 
@@ -82,8 +83,11 @@ class _Tally:
             wanted = SEVERITY_RANK[self.flt.severity]
             rows = [(g["severity"], g.get("allowance_g") or 0.0) for g in gaps
                     if SEVERITY_RANK[g["severity"]] <= wanted]  # fmt: skip
-        for label in ("author", "group"):
-            cell = self.gap_sums[label].setdefault(meta.get(label) or "(none)", dict(_ZERO))
+        for label in ("author", "group", "notebook"):
+            key = r.get("notebook") if label == "notebook" else meta.get(label)
+            if label == "notebook" and key is None:
+                continue  # a notebook's own report: no notebook column
+            cell = self.gap_sums[label].setdefault(key or "(none)", dict(_ZERO))
             cell["entries"] += 1
             cell["with_gaps"] += bool(rows)
             for severity, allowance in rows:
@@ -104,7 +108,9 @@ class _Tally:
         self.pmi_all += [pmi] if pmi is not None else []
         month = (meta.get("date") or "")[:7] or None
         for label, key in (("group", meta.get("group")), ("project", meta.get("project")),
-                           ("month", month)):  # fmt: skip
+                           ("month", month), ("notebook", r.get("notebook"))):  # fmt: skip
+            if label == "notebook" and key is None:
+                continue
             cell = self.by[label].setdefault(key or "(none)", [0, [], []])
             cell[0] += 1
             if e is not None:
@@ -170,6 +176,8 @@ def figures(results: Iterable[dict | Result], flt: GapFilter, cards: int = 100) 
         n_errors=t.n_errors,
         n_ok=t.n_kept - t.n_errors,
         medians={"e_factor": _median(t.e_all), "pmi": _median(t.pmi_all)},
+        by_notebook=t.table("notebook"),
+        gaps_by_notebook=t.gap_table("notebook"),
         by_group=t.table("group"),
         by_project=t.table("project"),
         by_month=t.table("month"),
@@ -208,3 +216,23 @@ def lab_report(nb: Notebook, flt: GapFilter, title: str, cards: int = 100,
                        "error": {"message": why}}  # fmt: skip
 
     return build(sidecars(), flt, CAUTION, title, cards=cards), len(done.summaries)
+
+
+def shared_report(url: str, notebook: str | None, flt: GapFilter, title: str,
+                  cards: int = 100) -> tuple[str, int]:  # fmt: skip
+    """The report over the shared store's current results (all notebooks, or one), with a
+    breakdown by notebook, and how many entries it covers."""
+    from capture.run import CAUTION
+    from capture.store import shared
+
+    with shared.connect(url) as conn:
+        shared.require_current(conn, url)
+        counted = []
+
+        def results():
+            for r in shared.results(conn, notebook):
+                counted.append(1)
+                yield r
+
+        html = build(results(), flt, CAUTION, title, cards=cards)
+    return html, len(counted)

@@ -1,4 +1,6 @@
-"""The store writer (plugin ``store``): every result goes to the lab's SQLite store too.
+"""The store writer (plugin ``store``): every result goes to the lab's SQLite store too,
+and, with a shared store configured (``[store] url`` or ``MASSTRAIL_STORE_URL``), to the
+local queue that is sent there (:mod:`capture.store.outbox`).
 
 The store itself (schema, writes, history) is :mod:`capture.store`; this plugin hands it
 the results of scans and of the watcher, and answers ``masstrail_previous_results`` and
@@ -25,9 +27,36 @@ from capture.store import (
     store_path,
     write_results,
 )
+from capture.store.address import notebook_id, notebook_name, store_url
+from capture.store.outbox import send
 
 _conns: dict[tuple[Path, int], sqlite3.Connection] = {}
 _told: set[Path] = set()
+_told_shared: set[str] = set()
+
+
+@functools.lru_cache(maxsize=64)
+def _identity(root: Path, name: str | None) -> tuple[str, str]:
+    return notebook_id(root), notebook_name(root, name)
+
+
+def _queue(config: LabConfig) -> bool:
+    return store_url(config.store.url) is not None
+
+
+def _send(root: Path, config: LabConfig, force: bool = False) -> None:
+    """Send the queue to the shared store, if one is configured; say once per process when
+    it cannot be reached (the queue keeps every result)."""
+    url = store_url(config.store.url)
+    if url is None:
+        return
+    nb, name = _identity(root, config.store.notebook)
+    done = send(connection(root, config), root, url, nb, name, force=force)
+    if done.error and not done.error.startswith("not tried") and url not in _told_shared:
+        _told_shared.add(url)
+        print(f"masstrail: {done.error}; {done.waiting} result(s) wait in the local store and "
+              f"are sent when it can be reached (masstrail store status {root})",
+              file=sys.stderr)  # fmt: skip
 
 
 @functools.lru_cache(maxsize=64)
@@ -61,7 +90,8 @@ def _key(root: Path, config: LabConfig) -> tuple[Path, int]:
 def _flush(root: Path, config: LabConfig) -> None:
     held = _pending.pop(_key(root, config), None)
     if held:
-        write_results(connection(root, config), held)
+        write_results(connection(root, config), held, queue=_queue(config))
+        _send(root, config)
 
 
 # trylast: the chemist's sidecar is written first; the store follows in the same step
@@ -74,7 +104,8 @@ def write_to_store(result: Result, root: Path, config: LabConfig, batch: bool) -
     if not config.store.enabled:
         return []
     if not batch:
-        write_results(connection(root, config), [result])
+        write_results(connection(root, config), [result], queue=_queue(config))
+        _send(root, config)
         return []
     held = _pending.setdefault(_key(root, config), [])
     held.append(result)
@@ -95,7 +126,8 @@ def finish_scan(root: Path, config: LabConfig, present: list[str]) -> None:
     """Drop the rows of entries no longer in the notebook (their history stays)."""
     if config.store.enabled:
         _flush(root, config)  # in case a caller did not flush first
-        remove_absent(connection(root, config), set(present))
+        remove_absent(connection(root, config), set(present), queue=_queue(config))
+        _send(root, config, force=True)  # a rescan is the retry of a server that was away
 
 
 @hookimpl(specname="masstrail_previous_results")
@@ -119,4 +151,5 @@ def gaps_in_store(root: Path, relpath: str, config: LabConfig) -> list[tuple[str
 def remove_from_store(relpath: str, root: Path, config: LabConfig) -> None:
     """Drop a deleted entry's current rows; its history stays."""
     if config.store.enabled:
-        remove_entry(connection(root, config), relpath)
+        remove_entry(connection(root, config), relpath, queue=_queue(config))
+        _send(root, config)
