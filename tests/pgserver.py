@@ -39,7 +39,8 @@ def _free_port() -> int:
 class Server:
     """One cluster: ``url`` connects as its superuser ``postgres``."""
 
-    def __init__(self) -> None:
+    def __init__(self, fsync: bool = False) -> None:
+        self.fsync = fsync  # off for the tests' speed; a benchmark keeps it on, as servers do
         bindir = binaries()
         if bindir is None:
             raise FileNotFoundError(PACKAGE)
@@ -71,7 +72,7 @@ class Server:
 
     def start(self) -> None:
         opts = (f"-p {self.port} -c listen_addresses=127.0.0.1 -c unix_socket_directories='' "
-                "-c fsync=off -c max_connections=60")  # fmt: skip
+                f"-c fsync={'on' if self.fsync else 'off'} -c max_connections=60")  # fmt: skip
         self._run("pg_ctl", "start", "-D", str(self.data), "-l", str(self.log), "-w", "-o", opts)
 
     def stop(self) -> None:

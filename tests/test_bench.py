@@ -37,3 +37,24 @@ def test_the_scale_benchmark_runs(tmp_path):
     assert run.returncode == 0, run.stderr[-2000:]
     text = out.read_text()
     assert "| 40 |" in text and "× floor" in text and "masstrail --help" in text
+
+
+def test_the_shared_store_benchmark_runs(tmp_path):
+    """bench/shared_store.py at 2 notebooks × 40 entries: a real server, every figure, and
+    every entry in the shared store once (the script exits 1 on a mismatch)."""
+    from pgserver import binaries
+
+    if binaries() is None:
+        import os
+
+        import pytest
+
+        if not os.environ.get("MASSTRAIL_REQUIRE_POSTGRES"):
+            pytest.skip("the PostgreSQL server binaries are missing")
+    out = tmp_path / "shared.md"
+    run = subprocess.run([sys.executable, str(ROOT / "bench" / "shared_store.py"), "--smoke",
+                          "--out", str(out)], capture_output=True, text=True, timeout=600)  # fmt: skip
+    assert run.returncode == 0, run.stdout[-2000:] + run.stderr[-2000:]
+    text = out.read_text()
+    assert "80 current entries, 80 history rows" in text and "0 left waiting" in text
+    assert "×** the floor" in text and "`report --store` over 80 entries" in text

@@ -139,7 +139,7 @@ def test_when_the_server_is_away_results_wait_and_each_arrives_exactly_once(
         assert outbox.waiting(local)[0] == 11
     finally:
         pg.start()
-    queued = _local(root).execute("SELECT kind, entry_path, computed_at, payload, streams "
+    queued = _local(root).execute("SELECT kind, entry_path, computed_at, payload, rows "
                                   "FROM outbox ORDER BY seq").fetchall()  # fmt: skip
     res = CliRunner().invoke(cli, ["store", "send", str(root)])
     assert res.exit_code == 0 and "sent 11; 0 waiting" in res.output
@@ -152,7 +152,7 @@ def test_when_the_server_is_away_results_wait_and_each_arrives_exactly_once(
     # the queue sent twice (as when a process dies between the server's commit and the
     # queue's): every result is still stored once
     local = _local(root)
-    local.executemany("INSERT INTO outbox (kind, entry_path, computed_at, payload, streams) "
+    local.executemany("INSERT INTO outbox (kind, entry_path, computed_at, payload, rows) "
                       "VALUES (?,?,?,?,?)", queued)  # fmt: skip
     local.commit()
     assert "sent 11; 0 waiting" in CliRunner().invoke(cli, ["store", "send", str(root)]).output
@@ -233,9 +233,9 @@ def test_readers_over_the_shared_store_match_the_notebooks_combined(store, tmp_p
     per_notebook = [json.loads(runner.invoke(cli, ["gaps", str(r), "--json"]).output)
                     for r in roots]  # fmt: skip
     assert len(shared_json) == sum(len(rows) for rows in per_notebook) > 0
-    assert {r["entry"] for r in shared_json} == {
-        f"{root.name}/{row['entry']}" for root, rows in zip(roots, per_notebook, strict=True)
-        for row in rows}  # fmt: skip
+    combined = [{**row, "entry": f"{root.name}/{row['entry']}"}
+                for root, rows in zip(roots, per_notebook, strict=True) for row in rows]  # fmt: skip
+    assert sorted(shared_json, key=json.dumps) == sorted(combined, key=json.dumps)
     one = json.loads(runner.invoke(cli, ["gaps", "--store", store, "--notebook", "south-wing",
                                          "--json"]).output)  # fmt: skip
     assert len(one) == len(per_notebook[1])
@@ -313,3 +313,17 @@ def test_a_writer_touches_only_its_own_notebook_and_nobody_rewrites_history(
             with pytest.raises(psycopg.errors.RaiseException, match="append-only"):
                 owner.execute(sql)
         assert owner.execute("SELECT COUNT(*) FROM history").fetchone()[0] == 20
+
+
+def test_readers_need_a_folder_or_a_store_and_status_needs_an_address(notebook):
+    notebook.write("e.md", entry_md("product: {name: P, mass: 1 g}"))
+    res = CliRunner().invoke(cli, ["gaps"])
+    assert res.exit_code == 2 and "give a notebook folder PATH, or --store URL" in res.output
+    res = CliRunner().invoke(cli, ["report", str(notebook.root), "--store", "postgresql://x@h/d",
+                                   "-o", "r.html"])  # fmt: skip
+    assert res.exit_code == 2 and "not both" in res.output
+    res = CliRunner().invoke(cli, ["store", "status", str(notebook.root)], env={ENV_URL: ""})
+    assert res.exit_code == 2 and "no shared store" in res.output
+    notebook.write("masstrail.toml", '[store]\nenabled = false\nurl = "postgresql://lab@h/d"\n')
+    res = CliRunner().invoke(cli, ["scan", str(notebook.root)])
+    assert res.exit_code == 2 and "leave [store] enabled = true" in res.output

@@ -19,7 +19,12 @@ from capture.cli.common import (
     num,
     open_notebook,
 )
-from capture.cli.shared import needs_path_or_store, shared_results, store_options
+from capture.cli.shared import (
+    needs_path_or_store,
+    shared_results,
+    store_gap_rows,
+    store_options,
+)
 
 
 @cli.command()
@@ -69,8 +74,11 @@ def gaps(path, author, group_, project, since, until, store_url, notebook_name, 
             fail("--late reads a notebook's own store: give its folder instead of --store")
         from capture.store.address import shown
 
-        results = shared_results(store_url, notebook_name)
-        rows = gap_rows(results, flt)
+        if by:
+            results = list(shared_results(store_url, notebook_name))
+            rows = gap_rows(results, flt)
+        else:  # from the tables: no result is parsed
+            rows = store_gap_rows(store_url, notebook_name, flt)
         path = shown(store_url)
     else:
         rows, results = gap_list(open_notebook(path), flt, late=late)

@@ -40,18 +40,31 @@ def needs_path_or_store(path, store_url) -> None:
 
 def shared_results(url: str, notebook: str | None):
     """The shared store's current results as :class:`Result` objects (paths as
-    ``NOTEBOOK/PATH``); StoreError exits 2 with its message."""
+    ``NOTEBOOK/PATH``), one at a time from a server-side cursor; StoreError exits 2 with its
+    message."""
     from capture.models import Result
     from capture.store import StoreError, shared
 
     try:
         with shared.connect(url) as conn:
             shared.require_current(conn, url)
-            out = []
             for r in shared.results(conn, notebook):
                 r.pop("notebook", None)
-                out.append(Result.model_validate(r))
-            return out
+                yield Result.model_validate(r)
+    except StoreError as exc:
+        fail(str(exc))
+
+
+def store_gap_rows(url: str, notebook: str | None, flt):
+    """The gap rows of the shared store's entries that ``flt`` keeps (read from its tables);
+    StoreError exits 2 with its message."""
+    from capture.store import StoreError, shared
+    from capture.views.gaplist import gap_rows_of_store
+
+    try:
+        with shared.connect(url) as conn:
+            shared.require_current(conn, url)
+            return gap_rows_of_store(shared.gap_lines(conn, notebook), flt)
     except StoreError as exc:
         fail(str(exc))
 

@@ -68,7 +68,7 @@ CREATE TABLE IF NOT EXISTS history (
 );
 CREATE TABLE IF NOT EXISTS outbox (
     seq INTEGER PRIMARY KEY AUTOINCREMENT, kind TEXT NOT NULL, entry_path TEXT NOT NULL,
-    computed_at TEXT NOT NULL, payload TEXT, streams TEXT
+    computed_at TEXT NOT NULL, payload TEXT, rows TEXT
 );
 CREATE INDEX IF NOT EXISTS materials_entry ON materials(entry_path);
 CREATE INDEX IF NOT EXISTS gaps_entry ON gaps(entry_path);
@@ -266,20 +266,19 @@ def child_rows(result: Result) -> dict[str, list[tuple]]:
     }  # fmt: skip
 
 
-def _write(
-    conn: sqlite3.Connection, result: Result, now: str, children: dict[str, list[tuple]]
-) -> bool:
-    """Replace the entry's row and append its history row; True if history grew. Its rows
-    for the other current tables are added to ``children``, inserted after all entries."""
+def _write(conn: sqlite3.Connection, result: Result, now: str, payload: str,
+           rows: dict[str, list[tuple]], children: dict[str, list[tuple]]) -> bool:  # fmt: skip
+    """Replace the entry's row and append its history row (``payload``: the result's JSON);
+    True if history grew. Its ``rows`` for the other current tables are added to
+    ``children``, inserted after all entries."""
     path = result.entry.path
     if result.status == "error" and _keeps_last_good(conn, result, now):
-        return _append_history(conn, result, now)
+        return _append_history(conn, result, now, payload)
     conn.execute("DELETE FROM entries WHERE path = ?", (path,))  # cascades to the rest
     conn.execute(_INSERT_ENTRY, entry_row(result, now))
-    if result.status == "ok":
-        for table, rows in child_rows(result).items():
-            children.setdefault(table, []).extend(rows)
-    return _append_history(conn, result, now)
+    for table, table_rows in rows.items():
+        children.setdefault(table, []).extend(table_rows)
+    return _append_history(conn, result, now, payload)
 
 
 ENTRY_COLUMNS = ("path", "id", "title", "author", "grp", "project", "date", "sha256", "status",
@@ -322,7 +321,7 @@ def _keeps_last_good(conn: sqlite3.Connection, result: Result, now: str) -> bool
     return True
 
 
-def _append_history(conn: sqlite3.Connection, result: Result, now: str) -> bool:
+def _append_history(conn: sqlite3.Connection, result: Result, now: str, payload: str) -> bool:
     """Append the result to the history (once per entry bytes and masstrail version)."""
     if not result.entry.sha256:
         return False
@@ -335,7 +334,7 @@ def _append_history(conn: sqlite3.Connection, result: Result, now: str) -> bool:
             result.entry.sha256,
             __version__,
             now,
-            result.model_dump_json(by_alias=True),
+            payload,
         ),  # the sidecar's JSON, without its indent
     )
     return cur.rowcount == 1
@@ -351,8 +350,8 @@ def _now() -> str:
     return dt.datetime.now(dt.UTC).isoformat(timespec="milliseconds")
 
 
-# the result as its sidecar's JSON, and its materials' waste streams (not in the sidecar)
-_QUEUE = "INSERT INTO outbox (kind, entry_path, computed_at, payload, streams) VALUES (?,?,?,?,?)"
+# the result as its sidecar's JSON, and its rows of the current tables as JSON
+_QUEUE = "INSERT INTO outbox (kind, entry_path, computed_at, payload, rows) VALUES (?,?,?,?,?)"
 
 
 def _same(conn: sqlite3.Connection, result: Result) -> bool:
@@ -383,16 +382,18 @@ def write_results(
                 conn.execute(_QUEUE, ("clear", "", now, None, None))
         children: dict[str, list[tuple]] = {}
         latest = {r.entry.path: r for r in results}  # an entry handed over twice: its last
-        send = [r for r in latest.values() if clear or not _same(conn, r)] if queue else []
-        for r in latest.values():
-            added += _write(conn, r, now, children)
-        for table, rows in children.items():  # one prepared statement per table
-            conn.executemany(_INSERT[table], rows)
-        if queue:
-            conn.executemany(_QUEUE, [("result", r.entry.path, now,
-                                       r.model_dump_json(by_alias=True),
-                                       json.dumps([m.stream for m in r.materials]))
-                                      for r in send])  # fmt: skip
+        send = {p for p, r in latest.items() if clear or not _same(conn, r)} if queue else set()
+        queued = []
+        for path, r in latest.items():
+            payload = r.model_dump_json(by_alias=True)
+            rows = child_rows(r) if r.status == "ok" else {}
+            added += _write(conn, r, now, payload, rows, children)
+            if path in send:  # the rows as written here: the shared store applies them as such
+                queued.append(("result", path, now, payload,
+                               json.dumps({"entry": entry_row(r, now), "rows": rows})))  # fmt: skip
+        for table, table_rows in children.items():  # one prepared statement per table
+            conn.executemany(_INSERT[table], table_rows)
+        conn.executemany(_QUEUE, queued)
         conn.execute("COMMIT")
     except BaseException:
         conn.execute("ROLLBACK")

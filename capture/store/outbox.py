@@ -16,6 +16,7 @@ from __future__ import annotations
 import contextlib
 import os
 import sqlite3
+import threading
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -28,9 +29,7 @@ from capture.store.database import StoreError
 
 SHARE = 200  # queued items per transaction on the shared store
 RETRY_AFTER = 5.0  # seconds before a writer tries an unreachable server again
-_NEXT = (
-    "SELECT seq, kind, entry_path, computed_at, payload, streams FROM outbox ORDER BY seq LIMIT ?"
-)
+_NEXT = "SELECT seq, kind, entry_path, computed_at, payload, rows FROM outbox ORDER BY seq LIMIT ?"
 _failed: dict[str, float] = {}  # address → when it last could not be reached (this process)
 
 
@@ -61,6 +60,49 @@ def _lock(root: Path) -> int | None:
     return None
 
 
+# this process's open connections to shared stores, each checked once (schema, notebook)
+_open: dict[tuple[str, int, int], tuple] = {}
+
+
+def _connection(url: str, notebook: str, name: str, root: Path):
+    """This process's and thread's connection to the shared store, opened once and reused
+    (a scan sends after every share of entries); its schema checked and the notebook
+    registered when it is opened."""
+    key = (url, os.getpid(), threading.get_ident())
+    held = _open.get(key)
+    if held is not None and not held[0].closed and notebook in held[1]:
+        return held[0]
+    conn = held[0] if held is not None and not held[0].closed else shared.connect(url, 3)
+    known = held[1] if held is not None and not held[0].closed else set()
+    shared.require_current(conn, url)
+    with conn.transaction():
+        shared.register(conn, notebook, name, str(root.resolve()))
+    _open[key] = (conn, known | {notebook})
+    return conn
+
+
+def _drop(url: str) -> None:
+    """Close this thread's connection to ``url`` after an error (the next send opens anew)."""
+    held = _open.pop((url, os.getpid(), threading.get_ident()), None)
+    if held is not None:
+        with contextlib.suppress(Exception):
+            held[0].close()
+
+
+def _send_all(local: sqlite3.Connection, conn, notebook: str) -> int:
+    """Send the whole queue, a share at a time; how many items were sent."""
+    done = 0
+    while True:
+        items = local.execute(_NEXT, (SHARE,)).fetchall()
+        if not items:
+            return done
+        shared.apply(conn, notebook, items)  # committed there first …
+        local.execute("BEGIN IMMEDIATE")  # … then it leaves the queue
+        local.execute("DELETE FROM outbox WHERE seq <= ?", (items[-1][0],))
+        local.execute("COMMIT")
+        done += len(items)
+
+
 def send(local: sqlite3.Connection, root: Path, url: str, notebook: str, name: str,
          force: bool = False) -> Sent:  # fmt: skip
     """Send the notebook's queue to the shared store at ``url``, oldest first. Without
@@ -75,25 +117,19 @@ def send(local: sqlite3.Connection, root: Path, url: str, notebook: str, name: s
         return Sent(waiting=waiting(local)[0], busy=True)
     done = 0
     try:
-        with shared.connect(url, timeout=3) as conn:
-            shared.require_current(conn, url)
-            with conn.transaction():
-                shared.register(conn, notebook, name, str(root.resolve()))
-            while True:
-                items = local.execute(_NEXT, (SHARE,)).fetchall()
-                if not items:
-                    break
-                shared.apply(conn, notebook, items)  # committed there first …
-                local.execute("BEGIN IMMEDIATE")  # … then it leaves the queue
-                local.execute("DELETE FROM outbox WHERE seq <= ?", (items[-1][0],))
-                local.execute("COMMIT")
-                done += len(items)
+        try:
+            done = _send_all(local, _connection(url, notebook, name, root), notebook)
+        except Exception:  # a connection kept open across a server restart: once more, anew
+            _drop(url)
+            done = _send_all(local, _connection(url, notebook, name, root), notebook)
         _failed.pop(url, None)
         return Sent(sent=done, waiting=waiting(local)[0])
     except StoreError as exc:
+        _drop(url)
         _failed[url] = time.monotonic()
         return Sent(sent=done, waiting=waiting(local)[0], error=str(exc))
     except Exception as exc:  # psycopg's errors: the server went away, a right is missing
+        _drop(url)
         _failed[url] = time.monotonic()
         first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
         return Sent(sent=done, waiting=waiting(local)[0],

@@ -25,9 +25,8 @@ import json
 from collections.abc import Iterator
 from typing import Any
 
-from capture.models import Result
 from capture.store.address import shown
-from capture.store.database import COLUMNS, ENTRY_COLUMNS, StoreError, child_rows, entry_row
+from capture.store.database import COLUMNS, ENTRY_COLUMNS, StoreError
 
 POSTGRES_EXTRA = ("the shared store needs the postgres extra: pip install 'masstrail[postgres]' "
                   "(from a checkout: pip install -e '.[postgres]')")  # fmt: skip
@@ -136,8 +135,9 @@ def connect(url: str, timeout: float = 5):
     except ImportError as exc:
         raise StoreError(POSTGRES_EXTRA) from exc
     try:
-        return psycopg.connect(url, connect_timeout=max(1, int(timeout)),
-                               application_name="masstrail")  # fmt: skip
+        return psycopg.connect(
+            url, connect_timeout=max(1, int(timeout)), autocommit=True, application_name="masstrail"
+        )  # each write: conn.transaction()
     except psycopg.Error as exc:
         why = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise StoreError(f"the shared store at {shown(url)} cannot be reached: {why}") from exc
@@ -157,7 +157,7 @@ def migrate(url: str, target: int = SCHEMA_VERSION, first: bool = False) -> tupl
     """Run the migrations from the store's version up to ``target``; (before, after).
     ``first``: only on a database masstrail has not set up (``store init``)."""
     with connect(url) as conn:
-        conn.execute("SELECT pg_advisory_xact_lock(727274)")  # one migrator at a time
+        conn.execute("SELECT pg_advisory_lock(727274)")  # one migrator at a time
         before = version(conn)
         if first and before:
             raise StoreError(
@@ -166,7 +166,6 @@ def migrate(url: str, target: int = SCHEMA_VERSION, first: bool = False) -> tupl
             )
         if not first and not before:
             raise StoreError(f"{shown(url)} is not a masstrail store yet: masstrail store init")
-        conn.commit()
         for number, _what, sql in MIGRATIONS:
             if before < number <= target:
                 with conn.transaction():
@@ -219,46 +218,48 @@ def _plain(value: Any) -> Any:
     return int(value) if isinstance(value, bool) else value  # SQLite's 0/1, kept as integers
 
 
-def _result(cur, notebook: str, payload: str, at: str, streams: str | None) -> None:
-    r = Result.model_validate_json(payload)
-    for m, stream in zip(r.materials, json.loads(streams or "[]"), strict=False):
-        m.stream = stream
-    path = r.entry.path
+_E = {c: i for i, c in enumerate(ENTRY_COLUMNS)}
+
+
+def _result(cur, notebook: str, payload: str, at: str, rows_json: str) -> None:
+    """One queued result: its rows as the local store wrote them (no model is rebuilt)."""
+    rows = json.loads(rows_json)
+    entry, path = rows["entry"], rows["entry"][_E["path"]]
     known = cur.execute("SELECT status, stale_since FROM entries WHERE notebook = %s AND "
                         "path = %s", (notebook, path)).fetchone()  # fmt: skip
-    if r.status == "error" and known is not None and (known[0] == "ok" or known[1]):
+    if entry[_E["status"]] == "error" and known is not None and (known[0] == "ok" or known[1]):
         cur.execute(  # the last good figures stay, marked stale (as in the local store)
             "UPDATE entries SET status = 'error', error = %s, error_location = %s, sha256 = %s, "
             "inputs_sha256 = %s, updated_at = %s, stale_since = COALESCE(stale_since, %s), "
             "gaps_blocking = 0, gaps_major = 0, gaps_minor = 0, result = %s "
             "WHERE notebook = %s AND path = %s",
-            (r.error.message if r.error else None, r.error.location if r.error else None,
-             r.entry.sha256, r.entry.inputs_sha256, at, at, payload, notebook, path),
+            (entry[_E["error"]], entry[_E["error_location"]], entry[_E["sha256"]],
+             entry[_E["inputs_sha256"]], at, at, payload, notebook, path),
         )  # fmt: skip
     else:
         cur.execute("DELETE FROM entries WHERE notebook = %s AND path = %s", (notebook, path))
-        cur.execute(_PG_ENTRY, (notebook, *entry_row(r, at), payload))
-        if r.status == "ok":
-            for table, rows in child_rows(r).items():
-                if rows:
-                    cur.executemany(_PG_INSERT[table], [(notebook, *map(_plain, row))
-                                                        for row in rows])  # fmt: skip
-    if r.entry.sha256:
+        cur.execute(_PG_ENTRY, (notebook, *entry, payload))
+        for table, table_rows in rows["rows"].items():
+            if table_rows:
+                cur.executemany(_PG_INSERT[table], [(notebook, *map(_plain, row))
+                                                    for row in table_rows])  # fmt: skip
+    if entry[_E["sha256"]]:
         cur.execute(
             "INSERT INTO history (notebook, entry_path, entry_id, sha256, tool_version, "
             "computed_at, result) VALUES (%s,%s,%s,%s,%s,%s,%s) ON CONFLICT DO NOTHING",
-            (notebook, path, r.entry.id, r.entry.sha256, r.generator.split()[-1], at, payload),
-        )
+            (notebook, path, entry[_E["id"]], entry[_E["sha256"]], entry[_E["tool_version"]],
+             at, payload),
+        )  # fmt: skip
 
 
 def apply(conn, notebook: str, items: list[tuple]) -> None:
-    """Apply queued items ``(seq, kind, entry path, computed at, payload, streams)`` in order,
+    """Apply queued items ``(seq, kind, entry path, computed at, payload, rows)`` in order,
     in one transaction: a result replaces the entry's rows and appends its history; ``remove``
     drops an entry's rows; ``clear`` drops all of the notebook's (a rebuild)."""
     with conn.transaction(), conn.cursor() as cur:
-        for _seq, kind, path, at, payload, streams in items:
+        for _seq, kind, path, at, payload, rows in items:
             if kind == "result":
-                _result(cur, notebook, payload or "", at, streams)
+                _result(cur, notebook, payload or "", at, rows)
             elif kind == "remove":
                 cur.execute("DELETE FROM entries WHERE notebook = %s AND path = %s",
                             (notebook, path))  # fmt: skip
@@ -286,13 +287,31 @@ def results(conn, notebook: str | None = None) -> Iterator[dict]:
     """Every current result (the sidecar's content), notebook by notebook; the entry's path is
     given as ``NOTEBOOK/PATH`` and ``notebook`` names its notebook."""
     for nb_id, name in _which(conn, notebook):
-        with conn.cursor(name=f"results_{nb_id[:8]}") as cur:  # server-side: not all at once
+        with conn.transaction(), conn.cursor(name=f"results_{nb_id[:8]}") as cur:
+            # server-side: the rows come a share at a time, not all at once
             cur.execute("SELECT result FROM entries WHERE notebook = %s ORDER BY path", (nb_id,))
             for (text,) in cur:
                 r = json.loads(text)
                 r["entry"]["path"] = f"{name}/{r['entry']['path']}"
                 r["notebook"] = name
                 yield r
+
+
+def gap_lines(conn, notebook: str | None = None) -> Iterator[tuple]:
+    """Every current entry with each of its gaps, straight from the tables (no result is
+    parsed): ``(entry as NOTEBOOK/PATH, id, author, group, project, date, status, error,
+    severity, kind, item, allowance_g, message)``; an entry without gaps once, its gap
+    columns None."""
+    ids = [i for i, _ in _which(conn, notebook)]
+    with conn.transaction(), conn.cursor(name="gap_lines") as cur:
+        cur.execute(
+            "SELECT n.name || '/' || e.path, e.id, e.author, e.grp, e.project, e.date, e.status, "
+            "e.error, g.severity, g.kind, g.item, g.allowance_g, g.message FROM entries e "
+            "JOIN notebooks n ON n.id = e.notebook LEFT JOIN gaps g ON g.notebook = e.notebook "
+            "AND g.entry_path = e.path WHERE e.notebook = ANY(%s) ORDER BY n.name, e.path, g.id",
+            (ids,),
+        )
+        yield from cur
 
 
 def history_rows(conn, notebook: str, path: str) -> list[dict]:

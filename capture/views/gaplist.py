@@ -61,6 +61,29 @@ def gap_rows(results: Iterable[Result], flt: GapFilter) -> list[GapRow]:
     return rows
 
 
+def gap_rows_of_store(lines: Iterable[tuple], flt: GapFilter) -> list[GapRow]:
+    """The rows :func:`gap_rows` gives, from the shared store's ``gap_lines`` (its tables, not
+    its results): an unreadable entry as one blocking gap, as there."""
+    rows: list[GapRow] = []
+    told = None  # the unreadable entry last told (its last good gaps are joined too)
+    for entry, id_, author, group, project, date, status, error, *gap in lines:
+        meta = {"author": author, "group": group, "project": project, "date": date}
+        if not flt.keeps_meta(meta):
+            continue
+        if status == "error":
+            if entry != told:
+                rows.append(GapRow(entry=entry, id=id_, severity="blocking",
+                                   kind="unreadable_entry", item=entry, allowance_g=None,
+                                   message=error or "", **meta))  # fmt: skip
+                told = entry
+            continue
+        severity, kind, item, allowance, message = gap
+        if severity is not None and SEVERITY_RANK[severity] <= SEVERITY_RANK[flt.severity]:
+            rows.append(GapRow(entry=entry, id=id_, severity=severity, kind=kind, item=item,
+                               allowance_g=allowance, message=message or "", **meta))  # fmt: skip
+    return rows
+
+
 class GroupSummary(BaseModel):
     """Gap counts for one author, group or project."""
 
