@@ -108,3 +108,16 @@ def test_gaps_command_exit_codes_json_and_csv(notebook, tmp_path):
     res = runner.invoke(cli, ["gaps", str(notebook.root), "--since", "2026-13-01"])
     assert res.exit_code == 2 and "is not a date" in res.output
     assert not list(notebook.root.rglob("*.waste.json"))  # gaps writes nothing
+
+
+def test_the_gap_table_shows_the_first_rows_and_says_how_to_see_them_all(notebook):
+    """Hundreds of gaps (a department's store) are not a table to read: the first 200 are
+    shown, the title says how many there are and how to get them all; JSON lists every one."""
+    for n in range(205):
+        notebook.write(f"e{n:03d}.md", "---\ntitle: unweighed\n---\nStirred.\n")
+    res = CliRunner().invoke(cli, ["gaps", str(notebook.root)])
+    said = " ".join(res.output.split())  # the terminal's width folds the title
+    assert "(the first 200 of 205 shown: --csv FILE or --json for all" in said
+    assert "205 gap(s) in 205 entries" in said and said.count("e204.md") == 0
+    rows = json.loads(CliRunner().invoke(cli, ["gaps", str(notebook.root), "--json"]).output)
+    assert len(rows) == 205

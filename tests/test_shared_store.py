@@ -103,6 +103,17 @@ def test_the_example_notebook_gives_the_same_rows_in_sqlite_and_postgresql(store
         assert shared.current_tables(conn, notebook_id(root)) == database.current_tables(local)
         assert len(shared.current_tables(conn, notebook_id(root))["entries"]) == 9
         assert shared.history_count(conn) == 10
+    # a save that cannot be read: its last good figures stay there too, marked stale
+    broken = root / "fenwick-group" / "FW-0412-amide-coupling.md"
+    broken.write_text(broken.read_text().replace("title: Amide", "title: [Amide"))
+    scan(Notebook.open(root))
+    with shared.connect(store) as conn:
+        assert shared.current_tables(conn, notebook_id(root)) == database.current_tables(local)
+        status, stale, gaps = conn.execute(
+            "SELECT status, stale_since, (SELECT COUNT(*) FROM gaps g WHERE g.notebook = "
+            "e.notebook AND g.entry_path = e.path) FROM entries e WHERE path = %s",
+            ("fenwick-group/FW-0412-amide-coupling.md",)).fetchone()  # fmt: skip
+        assert status == "error" and stale is not None and gaps > 0
 
 
 def test_a_password_never_sits_in_the_config_and_is_never_shown(notebook):
@@ -215,6 +226,11 @@ def test_four_watchers_write_concurrently_and_lose_nothing_across_a_server_resta
         for p in procs:
             p.terminate()
             p.wait(timeout=10)
+    told = [p.stdout.read() for p in procs]
+    assert any("cannot be reached" in out for out in told)  # said, once per watcher …
+    for out in told:
+        assert out.count("cannot be reached") <= 1
+        assert ("cannot be reached" in out) <= ("answers again; " in out)  # … and the return
     with shared.connect(store) as conn:
         for root in roots:
             nb = notebook_id(root)
@@ -236,8 +252,9 @@ def test_readers_over_the_shared_store_match_the_notebooks_combined(store, tmp_p
     combined = [{**row, "entry": f"{root.name}/{row['entry']}"}
                 for root, rows in zip(roots, per_notebook, strict=True) for row in rows]  # fmt: skip
     assert sorted(shared_json, key=json.dumps) == sorted(combined, key=json.dumps)
-    one = json.loads(runner.invoke(cli, ["gaps", "--store", store, "--notebook", "south-wing",
-                                         "--json"]).output)  # fmt: skip
+    one = json.loads(
+        runner.invoke(cli, ["gaps", "--store", "--notebook", "south-wing", "--json"]).output
+    )  # --store alone: MASSTRAIL_STORE_URL
     assert len(one) == len(per_notebook[1])
     res = runner.invoke(cli, ["gaps", "--store", store, "--notebook", "east-wing"])
     assert res.exit_code == 2 and "north-wing, south-wing" in res.output

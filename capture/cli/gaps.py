@@ -10,6 +10,7 @@ import click
 
 from capture.cli.common import (
     EXIT_FINDINGS,
+    TABLE_ROWS,
     cli,
     console,
     entry_filters,
@@ -95,11 +96,25 @@ def gaps(path, author, group_, project, since, until, store_url, notebook_name, 
         elif csv_file != "-":
             _print_summary(by, summary)
     elif as_json:
-        click.echo(json.dumps([r.model_dump() for r in rows], indent=2))
+        _echo_json(rows)
     elif csv_file != "-":
         _print_rows(path, rows)
     if any(r.severity == "blocking" for r in rows):
         sys.exit(EXIT_FINDINGS)
+
+
+def _echo_json(rows) -> None:
+    """The rows as a JSON list (as ``json.dumps(list, indent=2)`` writes it), one row at a
+    time: a department's hundreds of thousands of gaps are never one string in memory."""
+    if not rows:
+        click.echo("[]")
+        return
+    last = len(rows) - 1
+    click.echo("[")
+    for i, r in enumerate(rows):
+        text = json.dumps(r.model_dump(), indent=2).replace("\n", "\n  ")
+        click.echo(f"  {text}{',' if i < last else ''}")
+    click.echo("]")
 
 
 def _print_summary(by: str, summary) -> None:
@@ -119,10 +134,14 @@ def _print_rows(path: Path, rows) -> None:
 
     from capture.run import CAUTION
 
-    t = Table(title=f"record gaps under {path}", title_justify="left")
+    title = f"record gaps under {path}"
+    if len(rows) > TABLE_ROWS:
+        title += (f" (the first {TABLE_ROWS} of {len(rows)} shown: --csv FILE or --json for "
+                  "all, --by group to count them)")  # fmt: skip
+    t = Table(title=title, title_justify="left")
     for col in ("entry", "author", "severity", "missing", "about", "what to do"):
         t.add_column(col, overflow="fold", justify="right" if col == "about" else "left")
-    for r in rows:
+    for r in rows[:TABLE_ROWS]:
         t.add_row(esc(r.entry), esc(r.author or "—"), r.severity, esc(f"{r.item} ({r.kind})"),
                   f"{num(r.allowance_g, '.3g')} g" if r.allowance_g else "?",
                   esc(r.message))  # fmt: skip

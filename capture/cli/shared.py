@@ -25,9 +25,24 @@ def store_options(fn):
         "--store",
         "store_url",
         metavar="URL",
+        is_flag=False,
+        flag_value=CONFIGURED,
+        callback=_configured_store,
         help="Read the shared PostgreSQL store at URL (all notebooks) instead of a notebook "
-        "folder; the password from PGPASSWORD, ~/.pgpass or a service file.",
+        "folder; --store alone: MASSTRAIL_STORE_URL, else [store] url of ./masstrail.toml. "
+        "The password from PGPASSWORD, ~/.pgpass or a service file.",
     )(fn)
+
+
+CONFIGURED = "\0configured"  # --store given without a URL
+
+
+def _configured_store(_ctx, _param, value: str | None) -> str | None:
+    if value != CONFIGURED:
+        return value
+    from capture.config import CONFIG_NAME
+
+    return _url(None, Path.cwd() if (Path.cwd() / CONFIG_NAME).is_file() else None)
 
 
 def needs_path_or_store(path, store_url) -> None:

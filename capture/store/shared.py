@@ -225,9 +225,11 @@ def _result(cur, notebook: str, payload: str, at: str, rows_json: str) -> None:
     """One queued result: its rows as the local store wrote them (no model is rebuilt)."""
     rows = json.loads(rows_json)
     entry, path = rows["entry"], rows["entry"][_E["path"]]
-    known = cur.execute("SELECT status, stale_since FROM entries WHERE notebook = %s AND "
-                        "path = %s", (notebook, path)).fetchone()  # fmt: skip
-    if entry[_E["status"]] == "error" and known is not None and (known[0] == "ok" or known[1]):
+    known = None
+    if entry[_E["status"]] == "error":  # (asked only then: a pipeline waits for an answer)
+        known = cur.execute("SELECT status, stale_since FROM entries WHERE notebook = %s AND "
+                            "path = %s", (notebook, path)).fetchone()  # fmt: skip
+    if known is not None and (known[0] == "ok" or known[1]):
         cur.execute(  # the last good figures stay, marked stale (as in the local store)
             "UPDATE entries SET status = 'error', error = %s, error_location = %s, sha256 = %s, "
             "inputs_sha256 = %s, updated_at = %s, stale_since = COALESCE(stale_since, %s), "
@@ -256,7 +258,7 @@ def apply(conn, notebook: str, items: list[tuple]) -> None:
     """Apply queued items ``(seq, kind, entry path, computed at, payload, rows)`` in order,
     in one transaction: a result replaces the entry's rows and appends its history; ``remove``
     drops an entry's rows; ``clear`` drops all of the notebook's (a rebuild)."""
-    with conn.transaction(), conn.cursor() as cur:
+    with conn.transaction(), conn.pipeline(), conn.cursor() as cur:  # one round trip a share
         for _seq, kind, path, at, payload, rows in items:
             if kind == "result":
                 _result(cur, notebook, payload or "", at, rows)

@@ -52,7 +52,11 @@ def _send(root: Path, config: LabConfig, force: bool = False) -> None:
         return
     nb, name = _identity(root, config.store.notebook)
     done = send(connection(root, config), root, url, nb, name, force=force)
-    if done.error and not done.error.startswith("not tried") and url not in _told_shared:
+    if url in _told_shared and done.sent and not done.error:
+        _told_shared.discard(url)
+        print(f"masstrail: the shared store answers again; {done.sent} result(s) that waited "
+              f"were sent, {done.waiting} wait", file=sys.stderr)  # fmt: skip
+    elif done.error and not done.error.startswith("not tried") and url not in _told_shared:
         _told_shared.add(url)
         print(f"masstrail: {done.error}; {done.waiting} result(s) wait in the local store and "
               f"are sent when it can be reached (masstrail store status {root})",
