@@ -154,6 +154,14 @@ def test_cards_are_capped_and_the_worst_entries_get_them(lab, tmp_path):
     assert [f'id="entry-{i}"' in html for (i,) in worst] == [True, True, True]
 
 
+def test_no_cards_at_all_is_a_report_of_figures_only(lab, tmp_path):
+    out = tmp_path / "r.html"
+    res = CliRunner().invoke(cli, ["report", str(lab), "-o", str(out), "--cards", "0"])
+    assert res.exit_code == 0, res.output  # it once failed on an empty heap
+    html = out.read_text()
+    assert html.count('class="card"') == 0 and '<span id="n-entries">10</span>' in html
+
+
 def test_a_name_with_dollar_signs_is_drawn_as_text(tmp_path):
     """'$…$' is matplotlib's math markup; a material named '$\\alpha$-pinene$' or 'Cu$_2$O' must
     not break the report."""

@@ -265,6 +265,18 @@ def test_readers_over_the_shared_store_match_the_notebooks_combined(store, tmp_p
     html = out.read_text(encoding="utf-8")
     assert '<span id="n-entries">20</span>' in html and 'class="by-notebook"' in html
     assert html.count("<td>north-wing</td>") == 2 and html.count("<td>south-wing</td>") == 2
+    # its figures are the two notebooks' results taken together
+    from capture.views.filters import GapFilter
+    from capture.views.report import figures
+
+    local = [json.loads(p.read_text()) for r in roots for p in sorted(r.rglob("*.waste.json"))]
+    with shared.connect(store) as conn:
+        theirs = figures(list(shared.results(conn)), GapFilter(), cards=0)
+    ours = figures(local, GapFilter(), cards=0)
+    for key in ("n_entries", "medians", "by_group", "by_project", "by_month", "streams", "top",
+                "gaps_by_author", "gaps_by_group"):  # fmt: skip
+        assert theirs[key] == ours[key], key
+    assert [row[:2] for row in theirs["by_notebook"]] == [("north-wing", 10), ("south-wing", 10)]
     single = tmp_path / "north.html"
     runner.invoke(cli, ["report", str(roots[0]), "-o", str(single)])
     north = single.read_text(encoding="utf-8")

@@ -98,7 +98,7 @@ class _Tally:
             key = (count["blocking"], count["major"], count["minor"], meta.get("date") or "", -n)
             if len(self.heap) < self.cards:
                 heapq.heappush(self.heap, (key, n, r))
-            elif key > self.heap[0][0]:
+            elif self.heap and key > self.heap[0][0]:  # (none kept with --cards 0)
                 heapq.heapreplace(self.heap, (key, n, r))
 
     def _figures(self, r: dict, meta: dict) -> None:
