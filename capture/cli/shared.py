@@ -165,7 +165,8 @@ def status(path: Path) -> None:
             click.echo(f"reachable; it holds {shared.history_count(pg, nb_id)} history row(s) "
                        "of this notebook")  # fmt: skip
     except StoreError as exc:
-        click.echo(f"not reachable now: {exc}")
+        missing = str(exc) == shared.POSTGRES_EXTRA
+        click.echo(f"{'not checked' if missing else 'not reachable now'}: {exc}")
 
 
 @store.command()
