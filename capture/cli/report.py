@@ -98,31 +98,16 @@ def export(path: Path, fmt: str, output: Path | None, creator: str | None, autho
         _export_ord(path, output, creator, gap_filter(author, group_, project, since, until))
         return
     from capture.scan import default_jobs
-    from capture.views.export import TABLES, export_csv, export_json, export_notebook
+    from capture.views.export import TABLES, export_notebook, table_rows
 
     conn = export_notebook(open_notebook(path), jobs=jobs or default_jobs())
-    if fmt == "json":
-        text = export_json(conn)
-        if output:
-            output.write_text(text, encoding="utf-8")
-            click.echo(f"wrote {output}", err=True)
-        else:
-            click.echo(text, nl=False)
-        return
-    written = export_csv(conn, output or Path("masstrail-export"))
-    click.echo(f"wrote {', '.join(str(p) for p in written)} ({', '.join(TABLES)})")
+    _write_tables({table: table_rows(conn, table) for table in TABLES}, fmt, output)
 
 
-def _export_shared(url: str, notebook: str | None, fmt: str, output: Path | None) -> None:
-    from capture.store import StoreError
-    from capture.views.export import TABLES, shared_tables, tables_csv, tables_json
+def _write_tables(tables: dict, fmt: str, output: Path | None) -> None:
+    """The tables as one JSON (to FILE or standard output) or a CSV file each in a folder."""
+    from capture.views.export import tables_csv, tables_json
 
-    if fmt == "ord":
-        fail("--format ord exports a notebook's entries: give its folder instead of --store")
-    try:
-        tables = shared_tables(url, notebook)
-    except StoreError as exc:
-        fail(str(exc))
     if fmt == "json":
         text = tables_json(tables)
         if output:
@@ -132,7 +117,20 @@ def _export_shared(url: str, notebook: str | None, fmt: str, output: Path | None
             click.echo(text, nl=False)
         return
     written = tables_csv(tables, output or Path("masstrail-export"))
-    click.echo(f"wrote {', '.join(str(p) for p in written)} ({', '.join(TABLES)})")
+    click.echo(f"wrote {', '.join(str(p) for p in written)} ({', '.join(tables)})")
+
+
+def _export_shared(url: str, notebook: str | None, fmt: str, output: Path | None) -> None:
+    from capture.store import StoreError
+    from capture.views.export import shared_tables
+
+    if fmt == "ord":
+        fail("--format ord exports a notebook's entries: give its folder instead of --store")
+    try:
+        tables = shared_tables(url, notebook)
+    except StoreError as exc:
+        fail(str(exc))
+    _write_tables(tables, fmt, output)
 
 
 def _export_ord(path: Path, output: Path | None, creator: str | None, flt) -> None:

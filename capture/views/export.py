@@ -16,17 +16,12 @@ if TYPE_CHECKING:
 TABLES = ("entries", "materials", "gaps", "metrics")
 
 
-def _rows(conn: sqlite3.Connection, table: str):
+def table_rows(conn: sqlite3.Connection, table: str):
     """The table's column names and its rows as dicts, in the order they were written."""
     import sqlite_utils
 
     t = sqlite_utils.Database(conn)[table]
     return list(t.columns_dict), t.rows_where(order_by="rowid")
-
-
-def export_csv(conn: sqlite3.Connection, folder: Path) -> list[Path]:
-    """One CSV per table in ``folder``; formula-like cells neutralised (OWASP, CWE-1236)."""
-    return tables_csv({table: _rows(conn, table) for table in TABLES}, folder)
 
 
 def tables_csv(tables: dict, folder: Path) -> list[Path]:
@@ -43,11 +38,6 @@ def tables_csv(tables: dict, folder: Path) -> list[Path]:
                 w.writerow([defuse(row[c]) for c in cols])
         written.append(path)
     return written
-
-
-def export_json(conn: sqlite3.Connection) -> str:
-    """All tables as one JSON object of lists of rows."""
-    return tables_json({table: _rows(conn, table) for table in TABLES})
 
 
 def tables_json(tables: dict) -> str:
@@ -69,7 +59,7 @@ def shared_tables(url: str, notebook: str | None) -> dict:
 
 def export_notebook(nb: Notebook, jobs: int = 1) -> sqlite3.Connection:
     """Bring the notebook's store up to date (a reusing scan) and return a connection to it,
-    for :func:`export_csv` or :func:`export_json`."""
+    for :func:`table_rows`, then :func:`tables_csv` or :func:`tables_json`."""
     from capture.scan import scan
     from capture.store.upkeep import open_store
 
