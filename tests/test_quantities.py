@@ -9,7 +9,15 @@ import pytest
 from hypothesis import example, given
 from hypothesis import strategies as st
 
-from capture.quantities import AmountError, normalise, parse_amount, parse_amounts
+from capture.quantities import (
+    FACTORS,
+    UNITS,
+    AmountError,
+    normalise,
+    parse_amount,
+    parse_amounts,
+    pint_factor,
+)
 
 GOLDEN = [
     # text, value, unit, multiplier, approximate, low, high
@@ -150,3 +158,24 @@ def test_odd_numbers_in_front_matter_and_text_are_named_never_misread(notebook):
     unread = {g["item"]: g["message"] for g in side["gaps"] if g["kind"] == "unread_amount"}
     assert "fraction sign" in unread["½ g"] and "superscript" in unread["10² mL"]
     assert all(m["mass_g"] != 102 for m in side["materials"])
+
+
+@pytest.mark.parametrize("written", sorted(UNITS))
+def test_every_units_factor_is_pints(written):
+    """The factor table the hot path uses (no pint import) against pint, the unit authority:
+    every unit masstrail reads converts as pint converts it, to within rounding, and is of
+    the dimension its kind promises."""
+    pint_unit, kind = UNITS[written]
+    assert pint_unit in FACTORS, pint_unit
+    assert FACTORS[pint_unit] == pytest.approx(pint_factor(pint_unit, kind), rel=1e-12)
+
+
+def test_reading_amounts_does_not_import_pint():
+    import subprocess
+    import sys
+
+    code = ("import sys; from capture.quantities import parse_amounts; "
+            "parse_amounts('3 x 20 mL'); parse_amounts('0.5 mmol'); parse_amounts('2.0 kg'); "
+            "print('pint' in sys.modules)")  # fmt: skip
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert out.stdout.strip() == "False", out.stderr
