@@ -119,7 +119,7 @@ def main() -> int:
         f"p95 {pct(fl, 95):.1f} ms"
     )
     print(f"watcher save-to-sidecar: p50 {pct(ms, 50):.1f} ms, p95 {pct(ms, 95):.1f} ms "
-          f"(target p95 ≤ 150 ms: {'met' if pct(ms, 95) <= 150 else 'NOT met'}); "
+          f"(target p95 ≤ 100 ms: {'met' if pct(ms, 95) <= 100 else 'NOT met'}); "
           f"p95 = {pct(ms, 95) / pct(fl, 95):.1f} × floor p95")  # fmt: skip
     print(f"idle CPU: {idle_cpu:.2f} s over {args.idle:g} s ({idle_cpu / args.idle:.1%})")
     if args.soak_minutes:

@@ -284,14 +284,13 @@ class Watcher:
         obs.start()
         self.observer = obs
 
-    def _stable(self, path: Path) -> bool:
+    @staticmethod
+    def _stat(path: Path) -> tuple[int, int] | None:
         try:
-            a = path.stat()
-            time.sleep(0.02)
-            b = path.stat()
+            st = path.stat()
         except OSError:
-            return True  # gone: handled as a delete
-        return (a.st_size, a.st_mtime_ns) == (b.st_size, b.st_mtime_ns)
+            return None  # gone: handled as a delete
+        return st.st_size, st.st_mtime_ns
 
     def run(self) -> None:
         """Catch up, then follow events until SIGINT/SIGTERM or ``stop`` is set."""
@@ -303,17 +302,22 @@ class Watcher:
             f"watching {self.root} ({mode}); {n} entr{'y' if n == 1 else 'ies'} brought up to "
             "date. Ctrl-C stops."
         )
-        pending: dict[Path, float] = {}
+        # a path with events → (time of its last event, its size and mtime then): it is handled
+        # once no event came for `settle` seconds and its stat has not changed since
+        pending: dict[Path, tuple[float, tuple[int, int] | None]] = {}
         next_rescan = time.monotonic() + self.rescan_every
         try:
             while not self.stop.is_set():
                 # sleep until an event, the next settle check or the next rescan: idle is idle
-                wait = 0.02 if pending else max(0.02, min(1.0, next_rescan - time.monotonic()))
+                now = time.monotonic()
+                due = min((seen + self.settle for seen, _ in pending.values()), default=None)
+                wait = (max(0.002, due - now) if due is not None
+                        else max(0.02, min(1.0, next_rescan - now)))  # fmt: skip
                 try:
                     path, kind = self.events.get(timeout=wait)
                     path = Path(os.path.abspath(path))
                     if self._relevant(path):
-                        pending[path] = time.monotonic()
+                        pending[path] = (time.monotonic(), self._stat(path))
                     elif kind == "created" and path.is_dir() and not path.name.startswith("."):
                         # a new folder: files written right after mkdir can race the watch
                         next_rescan = min(next_rescan, time.monotonic() + 0.5)
@@ -321,13 +325,17 @@ class Watcher:
                 except queue.Empty:
                     pass
                 now = time.monotonic()
-                for path, seen in list(pending.items()):
-                    if now - seen >= self.settle and self._stable(path):
-                        del pending[path]
-                        try:
-                            self.handle(path)  # as found: a link is never followed out
-                        except Exception as exc:  # one entry never stops the watcher
-                            self.echo(f"{path}: {exc!r}")
+                for path, (seen, stat) in list(pending.items()):
+                    if now - seen < self.settle:
+                        continue
+                    if self._stat(path) != stat:  # written since, with no event seen: wait on
+                        pending[path] = (now, self._stat(path))
+                        continue
+                    del pending[path]
+                    try:
+                        self.handle(path)  # as found: a link is never followed out
+                    except Exception as exc:  # one entry never stops the watcher
+                        self.echo(f"{path}: {exc!r}")
                 if now >= next_rescan:
                     self.catch_up("rescan")
                     next_rescan = now + self.rescan_every
