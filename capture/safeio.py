@@ -393,6 +393,61 @@ def replace_atomically(path: Path, data: bytes) -> None:
         raise
 
 
+def _syncfs():
+    """Linux's syncfs(2) through the C library, or None where there is none."""
+    import ctypes
+    import ctypes.util
+    import sys
+
+    if not sys.platform.startswith("linux"):
+        return None
+    try:
+        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6", use_errno=True)
+        return libc.syncfs
+    except (OSError, AttributeError):
+        return None
+
+
+def replace_all_atomically(items: list[tuple[Path, bytes]]) -> None:
+    """:func:`replace_atomically` for many files at once: every temp file is written, then
+    all are made durable together (one syncfs(2) of their file system on Linux, each
+    fsynced elsewhere or when syncfs fails), then each is moved over its target. A crash
+    leaves every target old or new, never partial, as one at a time does; the folders are
+    not fsynced here."""
+    temps: list[tuple[str, Path]] = []
+    try:
+        for path, data in items:
+            fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+            temps.append((tmp, path))
+            with os.fdopen(fd, "wb") as fh:
+                fh.write(data)
+        syncfs = _syncfs() if temps else None
+        done = False
+        if syncfs is not None:
+            fd = os.open(temps[0][0], os.O_RDONLY)
+            try:
+                done = syncfs(fd) == 0  # one file system: a scan writes beside its entries
+            finally:
+                os.close(fd)
+            done = done and len({os.stat(t).st_dev for t, _ in temps}) == 1
+        if not done:
+            for tmp, _ in temps:
+                fd = os.open(tmp, os.O_RDONLY)
+                try:
+                    os.fsync(fd)
+                finally:
+                    os.close(fd)
+        while temps:
+            tmp, path = temps[0]
+            os.replace(tmp, path)
+            temps.pop(0)
+    except BaseException:
+        for tmp, _ in temps:
+            with contextlib.suppress(OSError):
+                os.unlink(tmp)
+        raise
+
+
 def sync_folder(folder: Path) -> None:
     """fsync a folder, so the files moved into it stay there after a power cut (POSIX)."""
     try:

@@ -192,3 +192,25 @@ def test_deep_nesting_is_an_input_error_with_a_line_not_an_internal_error():
         load_yaml("title: t\nx: " + deep + "\n")
     assert err.value.location == "line 2" and "nest too deep" in err.value.message
     assert load_json('{"s": "[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[["}')
+
+
+def test_many_files_replaced_together_are_whole_and_leave_no_temp_files(tmp_path, monkeypatch):
+    """replace_all_atomically: every target holds its new bytes, no temp file is left, and a
+    failure before the moves leaves every target as it was and removes the temp files."""
+    from capture import safeio
+
+    targets = [tmp_path / f"e{i}.waste.json" for i in range(5)]
+    targets[0].write_bytes(b"old")
+    safeio.replace_all_atomically([(p, f"new {p.name}".encode()) for p in targets])
+    assert [p.read_bytes() for p in targets] == [f"new {p.name}".encode() for p in targets]
+    assert not list(tmp_path.glob(".*.tmp"))
+
+    def no_sync(fd):
+        raise OSError(5, "Input/output error")
+
+    monkeypatch.setattr(safeio.os, "fsync", no_sync)
+    monkeypatch.setattr(safeio, "_syncfs", lambda: None)  # the per-file path, which fails
+    with pytest.raises(OSError, match="Input/output"):
+        safeio.replace_all_atomically([(p, b"newer") for p in targets])
+    assert [p.read_bytes() for p in targets] == [f"new {p.name}".encode() for p in targets]
+    assert not list(tmp_path.glob(".*.tmp"))

@@ -459,20 +459,20 @@ def test_a_sidecar_that_could_not_be_written_stops_the_scan_before_the_store_rec
     surface, and the store must not say that an entry whose sidecar is missing is current."""
     import masstrail_plugins.write.sidecar as sidecar
 
-    real = sidecar.replace_atomically
+    real = sidecar.replace_all_atomically
 
-    def full_disk(path, data):
-        if path.name == "b.waste.json":
+    def full_disk(files):
+        if any(path.name == "b.waste.json" for path, _ in files):
             raise OSError(28, "No space left on device")
-        real(path, data)
+        real(files)
 
-    monkeypatch.setattr(sidecar, "replace_atomically", full_disk)
+    monkeypatch.setattr(sidecar, "replace_all_atomically", full_disk)
     for name in ("a.md", "b.md", "c.md"):
         notebook.write(name, ENTRY)
     with pytest.raises(OSError, match="No space left"):
         _reuse(notebook)
     assert not (notebook.root / "b.waste.json").exists()
     assert _db(notebook).execute("SELECT COUNT(*) FROM entries").fetchone() == (0,)
-    monkeypatch.setattr(sidecar, "replace_atomically", real)
+    monkeypatch.setattr(sidecar, "replace_all_atomically", real)
     assert _reuse(notebook).recomputed == 3  # nothing was taken as current
     assert (notebook.root / "b.waste.json").exists()

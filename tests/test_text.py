@@ -195,3 +195,44 @@ def test_a_name_stops_where_the_next_amount_starts():
                     "dichloride was then added.")  # fmt: skip
     assert [(m.name, m.stated) for m in lines] == [
         ("water", "15 ml"), ("dichloride", "2.60 g, 0.01 mole")]  # fmt: skip
+
+
+def _all_sentences() -> list[str]:
+    from pathlib import Path
+
+    from masstrail_plugins.prose import sentences
+
+    here = Path(__file__).parent
+    texts = [p.read_text(encoding="utf-8") for p in (here / "corpus").glob("*.txt")]
+    texts += [p.read_text(encoding="utf-8") for p in (here / "corpus" / "real").rglob("*.md")]
+    root = here.parent / "example_entries"
+    texts += [p.read_text(encoding="utf-8") for p in root.rglob("*") if p.suffix in {".md",
+              ".yaml", ".json"} and ".waste." not in p.name]  # fmt: skip
+    return [s for t in texts for _, s in sentences(t)]
+
+
+def test_the_characterisation_shortcut_finds_what_the_full_pattern_finds():
+    """The cheap hint check in front of the characterisation pattern never hides a marker:
+    on every sentence of the corpora, the real subset and the examples, and on generated
+    text made of the markers' pieces."""
+    from hypothesis import given
+    from hypothesis import strategies as st
+
+    from masstrail_plugins.prose import CHARACTERISATION, characterisation
+
+    found = 0
+    for s in _all_sentences():
+        full = CHARACTERISATION.search(s)
+        assert (characterisation(s) is None) == (full is None), s
+        found += full is not None
+    assert found >= 25  # the corpora hold that many sentences with markers
+
+    pieces = st.sampled_from(["1H", "13C", " NMR", "NMR (", "δ", "m/z", "HRMS", "ESI", "IR",
+                              "cm-1", "cm−1", "m.p. 1", "mp", "mp 2", "Rf =", "RF 0", "b.p. 7",
+                              "bp", "[α]", " ", "(", ";", "x", "Mp", "rf", "."])  # fmt: skip
+
+    @given(st.lists(pieces, max_size=12).map("".join))
+    def same(text):
+        assert (characterisation(text) is None) == (CHARACTERISATION.search(text) is None)
+
+    same()

@@ -50,10 +50,9 @@ from masstrail_plugins.extract.brackets import (
 )
 from masstrail_plugins.extract.names import name_after, name_before
 from masstrail_plugins.prose import (
-    CHAR_HINT,
-    CHARACTERISATION,
     OPERATION_STAGE,
     OPERATION_STEMS,
+    characterisation,
     sentences,
 )
 
@@ -319,7 +318,7 @@ def _yield_of(content: str) -> float | None:
 def _characterisation_at(text: str) -> int:
     """Where the characterisation data of a sentence begin (its length if there are none):
     at the separator before the first marker (``; mp``, ``: 1H NMR``, ``(m.p. …``)."""
-    m = CHARACTERISATION.search(text) if CHAR_HINT.search(text) else None
+    m = characterisation(text)
     if m is None:
         return len(text)
     window = text[max(0, m.start() - 40) : m.start()]

@@ -31,7 +31,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, Gap, MaterialInfo, MaterialLine, ProductOut, RecordCheck
 from masstrail_plugins.gaps import allowances as al
-from masstrail_plugins.prose import CHARACTERISATION, clean_name, operation_of, sentences
+from masstrail_plugins.prose import characterisation, clean_name, operation_of, sentences
 
 LIQUID_CATEGORIES = {"solvent", "water", "aqueous"}
 
@@ -477,7 +477,7 @@ def check_operations(
     seen: set[str] = set()
     for _, sentence in sentences(entry.body):
         text = " ".join(sentence.split())
-        if text.startswith("|") or CHARACTERISATION.search(text):
+        if text.startswith("|") or characterisation(text):
             continue
         low = text.lower()
         for rule, words in _RULES:

@@ -14,7 +14,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import EntrySummary, Result
 from capture.paths import SIDECAR_SUFFIX, EntryRule, card_path, sidecar_path
-from capture.safeio import atomic_write, holds, read_small, replace_atomically, sync_folder
+from capture.safeio import atomic_write, holds, read_small, replace_all_atomically, sync_folder
 
 
 @functools.lru_cache(maxsize=1)
@@ -41,9 +41,11 @@ def remove_sidecar(entry_path: Path) -> None:
 
 # folders a scan has moved files into and not yet fsynced
 _unsynced: set[Path] = set()
-# a scan's writes in progress: each is written, fsynced and moved into place by one
-# thread of this process while the scan computes the next entries
+# a scan's writes in progress: a share at a time, written, made durable together and moved
+# into place by one thread of this process while the scan computes the next entries
 _in_flight: list = []
+_share: list[tuple[Path, bytes]] = []  # the files of the share being gathered
+SHARE_FILES = 64  # a scan flushes every 32 entries: their sidecars and cards
 
 
 @functools.lru_cache(maxsize=1)
@@ -74,16 +76,26 @@ def write_sidecar(result: Result, entry_path: Path, config: LabConfig, batch: bo
             continue
         data = render().encode("utf-8")
         if not holds(out, data):
-            _in_flight.append(_writer().submit(replace_atomically, out, data))
+            _share.append((out, data))
             written.append(out)
             _unsynced.add(out.parent)
+    if len(_share) >= SHARE_FILES:
+        _hand_over()
     return written
+
+
+def _hand_over() -> None:
+    """Give the gathered files to the writer thread, to be made durable together."""
+    if _share:
+        files, _share[:] = list(_share), []
+        _in_flight.append(_writer().submit(replace_all_atomically, files))
 
 
 # first: the sidecars are in place before the store (trylast) says they are current
 @hookimpl(tryfirst=True, specname="masstrail_flush_results")
 def finish_writes() -> None:
     """Wait for the scan's writes in progress; the first that failed raises its error."""
+    _hand_over()
     done, _in_flight[:] = list(_in_flight), []
     errors = [f.exception() for f in done]
     for error in errors:
