@@ -311,7 +311,7 @@ class Watcher:
                 # sleep until an event, the next settle check or the next rescan: idle is idle
                 now = time.monotonic()
                 due = min((seen + self.settle for seen, _ in pending.values()), default=None)
-                wait = (max(0.002, due - now) if due is not None
+                wait = (min(0.25, max(0.002, due - now)) if due is not None
                         else max(0.02, min(1.0, next_rescan - now)))  # fmt: skip
                 try:
                     path, kind = self.events.get(timeout=wait)
@@ -324,6 +324,8 @@ class Watcher:
                     continue
                 except queue.Empty:
                     pass
+                if self.stop.is_set():  # stopped while waiting: what still settles is left
+                    break  # to the next start's catch-up
                 now = time.monotonic()
                 for path, (seen, stat) in list(pending.items()):
                     if now - seen < self.settle:
