@@ -393,19 +393,24 @@ def replace_atomically(path: Path, data: bytes) -> None:
         raise
 
 
-def _syncfs():
-    """Linux's syncfs(2) through the C library, or None where there is none."""
+@functools.lru_cache(maxsize=1)
+def libc():
+    """The C library this process runs on (its own symbols: no library search), or None
+    where it cannot be had (Windows)."""
     import ctypes
-    import ctypes.util
+
+    try:
+        return ctypes.CDLL(None, use_errno=True)
+    except (OSError, TypeError):
+        return None
+
+
+def _syncfs():
+    """Linux's syncfs(2), or None where there is none."""
     import sys
 
-    if not sys.platform.startswith("linux"):
-        return None
-    try:
-        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6", use_errno=True)
-        return libc.syncfs
-    except (OSError, AttributeError):
-        return None
+    c = libc() if sys.platform.startswith("linux") else None
+    return getattr(c, "syncfs", None)
 
 
 def replace_all_atomically(items: list[tuple[Path, bytes]]) -> None:

@@ -12,6 +12,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import os
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
@@ -22,6 +23,7 @@ from capture.models import SEVERITIES, EntrySummary, Result
 from capture.notebook import Notebook
 from capture.paths import sidecar_name, sidecar_path
 from capture.run import error_result
+from capture.safeio import libc
 
 
 def default_jobs() -> int:
@@ -213,14 +215,11 @@ def _die_with_parent() -> None:
     import time
 
     parent = os.getppid()
-    if sys.platform.startswith("linux"):
-        try:
-            import ctypes
-            import signal
+    if sys.platform.startswith("linux") and (c := libc()) is not None:
+        import signal
 
-            ctypes.CDLL(None, use_errno=True).prctl(1, int(signal.SIGKILL))  # PR_SET_PDEATHSIG
-        except (OSError, AttributeError):
-            pass
+        with contextlib.suppress(AttributeError):
+            c.prctl(1, int(signal.SIGKILL))  # PR_SET_PDEATHSIG
     if os.getppid() != parent:  # gone already, before the signal was armed
         os._exit(1)
 

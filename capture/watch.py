@@ -330,8 +330,8 @@ class Watcher:
                 for path, (seen, stat) in list(pending.items()):
                     if now - seen < self.settle:
                         continue
-                    if self._stat(path) != stat:  # written since, with no event seen: wait on
-                        pending[path] = (now, self._stat(path))
+                    if (later := self._stat(path)) != stat:  # written since, no event seen
+                        pending[path] = (now, later)
                         continue
                     del pending[path]
                     try:

@@ -26,6 +26,7 @@ from __future__ import annotations
 import contextlib
 import json
 from dataclasses import dataclass, field
+from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
@@ -48,8 +49,6 @@ _CUSTOM_ROLES = {"recrystallisation": "recrystallisation", "trituration": "tritu
 def _text(value: float) -> str:
     """A number in plain decimals (masstrail refuses exponent notation): 5.11e-05 → 0.0000511.
     ORD's values are 32-bit floats, good to about 7 digits: 2.4100000858 is written 2.41."""
-    from decimal import Decimal
-
     return format(Decimal(f"{float(value):.7g}").normalize(), "f")
 
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import os
 import re
+import time
 import uuid
 from pathlib import Path
 from urllib.parse import urlsplit, urlunsplit
@@ -69,8 +70,6 @@ def notebook_id(root: Path) -> str:
             text = path.read_text(encoding="ascii").strip()
             if text:
                 return text
-            import time
-
             time.sleep(0.01)
         raise
     with os.fdopen(fd, "w", encoding="ascii") as fh:

@@ -266,16 +266,16 @@ def child_rows(result: Result) -> dict[str, list[tuple]]:
     }  # fmt: skip
 
 
-def _write(conn: sqlite3.Connection, result: Result, now: str, payload: str,
+def _write(conn: sqlite3.Connection, result: Result, now: str, payload: str, entry: tuple,
            rows: dict[str, list[tuple]], children: dict[str, list[tuple]]) -> bool:  # fmt: skip
-    """Replace the entry's row and append its history row (``payload``: the result's JSON);
-    True if history grew. Its ``rows`` for the other current tables are added to
-    ``children``, inserted after all entries."""
+    """Replace the entry's row (``entry``) and append its history row (``payload``: the
+    result's JSON); True if history grew. Its ``rows`` for the other current tables are added
+    to ``children``, inserted after all entries."""
     path = result.entry.path
     if result.status == "error" and _keeps_last_good(conn, result, now):
         return _append_history(conn, result, now, payload)
     conn.execute("DELETE FROM entries WHERE path = ?", (path,))  # cascades to the rest
-    conn.execute(_INSERT_ENTRY, entry_row(result, now))
+    conn.execute(_INSERT_ENTRY, entry)
     for table, table_rows in rows.items():
         children.setdefault(table, []).extend(table_rows)
     return _append_history(conn, result, now, payload)
@@ -385,12 +385,12 @@ def write_results(
         send = {p for p, r in latest.items() if clear or not _same(conn, r)} if queue else set()
         queued = []
         for path, r in latest.items():
-            payload = r.model_dump_json(by_alias=True)
+            payload, entry = r.model_dump_json(by_alias=True), entry_row(r, now)
             rows = child_rows(r) if r.status == "ok" else {}
-            added += _write(conn, r, now, payload, rows, children)
+            added += _write(conn, r, now, payload, entry, rows, children)
             if path in send:  # the rows as written here: the shared store applies them as such
                 queued.append(("result", path, now, payload,
-                               json.dumps({"entry": entry_row(r, now), "rows": rows})))  # fmt: skip
+                               json.dumps({"entry": entry, "rows": rows})))  # fmt: skip
         for table, table_rows in children.items():  # one prepared statement per table
             conn.executemany(_INSERT[table], table_rows)
         conn.executemany(_QUEUE, queued)

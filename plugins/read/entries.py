@@ -175,21 +175,21 @@ def _procedure(meta: Any) -> str:
     return str(proc)
 
 
+def _document_entry(meta: Any, data: bytes, relpath: str, fmt: str,
+                    config: LabConfig) -> Entry:  # fmt: skip
+    """A YAML or JSON entry: the front-matter keys at the top level, the text under
+    ``procedure``."""
+    return build_entry(meta, _procedure(meta), data=data, relpath=relpath, fmt=fmt,
+                       where=f"{fmt.upper()} document",
+                       max_materials=config.scan.max_materials)  # fmt: skip
+
+
 @hookimpl(specname="masstrail_read_entry")
 def read_yaml(path: Path, data: bytes, relpath: str, config: LabConfig) -> Entry | None:
     """A YAML entry: the front-matter keys at the top level, the text under ``procedure``."""
     if path.suffix.lower() not in {".yaml", ".yml"}:
         return None
-    meta = load_yaml(decode_text(data))
-    return build_entry(
-        meta,
-        _procedure(meta),
-        data=data,
-        relpath=relpath,
-        fmt="yaml",
-        where="YAML document",
-        max_materials=config.scan.max_materials,
-    )
+    return _document_entry(load_yaml(decode_text(data)), data, relpath, "yaml", config)
 
 
 def _typed_as_text(value: Any) -> Any:
@@ -209,15 +209,7 @@ def read_json(path: Path, data: bytes, relpath: str, config: LabConfig) -> Entry
     if path.suffix.lower() != ".json":
         return None
     meta = _typed_as_text(load_json(decode_text(data)))
-    return build_entry(
-        meta,
-        _procedure(meta),
-        data=data,
-        relpath=relpath,
-        fmt="json",
-        where="JSON document",
-        max_materials=config.scan.max_materials,
-    )
+    return _document_entry(meta, data, relpath, "json", config)
 
 
 @hookimpl(specname="masstrail_read_entry")
