@@ -236,3 +236,14 @@ def test_the_characterisation_shortcut_finds_what_the_full_pattern_finds():
         assert (characterisation(text) is None) == (CHARACTERISATION.search(text) is None)
 
     same()
+
+
+def test_an_amount_in_a_unit_masstrail_does_not_read_is_unread_with_the_reason():
+    """No silent loss: '(4.0 gallons)' or '2 oz' is not passed over as words; it is an
+    unread quantity whose problem names the unit and the units masstrail reads."""
+    lines = extract("The solution was dried over Na2SO4 (4.0 gallons) and filtered. "
+                    "Then 2 oz of sodium chloride and 3 h of stirring followed.")  # fmt: skip
+    unread = {line.stated: line.problem for line in lines if line.role == "unread"}
+    assert set(unread) == {"4.0 gallons", "2 oz"}
+    assert "unknown unit 'gallons'" in unread["4.0 gallons"]
+    assert "masstrail reads g, mg" in unread["2 oz"]

@@ -85,6 +85,13 @@ _GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtr
 # "… and the product was recrystallised": an operation after this belongs to another clause
 _NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
 _DIGIT = re.compile(r"[\d½⅓⅔¼¾⅛⅜⅝⅞]")  # a number, or a fraction sign
+# units of mass and volume from outside the lab's system: an amount written in one is not
+# read, and says so (the amount reader's "unknown unit" message)
+_FOREIGN_UNIT = re.compile(
+    r"(?<![\w.])\d+(?:[.,]\d+)?\s*(?:gallons?|gal|fl\.?\s?oz|ounces?|oz|pounds?|lbs?|pints?|"
+    r"quarts?|qt|cups?|teaspoons?|tsp|tablespoons?|tbsp|drams?|grains?)\b",
+    re.I,
+)
 _PER = re.compile(r"\s*(?:per|for\s+each)\s", re.I)
 _PERCENT_REMARK = re.compile(r"\d+(?:[.,]\d+)?\s*%\s+\w")  # "(35% calculated from …)"
 # "a SNAP 25 g column", "(330g column)": a prepacked column is sold by its silica's mass
@@ -384,6 +391,7 @@ class _Reading:
         return self._s
 
     def read(self) -> list[MaterialLine]:
+        self._foreign_units()
         if not self.quantities and not self.groups:
             if self.tail:
                 self._leftovers()
@@ -540,6 +548,13 @@ class _Reading:
             self._add(q.text, amounts, "unread", q.start, problem=problem, stated=q.text)
         for q in self.tail:
             self._add(q.text, [q.amount] if q.amount else [], "characterisation", q.start)
+
+    def _foreign_units(self) -> None:
+        """Amounts in units masstrail does not read (``4.0 gallons``, ``2 oz``) are unread,
+        with the reason, rather than passed over as words."""
+        for m in _FOREIGN_UNIT.finditer(self.head):
+            self._add(m.group(0), [], "unread", m.start(), problem=_why_not(m.group(0)),
+                      stated=m.group(0))  # fmt: skip
 
 
 def _why_not(text: str) -> str:

@@ -43,12 +43,16 @@ def unread_gaps(set_aside: list[MaterialLine], config: LabConfig) -> list[Gap]:
         if line.role != "unread":
             continue
         grams, basis = _size(line, config)
+        said = line.stated or line.name
+        if line.problem:  # the amount itself cannot be read
+            message = f"{line.problem}; until it is rewritten, '{said}' is not in the figures"
+        else:
+            message = (f"'{said}' was not read as an input, the product or anything else, so "
+                       f"it is not in the figures; if it is an input, write it as "
+                       f"'NAME ({said})'")  # fmt: skip
         gaps.append(Gap(
-            kind="unread_amount", item=line.stated or line.name, severity="major",
-            evidence=line.evidence,
-            message=f"'{line.stated or line.name}' was not read as an input, the product or "
-            "anything else, so it is not in the figures; if it is an input, write it as "
-            f"'NAME ({line.stated or line.name})'" + (f" ({line.problem})" if line.problem else ""),
+            kind="unread_amount", item=said, severity="major", evidence=line.evidence,
+            message=message,
             allowance_g=None if grams is None else round(grams, 4), allowance_basis=basis,
         ))  # fmt: skip
     return gaps
