@@ -427,17 +427,15 @@ def backup(conn: sqlite3.Connection, target: Path) -> None:
         dest.close()
 
 
+def compared_columns() -> dict[str, str]:
+    """Each current table's columns without ids and times, as SQL: what two stores (this one
+    and the shared one) are compared on."""
+    entry = ", ".join(ENTRY_COLUMNS[: ENTRY_COLUMNS.index("product_g") + 1])
+    return {"entries": entry, **{t: "entry_path, " + ", ".join(f'"{c}"' for c in cols)
+                                 for t, cols in COLUMNS.items()}}  # fmt: skip
+
+
 def current_tables(conn: sqlite3.Connection) -> dict[str, list[tuple]]:
     """Every current table's rows without ids and times, sorted: for comparing two stores."""
-    out = {}
-    for table, cols in (
-        ("entries", "path, id, title, author, grp, project, date, sha256, status, error, product, "
-                    "product_g"),
-        ("metrics", "*"),
-        ("materials", "entry_path, name, resolved, role, category, stage, stated, mass_g, basis, "
-                      "origin, stream"),
-        ("gaps", "entry_path, kind, item, severity, allowance_g, message, evidence"),
-        ("readings", "entry_path, file, line, label, mass_g, stable, timestamp, assigned_to"),
-    ):  # fmt: skip
-        out[table] = sorted(conn.execute(f"SELECT {cols} FROM {table}").fetchall(), key=repr)
-    return out
+    return {table: sorted(conn.execute(f"SELECT {cols} FROM {table}").fetchall(), key=repr)
+            for table, cols in compared_columns().items()}  # fmt: skip

@@ -26,7 +26,7 @@ from collections.abc import Iterator
 from typing import Any
 
 from capture.store.address import shown
-from capture.store.database import COLUMNS, ENTRY_COLUMNS, StoreError
+from capture.store.database import COLUMNS, ENTRY_COLUMNS, StoreError, compared_columns
 
 POSTGRES_EXTRA = ("the shared store needs the postgres extra: pip install 'masstrail[postgres]' "
                   "(from a checkout: pip install -e '.[postgres]')")  # fmt: skip
@@ -340,17 +340,9 @@ def table_rows(conn, table: str, notebook: str | None = None) -> tuple[list[str]
 def current_tables(conn, notebook: str) -> dict[str, list[tuple]]:
     """One notebook's current rows, as :func:`capture.store.database.current_tables` gives a
     local store's: for comparing the two."""
-    out = {}
-    for table, cols in (
-        ("entries", "path, id, title, author, grp, project, date, sha256, status, error, product, "
-                    "product_g"),
-        *((t, "entry_path, " + _quoted(COLUMNS[t]))
-          for t in ("metrics", "materials", "gaps", "readings")),
-    ):  # fmt: skip
-        rows = conn.execute(f"SELECT {cols} FROM {table} WHERE notebook = %s",
-                            (notebook,)).fetchall()  # fmt: skip
-        out[table] = sorted((tuple(r) for r in rows), key=repr)
-    return out
+    return {table: sorted((tuple(r) for r in conn.execute(
+                f"SELECT {cols} FROM {table} WHERE notebook = %s", (notebook,))), key=repr)
+            for table, cols in compared_columns().items()}  # fmt: skip
 
 
 def history_count(conn, notebook: str | None = None) -> int:
