@@ -12,7 +12,7 @@ Units: masses g, volumes mL, amounts of substance mmol, densities g/mL, molar ma
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -566,9 +566,8 @@ def masstrail_flush_results(root: Path, config: LabConfig) -> None:
 
 
 @hookspec
-def masstrail_scan_done(
-    root: Path, config: LabConfig, present: list[str], written: list[str], outputs: list[str]
-) -> None:
+def masstrail_scan_done(root: Path, config: LabConfig, present: Iterable[str],
+                        written: Iterable[str], orphans: list[str]) -> None:  # fmt: skip
     """A scan has handed over all its results.
 
     Called once at the end of every scan that writes, after ``masstrail_flush_results``.
@@ -576,10 +575,10 @@ def masstrail_scan_done(
 
     :param root: the notebook root.
     :param config: the lab configuration.
-    :param present: the relative paths of every entry the scan saw.
-    :param written: every file the scan's writers wrote, here or in workers.
-    :param outputs: every result file (``*.waste.json``, ``*.waste.md``) the scan's walk
-        found, before it wrote: those of entries no longer present are orphans.
+    :param present: the relative paths of every entry the scan saw (an iterable, not a list).
+    :param written: every file the scan's writers wrote, here or in workers (likewise).
+    :param orphans: the result files (``*.waste.json``, ``*.waste.md``) the scan's walk
+        found with no entry beside them that would write them.
     :returns: nothing.
     """
 

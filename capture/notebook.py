@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import functools
 import os
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -12,7 +13,7 @@ import pluggy
 from capture.config import LabConfig, load_config
 from capture.fingerprint import Fingerprints
 from capture.models import MaterialInfo, Result
-from capture.paths import EntryRule, is_own_output
+from capture.paths import EntryRule, entry_stem, is_own_output, output_stem
 
 
 def flatten(answers) -> list:
@@ -28,8 +29,8 @@ class Notebook:
     config: LabConfig
     pm: pluggy.PluginManager
     _resolved: dict[str, MaterialInfo | None] = field(default_factory=dict)
-    unnamed: list[str] = field(default_factory=list, init=False)  # see entry_files
-    outputs: list[str] = field(default_factory=list, init=False)  # result files entry_files saw
+    unnamed: list[str] = field(default_factory=list, init=False)  # see folders
+    orphans: list[str] = field(default_factory=list, init=False)  # see folders
 
     @classmethod
     def open(cls, root: Path, pm: pluggy.PluginManager | None = None) -> Notebook:
@@ -48,24 +49,34 @@ class Notebook:
         return EntryRule(suffixes, self.config.scan.ignore)
 
     def entry_files(self) -> list[Path]:
-        """Every entry file under the root, sorted by folder, then name. Files and folders
-        whose names are not UTF-8 (no result could name them) are left out and listed in
-        :attr:`unnamed`, escaped, so the caller can say so; the result files seen on the way
-        are kept in :attr:`outputs`."""
-        rule, found = self.rule, []
-        self.unnamed, self.outputs = [], []
+        """Every entry file under the root, sorted by folder, then name (:meth:`folders`,
+        flattened)."""
+        return [Path(folder, n) for folder, names in self.folders() for n in names]
+
+    def folders(self) -> Iterator[tuple[str, list[str]]]:
+        """Each folder under the root that holds entries, sorted, as (its path, its entry
+        file names, sorted). Files and folders whose names are not UTF-8 (no result could
+        name them) are left out and listed in :attr:`unnamed`, escaped, so the caller can
+        say so; result files with no entry beside them (by :func:`sidecar_name`: ``a.md``
+        has ``a.waste.json`` and ``a.waste.md``) are listed in :attr:`orphans`. One folder
+        at a time: a scan of 100,000 entries never holds them all."""
+        rule = self.rule
+        self.unnamed, self.orphans = [], []
         top = os.fspath(self.root)
         for dirpath, dirnames, filenames in os.walk(top):
             for bad in [d for d in dirnames if not _utf8(d)]:
                 self.unnamed.append(_escaped(os.path.join(dirpath, bad), top) + "/")
             dirnames[:] = sorted(d for d in dirnames if _utf8(d) and rule.folder_ok(d))
             rel_dir = dirpath[len(top) + 1 :].replace(os.sep, "/")  # strings: 100,000 files
-            folder = Path(dirpath)
             names = sorted(n for n in filenames if rule.file_ok(rel_dir, n))
-            self.outputs += [os.path.join(dirpath, n) for n in filenames if is_own_output(n)]
             self.unnamed += [_escaped(os.path.join(dirpath, n), top) for n in names if not _utf8(n)]
-            found += [folder / n for n in names if _utf8(n)]
-        return found
+            names = [n for n in names if _utf8(n)]
+            own = [n for n in filenames if is_own_output(n)]
+            if own:
+                stems = {output_stem(n) for n in own} - {entry_stem(n) for n in names}
+                self.orphans += [os.path.join(dirpath, n) for n in own if output_stem(n) in stems]
+            if names:
+                yield dirpath, names
 
     def is_entry(self, path: Path) -> bool:
         """True when ``path`` (absolute) is an entry of this notebook, by :attr:`rule`."""

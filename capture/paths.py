@@ -34,9 +34,17 @@ def _stem(name: str) -> str:
     return name[:i] if 0 < i < len(name) - 1 else name
 
 
-def entry_stem(path: Path) -> str:
+def entry_stem(path: Path | str) -> str:
     """The file name without its last suffix: ``a.md`` → ``a``."""
-    return _stem(path.name)
+    return _stem(path if isinstance(path, str) else path.name)
+
+
+def output_stem(name: str) -> str:
+    """The entry stem of a result file's name: ``a.waste.json`` and ``a.waste.md`` → ``a``."""
+    for suffix in (SIDECAR_SUFFIX, CARD_SUFFIX):
+        if name.endswith(suffix):
+            return name[: -len(suffix)]
+    return name
 
 
 def sidecar_path(entry_path: Path) -> Path:

@@ -14,16 +14,17 @@ from __future__ import annotations
 
 import contextlib
 import os
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from capture.fingerprint import basis_changes, read_basis, write_basis
 from capture.models import SEVERITIES, EntrySummary, Result
 from capture.notebook import Notebook
-from capture.paths import sidecar_name, sidecar_path
+from capture.paths import entry_stem, sidecar_path
 from capture.run import error_result
 from capture.safeio import libc
+from capture.spill import Spill
 
 
 def default_jobs() -> int:
@@ -39,28 +40,38 @@ PARALLEL_MIN = 64  # fewer entries than this are computed here: starting workers
 
 @dataclass
 class ScanReport:
-    """One scan: a summary per entry file, in order, and the full results if kept."""
+    """One scan: a summary per entry file, in order, and the full results if kept. The
+    summaries and the names of the files written are :class:`Spill` lists: past a few
+    thousand they wait in a temporary file, so a scan's memory does not grow with the
+    notebook."""
 
     root: Path
-    results: list[Result]
-    written: list[str]  # the files written, as strings (a scan of 100,000 writes 200,000)
-    summaries: list[EntrySummary] = field(default_factory=list)
+    results: list[Result] = field(default_factory=list)
+    written: Spill[str] = field(default_factory=Spill)  # the files written (200,000 for 100,000)
+    summaries: Spill[EntrySummary] = field(default_factory=Spill)
     basis_changes: list[str] = field(default_factory=list)  # what changed since the last scan
     unnamed: list[str] = field(default_factory=list)  # files left out: names not UTF-8
     changed: list[str] = field(default_factory=list)  # entries whose figures changed with it
+    recomputed: int = 0  # entries computed in this scan (the rest were current)
+    error_count: int = 0  # entries that could not be read
+    _counts: dict[str, int] = field(default_factory=lambda: dict.fromkeys(SEVERITIES, 0))
+
+    def add(self, summary: EntrySummary) -> None:
+        """One more entry's summary, in order."""
+        self.summaries.append(summary)
+        self.recomputed += summary.recomputed
+        self.error_count += summary.status == "error"
+        for severity in SEVERITIES:
+            self._counts[severity] += getattr(summary, severity)
 
     def count(self, severity: str) -> int:
         """How many gaps of ``severity`` the scan found."""
         assert severity in SEVERITIES
-        return sum(getattr(s, severity) for s in self.summaries)
+        return self._counts[severity]
 
     @property
     def errors(self) -> list[EntrySummary]:
         return [s for s in self.summaries if s.status == "error"]
-
-    @property
-    def recomputed(self) -> int:
-        return sum(s.recomputed for s in self.summaries)
 
     def basis_note(self, shown: int = 10) -> str | None:
         """What changed in the basis of the figures since the last scan, and which entries'
@@ -77,11 +88,14 @@ class ScanReport:
                        f"PMI or gaps): {listed}.")  # fmt: skip
 
 
+CHUNK = 4096  # entries planned at a time: the scanning process holds this many paths at most
+
+
 def scan(
     notebook: Notebook,
     progress: Callable[[Path, EntrySummary], None] | None = None,
     write: bool = True,
-    files: list[Path] | None = None,
+    files: Iterable[Path] | None = None,
     reuse: bool = False,
     keep: bool = True,
     jobs: int = 1,
@@ -89,57 +103,108 @@ def scan(
 ) -> ScanReport:
     """Process every entry under the notebook root once; one summary per entry file.
 
-    ``files`` is the list from :meth:`Notebook.entry_files`, if the caller already has it.
-    With ``reuse`` (and ``write``), an entry whose result is current (see
-    :meth:`capture.fingerprint.Fingerprints.current`) is not recomputed: its summary is the
-    one remembered, from ``previous`` or else from ``masstrail_previous_results``. With
-    ``keep``, every recomputed entry's full :class:`Result` is kept in ``results`` (memory
-    grows with the notebook). With ``jobs`` > 1, entries are computed and written in that
-    many worker processes, a share at a time; the files and store rows are the same as with
-    one. ``progress(path, summary)`` is called for each entry file, in order.
+    The entries are found a folder at a time (:meth:`Notebook.folders`) and planned and
+    computed :data:`CHUNK` at a time, so that memory stays flat in the notebook's size;
+    ``files``, if given, replaces the walk (sorted by folder, as
+    :meth:`Notebook.entry_files` gives them). With ``reuse`` (and ``write``), an entry whose
+    result is current (see :meth:`capture.fingerprint.Fingerprints.current`) is not
+    recomputed: its summary is the one remembered, from ``previous`` or else from
+    ``masstrail_previous_results``. With ``keep``, every recomputed entry's full
+    :class:`Result` is kept in ``results`` (memory grows with the notebook). With ``jobs``
+    > 1, entries are computed and written in that many worker processes, a share at a time;
+    the files and store rows are the same as with one. ``progress(path, summary)`` is called
+    for each entry file, in order.
     """
-    files = notebook.entry_files() if files is None else files
-    sides = [sidecar_name(os.fspath(f)) for f in files]
-    clashes = _sidecar_clashes(files, sides)
     basis = notebook.fingerprints.parts if write else None
     last_basis = read_basis(notebook.root) if write else None
     changes = basis_changes(last_basis, basis) if last_basis is not None and basis else []
     if write and (reuse or changes) and previous is None:
         hook = notebook.pm.hook.masstrail_previous_results
         previous = hook(root=notebook.root, config=notebook.config) or {}
-    plan = _plan(notebook, files, sides, clashes, previous if reuse and write else None)
-    todo = [f for f, p in zip(files, plan, strict=True) if p is None]
-    work = iter(_computed(notebook, todo, jobs, write, keep))
-    results, written, summaries, changed = [], [], [], []
-    for i, (f, side, planned) in enumerate(zip(files, sides, plan, strict=True)):
-        if isinstance(planned, EntrySummary):
-            summary = planned
-        elif planned is not None:  # a name clash: the first of its files writes the error
-            if write and f == clashes[side][0]:
-                written += map(os.fspath, notebook.write(planned, f, batch=True))
-            summary = EntrySummary.of(planned)
-            if keep:
-                results.append(planned)
-        else:
-            summary, files_written, result = next(work)
-            written += files_written
-            if keep:
-                results.append(result)
-            if changes and previous and _figures_differ(previous.get(summary.path), summary):
-                changed.append(summary.path)
-        plan[i] = sides[i] = None  # done with: keep only the summary
-        summaries.append(summary)
-        if progress:
-            progress(f, summary)
+    report = ScanReport(notebook.root, basis_changes=changes)
+    groups = notebook.folders() if files is None else _folders_of(files)
+    remembered = previous if reuse and write else None
+    with _Workers(notebook, jobs, write, keep) as workers:
+        for chunk in _chunks(groups):
+            plan = _plan(notebook, chunk, remembered)
+            work = iter(
+                workers.computed([f for (f, _), p in zip(chunk, plan, strict=True) if p is None])
+            )
+            for (f, clash), planned in zip(chunk, plan, strict=True):
+                summary = _one_done(notebook, report, f, clash, planned, work, write, keep,
+                                    previous if changes else None)  # fmt: skip
+                if progress:
+                    progress(f, summary)
+    report.unnamed = list(notebook.unnamed)
     if write:
         notebook.pm.hook.masstrail_flush_results(root=notebook.root, config=notebook.config)
         notebook.pm.hook.masstrail_scan_done(root=notebook.root, config=notebook.config,
-                                             present=[s.path for s in summaries],
-                                             written=written, outputs=notebook.outputs)  # fmt: skip
+                                             present=report.summaries.view(_path),
+                                             written=report.written,
+                                             orphans=notebook.orphans)  # fmt: skip
         if basis != last_basis:
             write_basis(notebook.root, basis)
-    return ScanReport(notebook.root, results, written, summaries, basis_changes=changes,
-                      changed=changed, unnamed=list(notebook.unnamed))  # fmt: skip
+    return report
+
+
+def _path(summary: EntrySummary) -> str:
+    return summary.path
+
+
+def _one_done(nb: Notebook, report: ScanReport, f: Path, clash: list[Path] | None,
+              planned: Result | EntrySummary | None, work: Iterator, write: bool, keep: bool,
+              previous: dict[str, EntrySummary] | None) -> EntrySummary:  # fmt: skip
+    """One entry's outcome into the report: remembered, a name clash, or just computed."""
+    if isinstance(planned, EntrySummary):
+        summary = planned
+    elif planned is not None:  # a name clash: the first of its files writes the error
+        if write and clash and f == clash[0]:
+            report.written.extend(map(os.fspath, nb.write(planned, f, batch=True)))
+        summary = EntrySummary.of(planned)
+        if keep:
+            report.results.append(planned)
+    else:
+        summary, files_written, result = next(work)
+        report.written.extend(files_written)
+        if keep:
+            report.results.append(result)
+        if previous and _figures_differ(previous.get(summary.path), summary):
+            report.changed.append(summary.path)
+    report.add(summary)
+    return summary
+
+
+def _folders_of(files: Iterable[Path]) -> Iterator[tuple[str, list[str]]]:
+    """Given entry files, sorted by folder, as :meth:`Notebook.folders` gives them."""
+    folder, names = None, []
+    for f in files:
+        head, name = os.path.split(os.fspath(f))
+        if head != folder and names:
+            yield folder, names
+            names = []
+        folder = head
+        names.append(name)
+    if names:
+        yield folder, names
+
+
+def _chunks(groups: Iterable[tuple[str, list[str]]]) -> Iterator[list[tuple[Path, list | None]]]:
+    """(path, the files it shares a sidecar name with, or None), :data:`CHUNK` at a time.
+    Name clashes (``a.md`` and ``a.json``) are found within each folder."""
+    chunk: list[tuple[Path, list | None]] = []
+    for folder, names in groups:
+        stems: dict[str, list[str]] = {}
+        for n in names:
+            stems.setdefault(entry_stem(n), []).append(n)
+        for n in names:
+            same = stems[entry_stem(n)]
+            clash = [Path(folder, m) for m in same] if len(same) > 1 else None
+            chunk.append((Path(folder, n), clash))
+            if len(chunk) >= CHUNK:
+                yield chunk
+                chunk = []
+    if chunk:
+        yield chunk
 
 
 def _figures_differ(before: EntrySummary | None, now: EntrySummary) -> bool:
@@ -155,31 +220,14 @@ def _figures_differ(before: EntrySummary | None, now: EntrySummary) -> bool:
     return figures(before) != figures(now)
 
 
-def _sidecar_clashes(files: list[Path], sides: list[str]) -> dict[str, list[Path]]:
-    """Entries that would share one sidecar (``a.md`` and ``a.json``), by that sidecar."""
-    count: dict[str, int] = {}
-    for side in sides:
-        count[side] = count.get(side, 0) + 1
-    clashes: dict[str, list[Path]] = {}
-    for f, side in zip(files, sides, strict=True):
-        if count[side] > 1:
-            clashes.setdefault(side, []).append(f)
-    return clashes
-
-
 def _plan(
-    nb: Notebook,
-    files: list[Path],
-    sides: list[str],
-    clashes: dict[str, list[Path]],
-    previous: dict[str, EntrySummary] | None,
+    nb: Notebook, chunk: list[tuple[Path, list | None]], previous: dict[str, EntrySummary] | None
 ) -> list[Result | EntrySummary | None]:
     """For each file: an error result (a name clash), its previous summary (current), or None
     (to compute)."""
     plan: list[Result | EntrySummary | None] = []
-    logs_seen: dict = {}  # log digests by (folder, logs), for this scan
-    for f, side in zip(files, sides, strict=True):
-        clash = clashes.get(side) if clashes else None
+    logs_seen: dict = {}  # log digests by (folder, logs), for this chunk
+    for f, clash in chunk:
         if clash:
             names = ", ".join(p.name for p in clash)
             plan.append(error_result(
@@ -255,31 +303,52 @@ def _share_in_worker(
     return out
 
 
-def _computed(
-    notebook: Notebook, paths: list[Path], jobs: int, write: bool, keep: bool
-) -> Iterable[tuple[EntrySummary, list[str], Result | None]]:
-    """(summary, files written, result if ``keep``) for each of ``paths``, in order:
-    computed and written here, or in ``jobs`` worker processes, handed a share at a time,
-    two shares per worker in flight, so that finished work never piles up in memory."""
-    if jobs <= 1 or len(paths) < PARALLEL_MIN:
-        for n, path in enumerate(paths, 1):
-            result, written = _one(notebook, path, write)
-            if write and n % PARALLEL_SHARE == 0:  # as a worker does after each share
-                notebook.pm.hook.masstrail_flush_results(root=notebook.root, config=notebook.config)
-            yield EntrySummary.of(result), written, result if keep else None
-        return
-    import multiprocessing
-    from collections import deque
-    from concurrent.futures import ProcessPoolExecutor
+class _Workers:
+    """Where a scan's entries are computed and written: here, or in ``jobs`` worker
+    processes (started for the first chunk with enough entries to pay for them, and kept
+    for the chunks after), handed a share at a time, two shares per worker in flight, so
+    that finished work never piles up in memory."""
 
-    context = multiprocessing.get_context("spawn")  # the same on Linux, macOS and Windows
-    with ProcessPoolExecutor(jobs, mp_context=context, initializer=_start_worker,
-                             initargs=(str(notebook.root),)) as pool:  # fmt: skip
+    def __init__(self, notebook: Notebook, jobs: int, write: bool, keep: bool) -> None:
+        self.nb, self.jobs, self.write, self.keep = notebook, jobs, write, keep
+        self.pool = None
+        self.done_here = 0  # entries computed in this process, for its flushes
+
+    def __enter__(self) -> _Workers:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        if self.pool is not None:
+            self.pool.__exit__(*exc)
+
+    def computed(
+        self, paths: list[Path]
+    ) -> Iterator[tuple[EntrySummary, list[str], Result | None]]:
+        """(summary, files written, result if ``keep``) for each of ``paths``, in order."""
+        if self.pool is None and (self.jobs <= 1 or len(paths) < PARALLEL_MIN):
+            nb = self.nb
+            for path in paths:
+                result, written = _one(nb, path, self.write)
+                self.done_here += 1
+                if self.write and self.done_here % PARALLEL_SHARE == 0:  # as a worker does
+                    nb.pm.hook.masstrail_flush_results(root=nb.root, config=nb.config)
+                yield EntrySummary.of(result), written, result if self.keep else None
+            return
+        if self.pool is None:
+            import multiprocessing
+            from concurrent.futures import ProcessPoolExecutor
+
+            context = multiprocessing.get_context("spawn")  # the same on Linux, macOS, Windows
+            self.pool = ProcessPoolExecutor(self.jobs, mp_context=context,
+                                            initializer=_start_worker,
+                                            initargs=(str(self.nb.root),))  # fmt: skip
+        from collections import deque
+
         shares = (paths[i : i + PARALLEL_SHARE] for i in range(0, len(paths), PARALLEL_SHARE))
         pending: deque = deque()
         for share in shares:
-            pending.append(pool.submit(_share_in_worker, share, write, keep))
-            if len(pending) >= 2 * jobs:
+            pending.append(self.pool.submit(_share_in_worker, share, self.write, self.keep))
+            if len(pending) >= 2 * self.jobs:
                 yield from pending.popleft().result()
         while pending:
             yield from pending.popleft().result()

@@ -188,3 +188,48 @@ def test_workers_die_with_a_killed_scan_and_write_nothing_after(tmp_path, sig):
     written = {p: p.stat().st_mtime_ns for p in root.rglob("*.waste.json")}
     time.sleep(1.0)
     assert {p: p.stat().st_mtime_ns for p in root.rglob("*.waste.json")} == written
+
+
+def test_entries_planned_a_few_at_a_time_give_the_same_results(notebook, monkeypatch):
+    """A scan plans :data:`capture.scan.CHUNK` entries at a time; a name clash that falls
+    across two chunks is still found for both files, and the first one writes the error."""
+    import capture.scan
+
+    for name in ("a.md", "b.md", "c.md", "c.yaml", "d.md"):
+        notebook.write(f"x/{name}", GOOD if name.endswith(".md") else "title: c\n")
+    whole = [(s.path, s.status, s.e_factor) for s in scan(Notebook.open(notebook.root),
+                                                           write=False).summaries]  # fmt: skip
+    monkeypatch.setattr(capture.scan, "CHUNK", 3)  # chunks: a b c.md | c.yaml d
+    report = notebook.scan()
+    assert [(s.path, s.status, s.e_factor) for s in report.summaries] == whole
+    assert [s.status for s in report.summaries] == ["ok", "ok", "error", "error", "ok"]
+    assert "c.md, c.yaml" in notebook.sidecar("x/c.md")["error"]["message"]
+    assert sorted(p.name for p in (notebook.root / "x").glob("*.waste.json")) == [
+        "a.waste.json", "b.waste.json", "c.waste.json", "d.waste.json"]  # fmt: skip
+
+
+def test_workers_started_for_one_chunk_serve_the_next(tmp_path, monkeypatch):
+    """With chunks of 7 entries and workers used from 5, a parallel scan of 20 entries in
+    three chunks writes what a serial scan writes."""
+    import shutil
+
+    import capture.scan
+
+    monkeypatch.setattr(capture.scan, "CHUNK", 7)
+    monkeypatch.setattr(capture.scan, "PARALLEL_MIN", 5)
+    roots = []
+    for name in ("serial", "parallel"):
+        root = tmp_path / name
+        for i in range(20):
+            (root / f"f{i // 6}").mkdir(parents=True, exist_ok=True)
+            shutil.copy(
+                EXAMPLES / "fenwick-group/FW-0412-amide-coupling.md", root / f"f{i // 6}/e{i}.md"
+            )
+        roots.append(root)
+    a = scan(Notebook.open(roots[0]), keep=False, jobs=1)
+    b = scan(Notebook.open(roots[1]), keep=False, jobs=2)
+    assert len(a.summaries) == len(b.summaries) == 20 and a.recomputed == b.recomputed == 20
+    assert [(s.path, s.e_factor) for s in a.summaries] == [
+        (s.path, s.e_factor) for s in b.summaries
+    ]
+    assert len(b.written) == 20 and len(list(roots[1].rglob("*.waste.json"))) == 20

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import json
 import sys
 from pathlib import Path
@@ -49,17 +50,18 @@ def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: 
     from capture.scan import scan as run_scan
 
     nb = open_notebook(path)
-    files = nb.entry_files()
     bar = None
-    if not as_json and len(files) > 50 and sys.stderr.isatty():
-        from rich.progress import Progress
+    if not as_json and sys.stderr.isatty():  # the bar's total: a walk that only counts
+        total = sum(len(names) for _, names in nb.folders())
+        if total > 50:
+            from rich.progress import Progress
 
-        bar = Progress(transient=True)
-        task = bar.add_task("scanning", total=len(files))
-        bar.start()
+            bar = Progress(transient=True)
+            task = bar.add_task("scanning", total=total)
+            bar.start()
     try:
         report = run_scan(nb, progress=(lambda *_: bar.advance(task)) if bar else None,
-                          files=files, reuse=not recompute, keep=False,
+                          reuse=not recompute, keep=False,
                           jobs=jobs or default_jobs())  # fmt: skip
     finally:
         if bar is not None:
@@ -110,12 +112,13 @@ def _print_table(path: Path, report) -> None:
     out = console()
     rows = report.summaries
     title = f"masstrail scan of {path}"
-    if len(rows) > TABLE_ROWS:
-        rows = [s for s in rows if s.status == "error" or s.blocking]
-        title += f": the {len(rows)} entries with a blocking gap or an error"
-        if len(rows) > TABLE_ROWS:
+    if len(rows) > TABLE_ROWS:  # one pass: count them, keep the first TABLE_ROWS
+        flagged = (s for s in rows if s.status == "error" or s.blocking)
+        rows = list(itertools.islice(flagged, TABLE_ROWS))
+        k = len(rows) + sum(1 for _ in flagged)
+        title += f": the {k} entries with a blocking gap or an error"
+        if k > TABLE_ROWS:
             title += f" (the first {TABLE_ROWS} shown; masstrail gaps lists them all)"
-            rows = rows[:TABLE_ROWS]
     table = Table(title=title, title_justify="left")
     table.add_column("entry", overflow="fold",
                      min_width=min(24, max([len(s.path) for s in rows] or [5])))  # fmt: skip
@@ -138,10 +141,11 @@ def _print_table(path: Path, report) -> None:
         f"{n} entr{'y' if n == 1 else 'ies'}"
         + (f" ({unchanged} unchanged since the last scan)" if unchanged else "")
         + f", {len(report.written)} result file(s) written, "
-        f"{len(report.errors)} could not be read. Details: masstrail show ENTRY"
+        f"{report.error_count} could not be read. Details: masstrail show ENTRY"
         + ("; every entry: masstrail report or masstrail export." if len(rows) < n else ".")
     )
-    for s in report.errors[:TABLE_ROWS]:
+    errors = (s for s in report.summaries if s.status == "error")
+    for s in itertools.islice(errors, TABLE_ROWS):
         where = f" ({s.location})" if s.location else ""
         out.print(f"[red]{esc(s.path + where)}:[/red] {esc(s.error or '')}")
     if report.basis_note():

@@ -22,6 +22,7 @@ import hashlib
 import json
 import os
 import sqlite3
+from collections.abc import Iterable
 from pathlib import Path
 
 from capture import __version__
@@ -201,10 +202,20 @@ def previous_gaps(conn: sqlite3.Connection, path: str) -> list[tuple[str, str]] 
                                            (path,))]  # fmt: skip
 
 
-def remove_absent(conn: sqlite3.Connection, present: set[str], queue: bool = False) -> int:
+def remove_absent(conn: sqlite3.Connection, present: Iterable[str], queue: bool = False) -> int:
     """Drop the current rows of entries not in ``present`` (their history stays); with
-    ``queue``, in the shared store's too, when the queue is sent."""
-    gone = [p for (p,) in conn.execute("SELECT path FROM entries") if p not in present]
+    ``queue``, in the shared store's too, when the queue is sent. ``present`` is read once,
+    into a temporary table, not held as a set (a notebook of 100,000 entries)."""
+    conn.execute("CREATE TEMP TABLE IF NOT EXISTS scan_present (path TEXT PRIMARY KEY)")
+    conn.execute("DELETE FROM temp.scan_present")
+    conn.executemany("INSERT OR IGNORE INTO temp.scan_present VALUES (?)", ((p,) for p in present))
+    gone = [
+        p
+        for (p,) in conn.execute(
+            "SELECT path FROM entries WHERE path NOT IN (SELECT path FROM temp.scan_present)"
+        )
+    ]
+    conn.execute("DELETE FROM temp.scan_present")
     if gone:
         conn.execute("BEGIN IMMEDIATE")
         try:

@@ -8,6 +8,7 @@ on disk. The entry file itself is never opened for writing.
 from __future__ import annotations
 
 import functools
+from collections.abc import Iterable
 from pathlib import Path
 
 from capture.config import LabConfig
@@ -104,27 +105,25 @@ def finish_writes() -> None:
 
 
 @hookimpl(specname="masstrail_scan_done")
-def sync_folders(written: list[str]) -> None:
+def sync_folders(written: Iterable[str]) -> None:
     """fsync every folder the scan wrote into (here or in its workers), once."""
+    import os
+
     finish_writes()
-    _unsynced.update(Path(p).parent for p in written)
+    _unsynced.update(Path(folder) for folder in {os.path.dirname(p) for p in written})
     while _unsynced:
         sync_folder(_unsynced.pop())
 
 
 @hookimpl(specname="masstrail_scan_done")
-def remove_orphans(root: Path, present: list[str], outputs: list[str]) -> None:
+def remove_orphans(orphans: list[str]) -> None:
     """Result files whose entry is gone (deleted while no watcher ran) are removed, when they
     are masstrail's own: a JSON result with masstrail's format, a card with its heading."""
     import contextlib
     import os
 
-    expected = set()
-    for rel in present:
-        entry = os.path.join(os.fspath(root), *rel.split("/"))
-        expected |= {os.fspath(sidecar_path(Path(entry))), os.fspath(card_path(Path(entry)))}
-    for out in outputs:
-        if out not in expected and _ours(Path(out)):
+    for out in orphans:
+        if _ours(Path(out)):
             with contextlib.suppress(OSError):
                 os.unlink(out)
 

@@ -13,6 +13,7 @@ import functools
 import sqlite3
 import sys
 import threading
+from collections.abc import Iterable
 from pathlib import Path
 
 from capture.config import LabConfig
@@ -126,11 +127,11 @@ def flush_store(root: Path, config: LabConfig) -> None:
 
 
 @hookimpl(specname="masstrail_scan_done")
-def finish_scan(root: Path, config: LabConfig, present: list[str]) -> None:
+def finish_scan(root: Path, config: LabConfig, present: Iterable[str]) -> None:
     """Drop the rows of entries no longer in the notebook (their history stays)."""
     if config.store.enabled:
         _flush(root, config)  # in case a caller did not flush first
-        remove_absent(connection(root, config), set(present), queue=_queue(config))
+        remove_absent(connection(root, config), present, queue=_queue(config))
         _send(root, config, force=True)  # a rescan is the retry of a server that was away
 
 
