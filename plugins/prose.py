@@ -173,10 +173,12 @@ def sentences(body: str) -> tuple[tuple[int, str], ...]:
 
 
 # ---------------------------------------------------------------------- characterisation
-CHAR_HINTS = ("NMR", "δ", "m/z", "HRMS", "LRMS", "ESI", "IR", "cm", "mp", "m.p", "Rf", "RF",
-               "b.p", "bp", "[α]")  # fmt: skip
+# "mp" and "bp" only where no lower-case letter comes before ("temperature", "compound" hold
+# an "mp"): each marker's pattern needs a word boundary there, so none is missed
+CHAR_HINTS = ("NMR", "δ", "m/z", "HRMS", "LRMS", "ESI", "IR", "cm", r"(?<![a-z])m\.?p", "Rf",
+              "RF", r"(?<![a-z])b\.?p", r"\[α\]")  # fmt: skip
 
-CHAR_HINT = re.compile("|".join(map(re.escape, CHAR_HINTS)))
+CHAR_HINT = re.compile("|".join(CHAR_HINTS))
 
 CHARACTERISATION = re.compile(
     r"\b(1H|13C|19F|31P|11B)\s*NMR\b|\bNMR\s*\(|δ|\bm/z\b|\bHRMS\b|\bLRMS\b|\bESI\b|^\s*IR\b|"

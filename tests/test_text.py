@@ -229,7 +229,7 @@ def test_the_characterisation_shortcut_finds_what_the_full_pattern_finds():
 
     pieces = st.sampled_from(["1H", "13C", " NMR", "NMR (", "δ", "m/z", "HRMS", "ESI", "IR",
                               "cm-1", "cm−1", "m.p. 1", "mp", "mp 2", "Rf =", "RF 0", "b.p. 7",
-                              "bp", "[α]", " ", "(", ";", "x", "Mp", "rf", "."])  # fmt: skip
+                              "bp", "[α]", " ", "(", ";", "x", "Mp", "rf", ".", "temperature", "_", "A"])  # fmt: skip
 
     @given(st.lists(pieces, max_size=12).map("".join))
     def same(text):
