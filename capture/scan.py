@@ -95,7 +95,6 @@ def scan(
     notebook: Notebook,
     progress: Callable[[Path, EntrySummary], None] | None = None,
     write: bool = True,
-    files: Iterable[Path] | None = None,
     reuse: bool = False,
     keep: bool = True,
     jobs: int = 1,
@@ -104,16 +103,14 @@ def scan(
     """Process every entry under the notebook root once; one summary per entry file.
 
     The entries are found a folder at a time (:meth:`Notebook.folders`) and planned and
-    computed :data:`CHUNK` at a time, so that memory stays flat in the notebook's size;
-    ``files``, if given, replaces the walk (sorted by folder, as
-    :meth:`Notebook.entry_files` gives them). With ``reuse`` (and ``write``), an entry whose
-    result is current (see :meth:`capture.fingerprint.Fingerprints.current`) is not
-    recomputed: its summary is the one remembered, from ``previous`` or else from
-    ``masstrail_previous_results``. With ``keep``, every recomputed entry's full
-    :class:`Result` is kept in ``results`` (memory grows with the notebook). With ``jobs``
-    > 1, entries are computed and written in that many worker processes, a share at a time;
-    the files and store rows are the same as with one. ``progress(path, summary)`` is called
-    for each entry file, in order.
+    computed :data:`CHUNK` at a time, so that memory stays flat in the notebook's size.
+    With ``reuse`` (and ``write``), an entry whose result is current (see
+    :meth:`capture.fingerprint.Fingerprints.current`) is not recomputed: its summary is the
+    one remembered, from ``previous`` or else from ``masstrail_previous_results``. With
+    ``keep``, every recomputed entry's full :class:`Result` is kept in ``results`` (memory
+    grows with the notebook). With ``jobs`` > 1, entries are computed and written in that
+    many worker processes, a share at a time; the files and store rows are the same as with
+    one. ``progress(path, summary)`` is called for each entry file, in order.
     """
     basis = notebook.fingerprints.parts if write else None
     last_basis = read_basis(notebook.root) if write else None
@@ -122,10 +119,9 @@ def scan(
         hook = notebook.pm.hook.masstrail_previous_results
         previous = hook(root=notebook.root, config=notebook.config) or {}
     report = ScanReport(notebook.root, basis_changes=changes)
-    groups = notebook.folders() if files is None else _folders_of(files)
     remembered = previous if reuse and write else None
     with _Workers(notebook, jobs, write, keep) as workers:
-        for chunk in _chunks(groups):
+        for chunk in _chunks(notebook.folders()):
             plan = _plan(notebook, chunk, remembered)
             work = iter(
                 workers.computed([f for (f, _), p in zip(chunk, plan, strict=True) if p is None])
@@ -172,20 +168,6 @@ def _one_done(nb: Notebook, report: ScanReport, f: Path, clash: list[Path] | Non
             report.changed.append(summary.path)
     report.add(summary)
     return summary
-
-
-def _folders_of(files: Iterable[Path]) -> Iterator[tuple[str, list[str]]]:
-    """Given entry files, sorted by folder, as :meth:`Notebook.folders` gives them."""
-    folder, names = None, []
-    for f in files:
-        head, name = os.path.split(os.fspath(f))
-        if head != folder and names:
-            yield folder, names
-            names = []
-        folder = head
-        names.append(name)
-    if names:
-        yield folder, names
 
 
 def _chunks(groups: Iterable[tuple[str, list[str]]]) -> Iterator[list[tuple[Path, list | None]]]:
