@@ -211,6 +211,53 @@ def _all_sentences() -> list[str]:
     return [s for t in texts for _, s in sentences(t)]
 
 
+@pytest.mark.parametrize("module, original, fast", [
+    ("extract.text", "_QUANTITY", "_QUANTITY_LED"),
+    ("prose", "CHARACTERISATION", "_CHARACTERISATION_LED"),
+    ("gaps.reading", "_ELSEWHERE", "_ELSEWHERE_LED"),
+])  # fmt: skip
+def test_a_led_pattern_matches_where_its_original_does(module, original, fast):
+    """Each pattern led by its first characters (prose.led) finds exactly what its original
+    finds, on every corpus and example sentence and on the sentences run together."""
+    import importlib
+
+    mod = importlib.import_module(f"masstrail_plugins.{module}")
+    a, b = getattr(mod, original), getattr(mod, fast)
+    texts = _all_sentences()
+    found = 0
+    for s in [*texts, " ".join(texts)]:
+        spans = [m.span() for m in a.finditer(s)]
+        assert [m.span() for m in b.finditer(s)] == spans, s[:200]
+        found += len(spans)
+    assert found >= 10
+
+
+def test_the_led_quantity_pattern_finds_what_the_quantity_pattern_finds():
+    """The quantity pattern led by its first characters finds the same quantities in
+    generated text."""
+    from hypothesis import given
+    from hypothesis import strategies as st
+
+    from masstrail_plugins.extract.text import _QUANTITY, _QUANTITY_LED
+
+    def spans(p, s):
+        return [m.span() for m in p.finditer(s)]
+
+    pieces = st.sampled_from(["2", "0.5", ".5", ",5", " ", "g", "mL", "mmol", "ca.", "ca ", "~",
+                              "≈", "about ", "approx. ", "½", "1½", "3 × ", "x", "-", "to", "–",
+                              "a", "(", "e-3", "²", "L", "kg"])  # fmt: skip
+
+    @given(st.lists(pieces, max_size=10).map("".join))
+    def same(text):
+        assert spans(_QUANTITY_LED, text) == spans(_QUANTITY, text)
+
+    same()
+
+
+def _span(m):
+    return None if m is None else m.span()
+
+
 def test_the_characterisation_shortcut_finds_what_the_full_pattern_finds():
     """The cheap hint check in front of the characterisation pattern never hides a marker:
     on every sentence of the corpora, the real subset and the examples, and on generated
@@ -223,17 +270,18 @@ def test_the_characterisation_shortcut_finds_what_the_full_pattern_finds():
     found = 0
     for s in _all_sentences():
         full = CHARACTERISATION.search(s)
-        assert (characterisation(s) is None) == (full is None), s
+        assert _span(characterisation(s)) == _span(full), s  # the same first marker
         found += full is not None
     assert found >= 25  # the corpora hold that many sentences with markers
 
     pieces = st.sampled_from(["1H", "13C", " NMR", "NMR (", "δ", "m/z", "HRMS", "ESI", "IR",
                               "cm-1", "cm−1", "m.p. 1", "mp", "mp 2", "Rf =", "RF 0", "b.p. 7",
-                              "bp", "[α]", " ", "(", ";", "x", "Mp", "rf", ".", "temperature", "_", "A"])  # fmt: skip
+                              "bp", "[α]", " ", "(", ";", "x", "Mp", "rf", ".", "temperature",
+                              "_", "A", "31P NMR", "\t", "11B", "19F", "\n"])  # fmt: skip
 
     @given(st.lists(pieces, max_size=12).map("".join))
     def same(text):
-        assert (characterisation(text) is None) == (CHARACTERISATION.search(text) is None)
+        assert _span(characterisation(text)) == _span(CHARACTERISATION.search(text))
 
     same()
 

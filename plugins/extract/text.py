@@ -53,6 +53,7 @@ from masstrail_plugins.prose import (
     OPERATION_STAGE,
     OPERATION_STEMS,
     characterisation,
+    led,
     sentences,
 )
 
@@ -129,6 +130,7 @@ _QUANTITY = re.compile(
     rf"\s*(?P<unit>{_LEDGER_UNITS}))(?![\w/])(?P<dot>\.(?!\d))?"
     r"(?:\s*[×x]\s*(?P<times>\d)(?![\d.]))?"
 )
+_QUANTITY_LED = led(r"\dca~≈½⅓⅔¼¾⅛⅜⅝⅞.,", _QUANTITY)  # a fifth faster over sentences
 _NUMBER_OF_A_REFERENCE = re.compile(
     r"\b(?:[Ee]xamples?|[Ss]teps?|[Pp]reparations?|[Ii]ntermediates?|[Cc]ompounds?|[Tt]able|"
     r"[Ss]cheme|[Ff]ormula|No\.)\s*$"
@@ -226,7 +228,7 @@ class _Sentence:
 def _quantities(text: str, offset: int) -> list[_Quantity]:
     """Every mass, volume and amount of substance in ``text`` (at ``offset`` in the body)."""
     out = []
-    for m in _QUANTITY.finditer(text):
+    for m in _QUANTITY_LED.finditer(text):
         if m.group("range") and _NUMBER_OF_A_REFERENCE.search(text, max(0, m.start() - 40),
                                                                m.start()):  # fmt: skip
             # "obtained in Example 8 to 60 ml of toluene": 8 numbers the example

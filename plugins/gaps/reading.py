@@ -20,6 +20,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, Gap, MaterialLine, ProductOut, ReactionFigures
 from masstrail_plugins.gaps import allowances as al
+from masstrail_plugins.prose import led
 
 
 def _size(line: MaterialLine, config: LabConfig) -> tuple[float | None, str | None]:
@@ -68,10 +69,13 @@ _ELSEWHERE = re.compile(
 )
 
 
+_ELSEWHERE_LED = led("fauibsFAUIBS", _ELSEWHERE)  # twice as fast over a whole body
+
+
 @hookimpl(specname="masstrail_find_gaps")
 def procedure_elsewhere_gaps(entry: Entry) -> list[Gap]:
     """An entry whose procedure is written elsewhere misses that procedure's materials."""
-    m = _ELSEWHERE.search(entry.body)
+    m = _ELSEWHERE_LED.search(entry.body)
     if m is None:
         return []
     ref = " ".join(m.group("ref").split())
