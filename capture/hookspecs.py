@@ -1,11 +1,11 @@
 """Every hook of a masstrail run, in the order the run calls them.
 
-A run over one entry goes: read → extract → describe → merge → balance → weigh →
-product → reaction → checks → gaps → grade → metrics → write. :mod:`capture.run`
-only calls these hooks and hands each answer to the next; the built-in behaviour
-lives in ``masstrail_plugins``, loaded through the ``masstrail`` entry-point group
-like any lab's own plugin. Implementations may take fewer arguments than the spec
-lists, so a spec can gain one later. Arguments keep their names across hooks.
+A run over one entry goes: read → extract → describe → merge → balance → weigh → product →
+reaction → checks → gaps → grade → metrics → write. :mod:`capture.run` only calls these hooks
+and hands each answer to the next; the built-in behaviour lives in ``masstrail_plugins``,
+loaded through the ``masstrail`` entry-point group like any lab's own plugin. Implementations
+may take fewer arguments than the spec lists, so a spec can gain one later. Arguments keep
+their names across hooks.
 
 Units: masses g, volumes mL, amounts of substance mmol, densities g/mL, molar masses g/mol.
 """
@@ -520,14 +520,15 @@ def masstrail_write_result(
 
 
 @hookspec(firstresult=True)
-def masstrail_previous_results(root: Path, config: LabConfig) -> dict[str, EntrySummary] | None:
+def masstrail_previous_results(root: Path, config: LabConfig, paths: list[str] | None
+                               ) -> dict[str, EntrySummary] | None:  # fmt: skip
     """What a writer remembers of the last results, so a scan can skip unchanged entries.
 
-    Called once at the start of a scan that reuses results (``masstrail scan``,
-    ``report``, ``export``). Stops at first non-None result.
+    Called by a reusing scan, a chunk of entries at a time. Stops at first non-None result.
 
     :param root: the notebook root.
     :param config: the lab configuration.
+    :param paths: the relative entry paths asked about, or None for every entry.
     :returns: ``{relative entry path: capture.models.EntrySummary}`` (with the
         fingerprint, hash and stat that tell whether each is still current), or None
         if this writer keeps nothing.

@@ -115,14 +115,15 @@ def scan(
     basis = notebook.fingerprints.parts if write else None
     last_basis = read_basis(notebook.root) if write else None
     changes = basis_changes(last_basis, basis) if last_basis is not None and basis else []
-    if write and (reuse or changes) and previous is None:
-        hook = notebook.pm.hook.masstrail_previous_results
-        previous = hook(root=notebook.root, config=notebook.config) or {}
+    ask = write and (reuse or changes) and previous is None  # the writers, a chunk at a time
     report = ScanReport(notebook.root, basis_changes=changes)
-    remembered = previous if reuse and write else None
     with _Workers(notebook, jobs, write, keep) as workers:
         for chunk in _chunks(notebook.folders()):
-            plan = _plan(notebook, chunk, remembered)
+            if ask:
+                previous = notebook.pm.hook.masstrail_previous_results(
+                    root=notebook.root, config=notebook.config,
+                    paths=[notebook.relpath(f) for f, _ in chunk]) or {}  # fmt: skip
+            plan = _plan(notebook, chunk, previous if reuse and write else None)
             work = iter(
                 workers.computed([f for (f, _), p in zip(chunk, plan, strict=True) if p is None])
             )

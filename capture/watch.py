@@ -213,7 +213,7 @@ class Watcher:
         of entries that are gone are removed; return how many entries were computed."""
         nb = self.nb
         known = self.summaries or nb.pm.hook.masstrail_previous_results(
-            root=self.root, config=nb.config) or {}  # fmt: skip
+            root=self.root, config=nb.config, paths=None) or {}  # fmt: skip
 
         def computed(path: Path, s: EntrySummary) -> None:
             if s.recomputed:

@@ -58,3 +58,13 @@ def test_the_shared_store_benchmark_runs(tmp_path):
     text = out.read_text()
     assert "80 current entries, 80 history rows" in text and "0 left waiting" in text
     assert "×** the floor" in text and "`report --store` over 80 entries" in text
+
+
+def test_the_scan_memory_benchmark_runs():
+    """Two small sizes, cold and warm: every scan holds all its entries and the table is
+    printed with both growth lines."""
+    run = subprocess.run([sys.executable, str(ROOT / "bench" / "scan_memory.py"), "--sizes",
+                          "30,60", "--jobs", "1"], capture_output=True, text=True,
+                         timeout=300)  # fmt: skip
+    assert run.returncode == 0, run.stderr[-2000:]
+    assert "| 60 |" in run.stdout and "warm scan, parent growth above its floor" in run.stdout

@@ -13,6 +13,7 @@ import pytest
 from click.testing import CliRunner
 
 from capture.cli import cli
+from capture.hookspecs import hookimpl
 from capture.notebook import Notebook
 from capture.scan import scan
 from capture.store import (
@@ -306,11 +307,13 @@ def test_without_a_store_the_sidecars_say_what_is_current(notebook):
     a = notebook.write("a.md", ENTRY)
     notebook.write("b.md", ENTRY.replace("3.00 g", "4.00 g"))
     nb = Notebook.open(notebook.root)
-    assert nb.pm.hook.masstrail_previous_results(root=nb.root, config=nb.config) == {}
+    assert nb.pm.hook.masstrail_previous_results(root=nb.root, config=nb.config, paths=None) == {}
     first = _reuse(notebook)
     assert first.recomputed == 2
-    known = nb.pm.hook.masstrail_previous_results(root=nb.root, config=nb.config)
+    known = nb.pm.hook.masstrail_previous_results(root=nb.root, config=nb.config, paths=None)
     assert sorted(known) == ["a.md", "b.md"] and known["b.md"].product_g == 1.0
+    some = nb.pm.hook.masstrail_previous_results(root=nb.root, config=nb.config, paths=["b.md"])
+    assert list(some) == ["b.md"] and some["b.md"] == known["b.md"]
     again = _reuse(notebook)
     # DCM 10 mL × 1.3266 g/mL (FIELD.md) + 3.00 g (or 4.00 g) of A, for 1.00 g of product
     assert [s.e_factor for s in again.summaries] == [pytest.approx(15.266), pytest.approx(16.266)]
@@ -476,3 +479,33 @@ def test_a_sidecar_that_could_not_be_written_stops_the_scan_before_the_store_rec
     monkeypatch.setattr(sidecar, "replace_all_atomically", real)
     assert _reuse(notebook).recomputed == 3  # nothing was taken as current
     assert (notebook.root / "b.waste.json").exists()
+
+
+@pytest.mark.parametrize("store", ["true", "false"])
+def test_a_rescan_asks_what_is_current_a_chunk_at_a_time(notebook, monkeypatch, store):
+    """A reusing scan asks the store (or, without one, the sidecars) about its entries a
+    chunk at a time, never for the whole notebook at once; with chunks of 2, the rescan of 5
+    entries asks three times, for 2, 2 and 1 paths, and recomputes only the edited one."""
+    import capture.scan
+
+    notebook.write("masstrail.toml", f"[store]\nenabled = {store}\n")
+    for name in ("a", "b", "c", "d", "e"):
+        notebook.write(f"{name}.md", ENTRY)
+    monkeypatch.setattr(capture.scan, "CHUNK", 2)
+    nb = Notebook.open(notebook.root)
+    asked = []
+
+    class Spy:
+        @hookimpl(hookwrapper=True, specname="masstrail_previous_results")
+        def spy(self, paths):
+            asked.append(paths)
+            yield
+
+    nb.pm.register(Spy())  # before the first scan: the plugins are part of the fingerprint
+    assert scan(nb, reuse=True, keep=False).recomputed == 5
+    asked.clear()
+    notebook.write("d.md", ENTRY.replace("3.00 g", "3.50 g"))
+    again = scan(nb, reuse=True, keep=False)
+    assert asked == [["a.md", "b.md"], ["c.md", "d.md"], ["e.md"]]
+    assert [s.path for s in again.summaries if s.recomputed] == ["d.md"]
+    assert len(again.summaries) == 5

@@ -176,15 +176,20 @@ def _migrate(conn: sqlite3.Connection) -> None:
             conn.execute(f"ALTER TABLE entries ADD COLUMN {name} {kind}")
 
 
-def previous_results(conn: sqlite3.Connection) -> dict[str, EntrySummary]:
+def previous_results(
+    conn: sqlite3.Connection, paths: list[str] | None = None
+) -> dict[str, EntrySummary]:
     """``{entry path: EntrySummary}`` for every current entry with a fingerprint (rows
-    written before the gap counts were kept in ``entries`` are left out: recomputed)."""
+    written before the gap counts were kept in ``entries`` are left out: recomputed), or for
+    those of ``paths`` only."""
+    some = "" if paths is None else " AND e.path IN (SELECT value FROM json_each(?))"
     rows = conn.execute(  # in the order of EntrySummary's fields
         "SELECT e.path, e.status, e.product_g, m.e_factor, m.pmi, e.gaps_blocking, "
         "e.gaps_major, e.gaps_minor, e.error, e.error_location, e.inputs_sha256, e.sha256, "
         "e.entry_stat, CASE e.balance_log WHEN '[]' THEN NULL ELSE e.balance_log END "
         "FROM entries e LEFT JOIN metrics m ON m.entry_path = e.path "
-        "WHERE e.inputs_sha256 IS NOT NULL AND e.gaps_blocking IS NOT NULL"
+        "WHERE e.inputs_sha256 IS NOT NULL AND e.gaps_blocking IS NOT NULL" + some,
+        () if paths is None else (json.dumps(paths),),
     )
     out = {}
     for *head, fingerprint, sha, stat, logs in rows:

@@ -8,7 +8,7 @@ on disk. The entry file itself is never opened for writing.
 from __future__ import annotations
 
 import functools
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
 from pathlib import Path
 
 from capture.config import LabConfig
@@ -152,26 +152,33 @@ def gaps_in_sidecar(root: Path, relpath: str, config: LabConfig) -> list[tuple[s
 
 
 @hookimpl(trylast=True, specname="masstrail_previous_results")
-def previous_from_sidecars(root: Path, config: LabConfig) -> dict[str, EntrySummary] | None:
-    """What the sidecars under ``root`` say of the last results, when no store answered
-    (``[store] enabled = false``): a scan then still skips the entries whose sidecar holds
-    their current fingerprint. A sidecar that cannot be read is left out (recomputed)."""
+def previous_from_sidecars(
+    root: Path, config: LabConfig, paths: list[str] | None
+) -> dict[str, EntrySummary] | None:
+    """What the sidecars under ``root`` (of the entries ``paths``, or all) say of the last
+    results, when no store answered (``[store] enabled = false``): a scan then still skips
+    the entries whose sidecar holds their current fingerprint. A sidecar that cannot be read
+    is left out (recomputed)."""
     import json
+
+    sides = _sidecars_under(root) if paths is None else (sidecar_path(root / p) for p in paths)
+    out: dict[str, EntrySummary] = {}
+    for side in sides:
+        try:
+            summary = _summary_of(json.loads(read_small(side) or ""))
+        except (ValueError, KeyError, TypeError, AttributeError):
+            continue
+        if summary is not None:
+            out[summary.path] = summary
+    return out
+
+
+def _sidecars_under(root: Path) -> Iterator[Path]:
     import os
 
-    out: dict[str, EntrySummary] = {}
     for dirpath, dirnames, filenames in os.walk(root):
         dirnames[:] = [d for d in dirnames if EntryRule.folder_ok(d)]
-        for name in filenames:
-            if not name.endswith(SIDECAR_SUFFIX):
-                continue
-            try:
-                summary = _summary_of(json.loads(read_small(Path(dirpath, name)) or ""))
-            except (ValueError, KeyError, TypeError, AttributeError):
-                continue
-            if summary is not None:
-                out[summary.path] = summary
-    return out
+        yield from (Path(dirpath, n) for n in filenames if n.endswith(SIDECAR_SUFFIX))
 
 
 def _summary_of(data: dict) -> EntrySummary | None:

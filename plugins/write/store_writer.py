@@ -136,11 +136,12 @@ def finish_scan(root: Path, config: LabConfig, present: Iterable[str]) -> None:
 
 
 @hookimpl(specname="masstrail_previous_results")
-def previous(root: Path, config: LabConfig) -> dict | None:
-    """The fingerprint and summary of every entry's last result, from the store."""
+def previous(root: Path, config: LabConfig, paths: list[str] | None) -> dict | None:
+    """The fingerprint and summary of each entry's last result (of ``paths``, or every
+    entry's), from the store."""
     if not config.store.enabled:
         return None
-    return previous_results(connection(root, config))
+    return previous_results(connection(root, config), paths)
 
 
 @hookimpl(specname="masstrail_previous_gaps")
