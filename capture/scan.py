@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import contextlib
 import os
+from collections import deque
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -118,20 +119,11 @@ def scan(
     ask = write and (reuse or changes) and previous is None  # the writers, a chunk at a time
     report = ScanReport(notebook.root, basis_changes=changes)
     with _Workers(notebook, jobs, write, keep) as workers:
-        for chunk in _chunks(notebook.folders()):
-            if ask:
-                previous = notebook.pm.hook.masstrail_previous_results(
-                    root=notebook.root, config=notebook.config,
-                    paths=[notebook.relpath(f) for f, _ in chunk]) or {}  # fmt: skip
-            plan = _plan(notebook, chunk, previous if reuse and write else None)
-            work = iter(
-                workers.computed([f for (f, _), p in zip(chunk, plan, strict=True) if p is None])
-            )
-            for (f, clash), planned in zip(chunk, plan, strict=True):
-                summary = _one_done(notebook, report, f, clash, planned, work, write, keep,
-                                    previous if changes else None)  # fmt: skip
-                if progress:
-                    progress(f, summary)
+        planned = _planned(notebook, previous, ask, reuse and write)
+        for item, outcome in workers.outcomes(planned):
+            summary = _one_done(notebook, report, item, outcome, write, keep, bool(changes))
+            if progress:
+                progress(item.path, summary)
     report.unnamed = list(notebook.unnamed)
     if write:
         notebook.pm.hook.masstrail_flush_results(root=notebook.root, config=notebook.config)
@@ -148,27 +140,51 @@ def _path(summary: EntrySummary) -> str:
     return summary.path
 
 
-def _one_done(nb: Notebook, report: ScanReport, f: Path, clash: list[Path] | None,
-              planned: Result | EntrySummary | None, work: Iterator, write: bool, keep: bool,
-              previous: dict[str, EntrySummary] | None) -> EntrySummary:  # fmt: skip
+@dataclass(slots=True)
+class _Item:
+    """One entry file of a scan, planned: ``planned`` is an error result (a name clash), its
+    previous summary (current), or None (to compute); ``before`` what was remembered of it."""
+
+    path: Path
+    clash: list[Path] | None
+    planned: Result | EntrySummary | None
+    before: EntrySummary | None
+
+
+def _one_done(nb: Notebook, report: ScanReport, item: _Item, outcome: tuple | None,
+              write: bool, keep: bool, changes: bool) -> EntrySummary:  # fmt: skip
     """One entry's outcome into the report: remembered, a name clash, or just computed."""
+    planned = item.planned
     if isinstance(planned, EntrySummary):
         summary = planned
     elif planned is not None:  # a name clash: the first of its files writes the error
-        if write and clash and f == clash[0]:
-            report.written.extend(map(os.fspath, nb.write(planned, f, batch=True)))
+        if write and item.path == item.clash[0]:
+            report.written.extend(map(os.fspath, nb.write(planned, item.path, batch=True)))
         summary = EntrySummary.of(planned)
         if keep:
             report.results.append(planned)
     else:
-        summary, files_written, result = next(work)
+        summary, files_written, result = outcome
         report.written.extend(files_written)
         if keep:
             report.results.append(result)
-        if previous and _figures_differ(previous.get(summary.path), summary):
+        if changes and _figures_differ(item.before, summary):
             report.changed.append(summary.path)
     report.add(summary)
     return summary
+
+
+def _planned(nb: Notebook, previous: dict[str, EntrySummary] | None, ask: bool,
+             reuse: bool) -> Iterator[list[_Item]]:  # fmt: skip
+    """The scan's entries, planned a chunk at a time; with ``ask``, what is remembered of
+    each chunk comes from ``masstrail_previous_results``, else from ``previous``."""
+    for chunk in _chunks(nb.folders()):
+        known = previous
+        if ask:
+            paths = [nb.relpath(f) for f, _ in chunk]
+            hook = nb.pm.hook.masstrail_previous_results
+            known = hook(root=nb.root, config=nb.config, paths=paths) or {}
+        yield _plan(nb, chunk, known, reuse)
 
 
 def _chunks(groups: Iterable[tuple[str, list[str]]]) -> Iterator[list[tuple[Path, list | None]]]:
@@ -204,27 +220,29 @@ def _figures_differ(before: EntrySummary | None, now: EntrySummary) -> bool:
 
 
 def _plan(
-    nb: Notebook, chunk: list[tuple[Path, list | None]], previous: dict[str, EntrySummary] | None
-) -> list[Result | EntrySummary | None]:
-    """For each file: an error result (a name clash), its previous summary (current), or None
-    (to compute)."""
-    plan: list[Result | EntrySummary | None] = []
+    nb: Notebook,
+    chunk: list[tuple[Path, list | None]],
+    previous: dict[str, EntrySummary] | None,
+    reuse: bool,
+) -> list[_Item]:
+    """For each file: an error result (a name clash), its previous summary (current, with
+    ``reuse``), or None (to compute)."""
+    plan: list[_Item] = []
     logs_seen: dict = {}  # log digests by (folder, logs), for this chunk
     for f, clash in chunk:
+        before = previous.get(nb.relpath(f)) if previous else None
         if clash:
             names = ", ".join(p.name for p in clash)
-            plan.append(error_result(
+            plan.append(_Item(f, clash, error_result(
                 f, nb.relpath(f), None,
                 f"{len(clash)} entries in this folder share the name "
                 f"'{sidecar_path(f).name}' for their results ({names}); rename one of them",
-                None))  # fmt: skip
-            continue
-        before = previous.get(nb.relpath(f)) if previous else None
-        if before is not None and nb.fingerprints.current(f, before, logs_seen):
+                None), before))  # fmt: skip
+        elif reuse and before is not None and nb.fingerprints.current(f, before, logs_seen):
             before.recomputed = False
-            plan.append(before)
+            plan.append(_Item(f, None, before, before))
         else:
-            plan.append(None)
+            plan.append(_Item(f, None, None, before))
     return plan
 
 
@@ -290,7 +308,7 @@ class _Workers:
     """Where a scan's entries are computed and written: here, or in ``jobs`` worker
     processes (started for the first chunk with enough entries to pay for them, and kept
     for the chunks after), handed a share at a time, two shares per worker in flight, so
-    that finished work never piles up in memory."""
+    that finished work never piles up in memory (see :meth:`outcomes`)."""
 
     def __init__(self, notebook: Notebook, jobs: int, write: bool, keep: bool) -> None:
         self.nb, self.jobs, self.write, self.keep = notebook, jobs, write, keep
@@ -304,19 +322,44 @@ class _Workers:
         if self.pool is not None:
             self.pool.__exit__(*exc)
 
-    def computed(
-        self, paths: list[Path]
-    ) -> Iterator[tuple[EntrySummary, list[str], Result | None]]:
-        """(summary, files written, result if ``keep``) for each of ``paths``, in order."""
-        if self.pool is None and (self.jobs <= 1 or len(paths) < PARALLEL_MIN):
-            nb = self.nb
-            for path in paths:
-                result, written = _one(nb, path, self.write)
-                self.done_here += 1
-                if self.write and self.done_here % PARALLEL_SHARE == 0:  # as a worker does
-                    nb.pm.hook.masstrail_flush_results(root=nb.root, config=nb.config)
-                yield EntrySummary.of(result), written, result if self.keep else None
-            return
+    def outcomes(self, chunks: Iterable[list[_Item]]) -> Iterator[tuple[_Item, tuple | None]]:
+        """(item, its outcome) for every item, in order: the outcome (summary, files written,
+        result if ``keep``) of an item to compute, else None. A chunk with fewer than
+        :data:`PARALLEL_MIN` entries to compute, while no worker runs, is computed here; once
+        started, the workers get every share after, and their shares run on from one chunk
+        into the next (the next chunk is planned while they work)."""
+        waiting: deque[_Item] = deque()  # handed to the workers, in order, not yet given out
+        ready: deque = deque()  # outcomes of finished shares, in order
+        pending: deque = deque()  # shares in the workers, in order
+        for chunk in chunks:
+            todo = [item.path for item in chunk if item.planned is None]
+            if self.pool is None and (self.jobs <= 1 or len(todo) < PARALLEL_MIN):
+                for item in chunk:
+                    yield item, (self._here(item.path) if item.planned is None else None)
+                continue
+            self._start()
+            waiting.extend(chunk)
+            for i in range(0, len(todo), PARALLEL_SHARE):  # a chunk's last share may be short
+                share = todo[i : i + PARALLEL_SHARE]
+                pending.append(self.pool.submit(_share_in_worker, share, self.write, self.keep))
+                while len(pending) >= 2 * self.jobs:
+                    ready.extend(pending.popleft().result())
+                    yield from _given_out(waiting, ready)
+            yield from _given_out(waiting, ready)
+        while pending:
+            ready.extend(pending.popleft().result())
+            yield from _given_out(waiting, ready)
+        assert not waiting and not ready
+
+    def _here(self, path: Path) -> tuple[EntrySummary, list[str], Result | None]:
+        nb = self.nb
+        result, written = _one(nb, path, self.write)
+        self.done_here += 1
+        if self.write and self.done_here % PARALLEL_SHARE == 0:  # as a worker does
+            nb.pm.hook.masstrail_flush_results(root=nb.root, config=nb.config)
+        return EntrySummary.of(result), written, result if self.keep else None
+
+    def _start(self) -> None:
         if self.pool is None:
             import multiprocessing
             from concurrent.futures import ProcessPoolExecutor
@@ -325,13 +368,10 @@ class _Workers:
             self.pool = ProcessPoolExecutor(self.jobs, mp_context=context,
                                             initializer=_start_worker,
                                             initargs=(str(self.nb.root),))  # fmt: skip
-        from collections import deque
 
-        shares = (paths[i : i + PARALLEL_SHARE] for i in range(0, len(paths), PARALLEL_SHARE))
-        pending: deque = deque()
-        for share in shares:
-            pending.append(self.pool.submit(_share_in_worker, share, self.write, self.keep))
-            if len(pending) >= 2 * self.jobs:
-                yield from pending.popleft().result()
-        while pending:
-            yield from pending.popleft().result()
+
+def _given_out(waiting: deque[_Item], ready: deque) -> Iterator[tuple[_Item, tuple | None]]:
+    """The items at the front of ``waiting`` that need no outcome, or whose outcome is in."""
+    while waiting and (waiting[0].planned is not None or ready):
+        item = waiting.popleft()
+        yield item, (ready.popleft() if item.planned is None else None)

@@ -233,3 +233,12 @@ def test_workers_started_for_one_chunk_serve_the_next(tmp_path, monkeypatch):
         (s.path, s.e_factor) for s in b.summaries
     ]
     assert len(b.written) == 20 and len(list(roots[1].rglob("*.waste.json"))) == 20
+    # a rescan in the workers: current entries between the edited ones keep their places
+    monkeypatch.setattr(capture.scan, "PARALLEL_MIN", 2)
+    for i in (1, 2, 9, 17):
+        edited = roots[1] / f"f{i // 6}/e{i}.md"
+        edited.write_text(edited.read_text(encoding="utf-8") + "\nStored cold.\n")
+    c = scan(Notebook.open(roots[1]), reuse=True, keep=False, jobs=2)
+    assert [s.path for s in c.summaries] == [s.path for s in b.summaries]
+    assert [s.path for s in c.summaries if s.recomputed] == ["f0/e1.md", "f0/e2.md",
+                                                            "f1/e9.md", "f2/e17.md"]  # fmt: skip
