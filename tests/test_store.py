@@ -509,3 +509,30 @@ def test_a_rescan_asks_what_is_current_a_chunk_at_a_time(notebook, monkeypatch, 
     assert asked == [["a.md", "b.md"], ["c.md", "d.md"], ["e.md"]]
     assert [s.path for s in again.summaries if s.recomputed] == ["d.md"]
     assert len(again.summaries) == 5
+
+
+def _open_store_at(path: str, barrier) -> None:
+    from pathlib import Path
+
+    from capture.store.database import connect
+
+    barrier.wait(timeout=30)
+    connect(Path(path)).close()
+
+
+def test_processes_that_open_a_new_store_at_once_all_succeed(tmp_path):
+    """A first scan's workers open the new store together and race to switch it to WAL,
+    which SQLite refused at once ("database is locked") to all but one: 9 of 60 processes
+    failed so before. Real processes, released together by a barrier."""
+    import multiprocessing
+
+    ctx = multiprocessing.get_context("spawn")
+    for i in range(8):
+        barrier = ctx.Barrier(4)
+        procs = [ctx.Process(target=_open_store_at, args=(str(tmp_path / f"{i}/records.db"),
+                                                          barrier)) for _ in range(4)]  # fmt: skip
+        for p in procs:
+            p.start()
+        for p in procs:
+            p.join(60)
+        assert [p.exitcode for p in procs] == [0, 0, 0, 0], f"round {i}"

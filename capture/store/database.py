@@ -143,16 +143,33 @@ def connect(db_path: Path) -> sqlite3.Connection:
     """Open (and if needed create) the store, with its pragmas, schema and triggers."""
     db_path.parent.mkdir(parents=True, exist_ok=True)
     conn = sqlite3.connect(db_path, timeout=10, isolation_level=None)  # we open transactions
-    conn.execute("PRAGMA journal_mode=WAL")
     conn.execute("PRAGMA busy_timeout=10000")
+    _while_locked(lambda: conn.execute("PRAGMA journal_mode=WAL"))
     conn.execute("PRAGMA foreign_keys=ON")
     conn.execute("PRAGMA synchronous=FULL")
-    conn.executescript(SCHEMA)
+    _while_locked(lambda: conn.executescript(SCHEMA))
     _migrate(conn)
     triggers = {r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type='trigger'")}
     if not {"history_no_update", "history_no_delete"} <= triggers:
         raise StoreError(f"{db_path}: the history's append-only triggers are missing")
     return conn
+
+
+def _while_locked(step, seconds: float = 10.0) -> None:
+    """Run ``step`` again while the store is locked, for up to ``seconds``. Two processes
+    that open a new store at once (a first scan's workers) race to switch it to WAL, and
+    SQLite answers that switch "database is locked" at once, without its busy wait."""
+    import time
+
+    end = time.monotonic() + seconds
+    while True:
+        try:
+            step()
+            return
+        except sqlite3.OperationalError as exc:
+            if "locked" not in str(exc) or time.monotonic() > end:
+                raise
+            time.sleep(0.02)
 
 
 # columns added to ``entries`` after the first release: (name, type); added in place by
