@@ -60,6 +60,15 @@ def test_simple_e_factor_leaves_out_solvents_water_and_workup():
     assert r.metrics["e_factor"] == pytest.approx(32.5)
 
 
+def test_no_simple_e_factor_when_the_product_outweighs_the_reagents():
+    # only a solvent recorded: (0 − 1) / 1 would be a simple E-factor of −1, which no mass
+    # balance allows (the same rule as the complete E-factor's, above)
+    r = _run([_line("toluene", 8.67, "solvent")], product=1.0)
+    assert r.metrics["e_factor_simple"] is None
+    assert r.metrics["e_factor"] == pytest.approx(7.67)
+    assert "outweighs the recorded reagents (0 g" in r.context["simple_mass_balance"]
+
+
 def test_water_can_be_left_out_of_the_headline():
     lines = [_line("A", 2.0), _line("brine", 12.0, "aqueous", "workup", water=8.0)]
     cfg = LabConfig.model_validate({"e_factor": {"include_water": False}})

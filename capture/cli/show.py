@@ -113,7 +113,7 @@ def _figures(out, r) -> None:
             out.print(f"Hazard-weighted E-factor {num(m.hazard_weighted_e)} [dim](rank weights "
                       "are masstrail's convention; a screening aid, not a risk "
                       "assessment)[/dim]")  # fmt: skip
-    for key in ("mass_balance", "lower_bound"):
+    for key in ("mass_balance", "simple_mass_balance", "lower_bound"):
         if key in r.context:
             out.print(f"[yellow]{esc(r.context[key])}[/yellow]")
     if r.breakdown and r.breakdown.largest:

@@ -121,10 +121,16 @@ def mass_metrics(
         simple_in = sum(m.mass_g for m in weighed if _simple(m))
         metrics.update(
             e_factor=_r(e),
-            e_factor_simple=_r((simple_in - p) / p),
+            e_factor_simple=_r((simple_in - p) / p) if simple_in >= p else None,
             e_factor_estimated=_r((counted + allowance) / p),
             pmi=_r(inputs / p),
         )
+        if simple_in < p:  # the same rule as the E-factor's: never a negative figure
+            context["simple_mass_balance"] = (
+                f"the product ({p:.4g} g) outweighs the recorded reagents ({simple_in:.4g} g, "
+                "solvents and workup left out), so no simple E-factor is given; record the "
+                "reagents' masses"
+            )
         context["sector"] = sector_context(e)
         unweighed = [m.name for m in materials if m.mass_g is None]
         if unweighed:
