@@ -420,6 +420,7 @@ def replace_all_atomically(items: list[tuple[Path, bytes]]) -> None:
     leaves every target old or new, never partial, as one at a time does; the folders are
     not fsynced here."""
     temps: list[tuple[str, Path]] = []
+    moved = 0  # temps[:moved] are in place
     try:
         for path, data in items:
             fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
@@ -442,12 +443,11 @@ def replace_all_atomically(items: list[tuple[Path, bytes]]) -> None:
                     os.fsync(fd)
                 finally:
                     os.close(fd)
-        while temps:
-            tmp, path = temps[0]
+        for tmp, path in temps:
             os.replace(tmp, path)
-            temps.pop(0)
+            moved += 1
     except BaseException:
-        for tmp, _ in temps:
+        for tmp, _ in temps[moved:]:
             with contextlib.suppress(OSError):
                 os.unlink(tmp)
         raise

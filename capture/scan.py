@@ -89,7 +89,8 @@ class ScanReport:
                        f"PMI or gaps): {listed}.")  # fmt: skip
 
 
-CHUNK = 4096  # entries planned at a time: the scanning process holds this many paths at most
+CHUNK = 4096  # entries planned at a time: the scanning process holds about two chunks' paths
+# (the one being handed out and the next, planned while the workers compute)
 
 
 def scan(
@@ -179,12 +180,12 @@ def _planned(nb: Notebook, previous: dict[str, EntrySummary] | None, ask: bool,
     """The scan's entries, planned a chunk at a time; with ``ask``, what is remembered of
     each chunk comes from ``masstrail_previous_results``, else from ``previous``."""
     for chunk in _chunks(nb.folders()):
+        rels = [nb.relpath(f) for f, _ in chunk]
         known = previous
         if ask:
-            paths = [nb.relpath(f) for f, _ in chunk]
             hook = nb.pm.hook.masstrail_previous_results
-            known = hook(root=nb.root, config=nb.config, paths=paths) or {}
-        yield _plan(nb, chunk, known, reuse)
+            known = hook(root=nb.root, config=nb.config, paths=rels) or {}
+        yield _plan(nb, chunk, rels, known, reuse)
 
 
 def _chunks(groups: Iterable[tuple[str, list[str]]]) -> Iterator[list[tuple[Path, list | None]]]:
@@ -222,19 +223,20 @@ def _figures_differ(before: EntrySummary | None, now: EntrySummary) -> bool:
 def _plan(
     nb: Notebook,
     chunk: list[tuple[Path, list | None]],
+    rels: list[str],
     previous: dict[str, EntrySummary] | None,
     reuse: bool,
 ) -> list[_Item]:
-    """For each file: an error result (a name clash), its previous summary (current, with
-    ``reuse``), or None (to compute)."""
+    """For each file (``rels``: their paths relative to the root): an error result (a name
+    clash), its previous summary (current, with ``reuse``), or None (to compute)."""
     plan: list[_Item] = []
     logs_seen: dict = {}  # log digests by (folder, logs), for this chunk
-    for f, clash in chunk:
-        before = previous.get(nb.relpath(f)) if previous else None
+    for (f, clash), rel in zip(chunk, rels, strict=True):
+        before = previous.get(rel) if previous else None
         if clash:
             names = ", ".join(p.name for p in clash)
             plan.append(_Item(f, clash, error_result(
-                f, nb.relpath(f), None,
+                f, rel, None,
                 f"{len(clash)} entries in this folder share the name "
                 f"'{sidecar_path(f).name}' for their results ({names}); rename one of them",
                 None), before))  # fmt: skip

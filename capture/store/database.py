@@ -229,8 +229,15 @@ def remove_absent(conn: sqlite3.Connection, present: Iterable[str], queue: bool 
     ``queue``, in the shared store's too, when the queue is sent. ``present`` is read once,
     into a temporary table, not held as a set (a notebook of 100,000 entries)."""
     conn.execute("CREATE TEMP TABLE IF NOT EXISTS scan_present (path TEXT PRIMARY KEY)")
-    conn.execute("DELETE FROM temp.scan_present")
-    conn.executemany("INSERT OR IGNORE INTO temp.scan_present VALUES (?)", ((p,) for p in present))
+    conn.execute("BEGIN")  # the temporary table only: one transaction, not one per row
+    try:
+        conn.execute("DELETE FROM temp.scan_present")
+        conn.executemany("INSERT OR IGNORE INTO temp.scan_present VALUES (?)",
+                         ((p,) for p in present))  # fmt: skip
+        conn.execute("COMMIT")
+    except BaseException:
+        conn.execute("ROLLBACK")
+        raise
     gone = [
         p
         for (p,) in conn.execute(
