@@ -287,6 +287,9 @@ class Gap(_Model):
     in_estimate: bool = Field(
         True, description="whether allowance_g is added to e_factor_estimated and completeness"
     )
+    missing_mass: bool = Field(
+        False, description="it stands for input mass the figures lack (sized or not given)"
+    )
 
 
 class RecordCheck(_Model):
@@ -315,7 +318,9 @@ class Metrics(_Model):
     yield_: float | None = Field(None, alias="yield", serialization_alias="yield")
     rme: float | None = Field(None, description="reaction mass efficiency")
     completeness: float | None = Field(
-        None, description="recorded input mass ÷ (recorded + allowance mass), 0–1"
+        None,
+        description="recorded input mass ÷ (recorded + allowance mass), 0–1; null when a "
+        "missing_mass gap has no allowance_g",
     )
     theoretical_yield_g: float | None = Field(None, description="from the limiting reagent")
     stoichiometric_factor: float | None = Field(

@@ -93,7 +93,7 @@ def compute(nb: Notebook, entry: Entry) -> Result:
         left = len(lines) - config.scan.max_materials
         lines = lines[: config.scan.max_materials]
         limit_gaps.append(Gap(kind="text_not_read", item="procedure text", severity="major",
-                              evidence=f"{left:,} more mentions of amounts",
+                              missing_mass=True, evidence=f"{left:,} more mentions of amounts",
                               message=f"the entry names more than "
                               f"{config.scan.max_materials:,} amounts ([scan] max_materials); "
                               f"the last {left:,} were not read"))  # fmt: skip
@@ -145,8 +145,8 @@ def compute(nb: Notebook, entry: Entry) -> Result:
     graded = hook.masstrail_grade_gaps(entry=entry, gaps=gaps, materials=materials,
                                        product=product, config=config)  # fmt: skip
     gaps = sorted(gaps if graded is None else graded, key=lambda g: SEVERITY_RANK[g.severity])
-    gaps = _bound_gaps(gaps, config.scan.max_gaps)
     figures = merge_reports(hook.masstrail_compute_metrics(gaps=gaps, **common))
+    gaps = _bound_gaps(gaps, config.scan.max_gaps)  # after the metrics, which count them all
     return Result(
         generator=GENERATOR,
         status="ok",
@@ -251,7 +251,7 @@ def _bound_text(entry: Entry, config: LabConfig) -> list[Gap]:
     cut = max(entry.body.rfind(". ", 0, limit) + 1, limit // 2)
     left = len(entry.body) - cut
     entry.body = entry.body[:cut]
-    return [Gap(kind="text_not_read", item="procedure text", severity="major",
+    return [Gap(kind="text_not_read", item="procedure text", severity="major", missing_mass=True,
                 evidence=f"the last {left:,} of {cut + left:,} characters",
                 message=f"the procedure text is {cut + left:,} characters long; masstrail read the "
                 f"first {cut:,} ([scan] max_text_kb) and not the last {left:,}, so their amounts "
@@ -269,9 +269,10 @@ def _bound_gaps(gaps: list[Gap], most: int) -> list[Gap]:
     gaps = first + [g for g in gaps if g.kind not in _LIMIT_KINDS]
     kept, rest = gaps[: most - 1], gaps[most - 1 :]
     kinds = sorted({g.kind for g in rest})
-    allowance = sum(g.allowance_g or 0.0 for g in rest)
+    allowance = sum(g.allowance_g or 0.0 for g in rest if g.in_estimate)
     return [*kept, Gap(kind="more_gaps", item=f"{len(rest)} more gaps", severity=rest[0].severity,
                        evidence=", ".join(kinds)[:300], allowance_g=round(allowance, 4) or None,
+                       missing_mass=any(g.missing_mass for g in rest),
                        message=f"{len(rest):,} more gaps ({', '.join(kinds)[:200]}) are not "
                        "listed one by one ([scan] max_gaps); their allowances are summed "
                        "here")]  # fmt: skip

@@ -204,3 +204,49 @@ def test_completeness_counts_every_input_without_a_mass_and_every_unread_quantit
     assert side["metrics"]["completeness"] < 1
     assert side["metrics"]["e_factor_estimated"] == pytest.approx(
         side["metrics"]["e_factor"] + 2.025 / 1.00, abs=1e-3)  # fmt: skip
+
+
+def test_a_missing_mass_that_cannot_be_sized_leaves_no_completeness():
+    """Completeness is recorded ÷ (recorded + allowances): a missing input with no allowance
+    would count as zero and show 100 %, so no completeness is given, and the context says
+    which records cannot be sized. A doubt about a record (a yield that disagrees) is not a
+    missing mass and leaves completeness as it is."""
+    unsized = Gap(kind="unread_amount", item="2 oz", severity="major", message="m",
+                  missing_mass=True)  # fmt: skip
+    doubt = Gap(kind="yield_mismatch", item="p", severity="minor", message="m")
+    r = _run([_line("A", 3.0)], product=1.0, gaps=[unsized, doubt])
+    assert r.metrics["completeness"] is None
+    assert r.context["completeness"] == (
+        "1 missing record(s) cannot be sized (2 oz), so no completeness is given"
+    )
+    assert r.metrics["e_factor"] == 2.0  # the E-factor from recorded masses still stands
+    r = _run([_line("A", 3.0)], product=1.0, gaps=[doubt])
+    assert r.metrics["completeness"] == 1.0 and "completeness" not in r.context
+    sized = unsized.model_copy(update={"allowance_g": 1.0})
+    assert _run([_line("A", 3.0)], product=1.0, gaps=[sized]).metrics["completeness"] == 0.75
+
+
+def test_unknown_units_get_the_median_reagent_allowance_even_with_no_stage(notebook):
+    """'4.0 gallons' and '2 oz' cannot be read (unknown units). They are sized by the entry's
+    median recorded reagent — here the one reagent, which the front matter gives no stage —
+    so completeness is 3 ÷ (3 + 3 + 3); with only a solvent recorded there is no scale at
+    all, and completeness is not given rather than 100 %."""
+    body = "Stirred with 2 oz of sodium sulfate."
+    matter = """
+        ---
+        title: unknown units
+        materials:
+          - {{name: ethanol, amount: 4.0 gallons, role: solvent}}
+          - {{name: {second}, amount: 3.0 g}}
+        product: {{name: the ester, mass: 2.0 g}}
+        ---
+        """
+    notebook.write("reagent.md", matter.format(second="benzoic acid") + "        " + body)
+    notebook.write("solvent.md", matter.format(second="acetic acid") + "        " + body)
+    notebook.scan()
+    side = notebook.sidecar("reagent.md")
+    assert {g["item"]: g["allowance_g"] for g in side["gaps"]} == {"ethanol": 3.0, "2 oz": 3.0}
+    assert side["metrics"]["completeness"] == pytest.approx(1 / 3, abs=1e-4)
+    side = notebook.sidecar("solvent.md")  # acetic acid is a solvent: no reagent recorded
+    assert side["metrics"]["completeness"] is None
+    assert "cannot be sized (ethanol, 2 oz)" in side["context"]["completeness"]

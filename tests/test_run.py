@@ -559,3 +559,35 @@ def test_html_in_an_entry_is_text_in_its_card_and_the_audit_handout(notebook, tm
     assert res.exit_code == 0, res.output
     text = handout.read_text()
     assert "<script>" not in text and "&lt;script&gt;" in text
+
+
+def test_the_figures_count_every_gap_though_the_sidecar_lists_only_max_gaps(notebook):
+    """Twelve inputs listed with no amount: with ``max_gaps = 4`` the sidecar lists three and
+    sums the other nine in one gap, yet completeness and the estimated E-factor are the same
+    as with every gap listed. The summing gap leaves out allowances that are not in the
+    estimate (a gas flow's, say) and keeps saying that the gaps stand for missing mass."""
+    from capture.models import Gap
+    from capture.run import _bound_gaps
+
+    listed = "".join(f"  - {{name: R{i}}}\n" for i in range(12))
+    entry = ("---\ntitle: many\nproduct: {name: p, mass: 1 g}\nmaterials:\n"
+             "  - {name: A, amount: 2 g}\n" + listed + "---\n")  # fmt: skip
+    notebook.write("e.md", entry)
+    notebook.write("elsewhere.md", entry + "Made following general procedure B.\n")
+    notebook.scan()
+    every, elsewhere = notebook.sidecar("e.md"), notebook.sidecar("elsewhere.md")
+    notebook.write("masstrail.toml", "[scan]\nmax_gaps = 4\n")  # a new config: computed again
+    notebook.scan()
+    few = notebook.sidecar("e.md")
+    assert len(every["gaps"]) == 12 and len(few["gaps"]) == 4
+    assert few["gaps"][-1]["kind"] == "more_gaps" and few["gaps"][-1]["missing_mass"]
+    assert few["metrics"] == every["metrics"]
+    assert every["metrics"]["completeness"] == pytest.approx(2 / (2 + 12 * 2), abs=1e-4)
+    # a procedure written elsewhere cannot be sized: no completeness, though its gap is summed
+    few = notebook.sidecar("elsewhere.md")
+    assert "procedure_elsewhere" in few["gaps"][-1]["evidence"]
+    assert few["metrics"] == elsewhere["metrics"] and few["metrics"]["completeness"] is None
+    gas = Gap(kind="g", item="N2", severity="minor", message="m", allowance_g=5.0,
+              in_estimate=False)  # fmt: skip
+    drying = Gap(kind="d", item="MgSO4", severity="minor", message="m", allowance_g=1.0)
+    assert _bound_gaps([drying, drying, gas, drying], 2)[-1].allowance_g == 2.0

@@ -62,6 +62,11 @@ def num(x: float | None, spec: str = ".3g") -> str:
     return figure_text(x, spec)
 
 
+def percent(x: float | None) -> str:
+    """A 0–1 fraction as a percentage with one decimal, or '—' when it is not given."""
+    return "—" if x is None else f"{x * 100:.1f}%"
+
+
 def esc(text: str) -> str:
     """Text from entries and plugins, escaped so rich shows [brackets] as written."""
     from rich.markup import escape

@@ -19,6 +19,7 @@ from capture.cli.common import (
     gap_filter,
     num,
     open_notebook,
+    percent,
 )
 from capture.cli.shared import (
     needs_path_or_store,
@@ -187,13 +188,11 @@ def audit(path, group_, store_url, notebook_name, markdown_file):
         fail(f"no entries of group {group_!r} under {path}; the groups there are: {known}")
     out = console()
     med = report.median_completeness
-    pct = num(med * 100 if med is not None else None, ".1f")
     out.print(f"[bold]Record audit: {esc(report.group)}[/bold] — {len(report.entries)} entries, "
-              f"median completeness {pct}%")  # fmt: skip
+              f"median completeness {percent(med)}")  # fmt: skip
     for e in report.entries:
-        comp = num(e.completeness * 100 if e.completeness is not None else None, ".1f")
         heading = f"[bold]{esc(e.title or e.entry)}[/bold] ({esc(e.entry)})"
-        out.print(f"\n{heading}, completeness {comp}%")
+        out.print(f"\n{heading}, completeness {percent(e.completeness)}")
         for c in e.checklist:
             mark = "[green]✓[/green]" if c.recorded else "[red]✗[/red]"
             out.print(f"  {mark} {esc(c.operation)}: {esc(c.needs)} — {esc(c.item)}")

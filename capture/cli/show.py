@@ -6,7 +6,7 @@ from pathlib import Path
 
 import click
 
-from capture.cli.common import cli, console, esc, notebook_of, num
+from capture.cli.common import cli, console, esc, notebook_of, num, percent
 
 
 @cli.command()
@@ -90,7 +90,7 @@ def _figures(out, r) -> None:
     out.print(
         f"E-factor {num(m.e_factor)} (simple {num(m.e_factor_simple)}, with allowances "
         f"{num(m.e_factor_estimated)}), PMI {num(m.pmi)}, completeness "
-        f"{num(m.completeness * 100 if m.completeness is not None else None, '.1f')}%"
+        f"{percent(m.completeness)}"
     )
     if r.totals:
         t = r.totals
@@ -113,7 +113,7 @@ def _figures(out, r) -> None:
             out.print(f"Hazard-weighted E-factor {num(m.hazard_weighted_e)} [dim](rank weights "
                       "are masstrail's convention; a screening aid, not a risk "
                       "assessment)[/dim]")  # fmt: skip
-    for key in ("mass_balance", "simple_mass_balance", "lower_bound"):
+    for key in ("mass_balance", "simple_mass_balance", "lower_bound", "completeness"):
         if key in r.context:
             out.print(f"[yellow]{esc(r.context[key])}[/yellow]")
     if r.breakdown and r.breakdown.largest:

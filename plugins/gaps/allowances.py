@@ -69,16 +69,20 @@ class Scale:
             )
 
         workup, reaction = vols("workup"), vols("reaction")
-        solids = sorted(
-            m.mass_g
-            for m in materials
-            if m.mass_g
-            and m.stage == "reaction"
-            and m.category not in {"solvent", "water", "aqueous"}
-        )
+        weighed = [m for m in materials
+                   if m.mass_g and m.category not in {"solvent", "water", "aqueous"}]  # fmt: skip
+        solids = sorted(m.mass_g for m in weighed if m.stage == "reaction")
+        # a typical reagent: the reaction's, else any stage's (an input with no stage counts)
+        typical = solids or sorted(m.mass_g for m in weighed)
         return cls(
             organic_ml=workup or reaction or None,
             reaction_solvent_ml=reaction or None,
             crude_g=product.mass_g or (sum(solids) if solids else None),
-            reagent_g=solids[len(solids) // 2] if solids else None,
+            reagent_g=typical[len(typical) // 2] if typical else None,
         )
+
+    def typical_reagent(self) -> tuple[float | None, str | None]:
+        """The allowance of last resort: the entry's median recorded reagent mass, if any."""
+        if not self.reagent_g:
+            return None, None
+        return self.reagent_g, f"{self.reagent_g:g} g, the entry's median recorded reagent mass"

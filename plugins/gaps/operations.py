@@ -94,6 +94,7 @@ def _gap(kind: str, item: str, evidence: str, message: str, allowance: float | N
         allowance_g=None if allowance is None else round(allowance, 4),
         allowance_basis=basis,
         in_estimate=in_estimate,
+        missing_mass=True,
     )
 
 

@@ -23,10 +23,12 @@ from masstrail_plugins.gaps import allowances as al
 from masstrail_plugins.prose import led
 
 
-def _size(line: MaterialLine, config: LabConfig) -> tuple[float | None, str | None]:
+def _size(
+    line: MaterialLine, scale: al.Scale, config: LabConfig
+) -> tuple[float | None, str | None]:
     a = line.amounts[0] if line.amounts else None
-    if a is None or a.kind not in {"mass", "volume", "amount"}:
-        return None, None
+    if a is None or a.kind not in {"mass", "volume", "amount"}:  # a unit masstrail cannot read
+        return scale.typical_reagent()
     if a.kind == "mass":
         return a.total, f"{a.text} as written"
     if a.kind == "amount":
@@ -37,13 +39,18 @@ def _size(line: MaterialLine, config: LabConfig) -> tuple[float | None, str | No
 
 
 @hookimpl(specname="masstrail_find_gaps")
-def unread_gaps(set_aside: list[MaterialLine], config: LabConfig) -> list[Gap]:
+def unread_gaps(
+    set_aside: list[MaterialLine], materials: list[MaterialLine], product: ProductOut,
+    config: LabConfig,
+) -> list[Gap]:  # fmt: skip
     """A gap for each quantity that was not read: it may be an input the figure misses."""
     gaps = []
+    scale = None
     for line in set_aside:
         if line.role != "unread":
             continue
-        grams, basis = _size(line, config)
+        scale = scale or al.Scale.of(materials, product)
+        grams, basis = _size(line, scale, config)
         said = line.stated or line.name
         if line.problem:  # the amount itself cannot be read
             message = f"{line.problem}; until it is rewritten, '{said}' is not in the figures"
@@ -55,6 +62,7 @@ def unread_gaps(set_aside: list[MaterialLine], config: LabConfig) -> list[Gap]:
             kind="unread_amount", item=said, severity="major", evidence=line.evidence,
             message=message,
             allowance_g=None if grams is None else round(grams, 4), allowance_basis=basis,
+            missing_mass=True,
         ))  # fmt: skip
     return gaps
 
@@ -80,7 +88,7 @@ def procedure_elsewhere_gaps(entry: Entry) -> list[Gap]:
         return []
     ref = " ".join(m.group("ref").split())
     return [Gap(
-        kind="procedure_elsewhere", item=ref, severity="major",
+        kind="procedure_elsewhere", item=ref, severity="major", missing_mass=True,
         evidence=" ".join(entry.body[max(0, m.start() - 60) : m.end() + 60].split()),
         message=f"the entry follows {ref}, written elsewhere: the solvents, workup and "
         "purification of that procedure are not in this entry, so the E-factor misses them; "

@@ -95,9 +95,7 @@ def _allowance(
             return al.filter_paper_g(config)
         if line.category == "catalyst" or (line.role or "").lower() == "catalyst":
             return al.value("catalytic_amount_g", config)
-    if scale.reagent_g:  # any other input without a mass: it still counts in the estimate
-        return scale.reagent_g, f"{scale.reagent_g:g} g, the entry's median recorded reagent mass"
-    return None, None
+    return scale.typical_reagent()  # any other input without a mass still counts in the estimate
 
 
 @hookimpl(specname="masstrail_find_gaps")
@@ -136,6 +134,7 @@ def weighing_gaps(
                 message=message,
                 allowance_g=None if grams is None else round(grams, 4),
                 allowance_basis=basis,
+                missing_mass=True,
             )
         )
     return gaps

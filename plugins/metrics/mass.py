@@ -97,14 +97,22 @@ def mass_metrics(
     credit = sum(r.mass_g for r in recovered if r.mass_g is not None)
     p = product.mass_g
     allowance = sum(g.allowance_g for g in gaps if g.allowance_g and g.in_estimate)
+    unsized = [g.item for g in gaps if g.missing_mass and g.in_estimate and g.allowance_g is None]
     metrics: dict[str, float | None] = {
         "e_factor": None,
         "e_factor_simple": None,
         "e_factor_estimated": None,
         "pmi": None,
-        "completeness": round(inputs / (inputs + allowance), 4) if inputs + allowance > 0 else None,
+        "completeness": round(inputs / (inputs + allowance), 4)
+        if inputs + allowance > 0 and not unsized
+        else None,
     }
     context: dict[str, str] = {}
+    if unsized and inputs > 0:  # a missing mass with no estimate: any share would be invented
+        context["completeness"] = (
+            f"{len(unsized)} missing record(s) cannot be sized ({', '.join(unsized[:3])}"
+            f"{', …' if len(unsized) > 3 else ''}), so no completeness is given"
+        )
     waste = None
     if p is not None and p > 0 and inputs - credit < p:
         # more product than recorded inputs: no waste figure can be right (a negative
