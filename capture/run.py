@@ -184,6 +184,15 @@ def _unmerged(lines: list[MaterialLine]) -> MergedMaterials:
 
 
 # ---------------------------------------------------------------------- the stages' plumbing
+def fill(line: MaterialLine, **values) -> None:
+    """Set several fields of a line in one step, as pydantic's assignment does without
+    ``validate_assignment`` (store each value, mark the field set) but without its per-field
+    dispatch. The values come from checked models (``MaterialInfo``, ``MassAssignment``), of
+    the fields' own types."""
+    line.__dict__.update(values)
+    line.__pydantic_fields_set__.update(values)
+
+
 def describe(nb: Notebook, line: MaterialLine) -> MaterialInfo | None:
     """Give a line what the material knowledge says of it, its stage and its waste stream
     (``masstrail_line_material``, ``masstrail_material_stage``, ``masstrail_waste_stream``);
@@ -199,9 +208,8 @@ def describe(nb: Notebook, line: MaterialLine) -> MaterialInfo | None:
         return info
     info = hook.masstrail_line_material(line=line, resolve=nb.resolve, config=config)
     if info is not None:
-        line.resolved, line.category = info.name, info.category
-        line.formula, line.halogenated = info.formula, info.halogenated
-        line.chem21, line.reactive = info.chem21, info.reactive
+        fill(line, resolved=info.name, category=info.category, formula=info.formula,
+             halogenated=info.halogenated, chem21=info.chem21, reactive=info.reactive)  # fmt: skip
     line.stage = line.stage or hook.masstrail_material_stage(line=line, config=config)
     line.stream = hook.masstrail_waste_stream(line=line, config=config)
     return info
@@ -297,11 +305,9 @@ def weigh(nb: Notebook, line: MaterialLine, info: MaterialInfo | None, ctx: Mass
         line.problem = f"no plugin could weigh {line.stated!r}"
         line.problem_kind = "unweighed"
         return
-    line.mass_g = _round(got.mass_g)
-    line.moles_mmol = _round(got.moles_mmol)
-    line.water_g = _round(got.water_g)
-    line.basis = got.basis
-    line.problem, line.problem_kind = got.problem, got.problem_kind
+    fill(line, mass_g=_round(got.mass_g), moles_mmol=_round(got.moles_mmol),
+         water_g=_round(got.water_g), basis=got.basis, problem=got.problem,
+         problem_kind=got.problem_kind)  # fmt: skip
 
 
 def weigh_materials(

@@ -93,6 +93,10 @@ _FOREIGN_UNIT = re.compile(
     r"quarts?|qt|cups?|teaspoons?|tsp|tablespoons?|tbsp|drams?|grains?)\b",
     re.I,
 )
+# every match holds one of these (case-folded): most sentences hold none, and the pattern is
+# run only on those that do
+_FOREIGN_HINTS = ("gal", "oz", "ounce", "pound", "lb", "pint", "quart", "qt", "cup", "tsp",
+                  "teaspoon", "tbsp", "tablespoon", "dram", "grain")  # fmt: skip
 _PER = re.compile(r"\s*(?:per|for\s+each)\s", re.I)
 _PERCENT_REMARK = re.compile(r"\d+(?:[.,]\d+)?\s*%\s+\w")  # "(35% calculated from …)"
 # "a SNAP 25 g column", "(330g column)": a prepacked column is sold by its silica's mass
@@ -554,6 +558,9 @@ class _Reading:
     def _foreign_units(self) -> None:
         """Amounts in units masstrail does not read (``4.0 gallons``, ``2 oz``) are unread,
         with the reason, rather than passed over as words."""
+        low = self.head.casefold()
+        if not any(hint in low for hint in _FOREIGN_HINTS):
+            return
         for m in _FOREIGN_UNIT.finditer(self.head):
             self._add(m.group(0), [], "unread", m.start(), problem=_why_not(m.group(0)),
                       stated=m.group(0))  # fmt: skip
