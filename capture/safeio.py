@@ -370,7 +370,14 @@ def atomic_write(path: Path, text: str, sync_dir: bool = True) -> bool:
 
 def holds(path: Path, data: bytes) -> bool:
     """True when the file at ``path`` holds exactly ``data`` (then it need not be written);
-    a special file there (a FIFO someone put in the sidecar's place) is never read."""
+    a special file there (a FIFO someone put in the sidecar's place) is never read. A file of
+    another size is not read either (a first scan's files are not there at all)."""
+    try:
+        st = os.lstat(path)
+    except OSError:
+        return False
+    if not stat.S_ISREG(st.st_mode) or st.st_size != len(data):
+        return False
     try:
         return read_bounded(path, len(data) + 1) == data
     except InputError:

@@ -90,6 +90,23 @@ def test_fifo_is_not_opened(tmp_path):
         read_bounded(fifo, 1024)
 
 
+def test_a_file_holds_data_only_when_its_bytes_are_the_same(tmp_path):
+    """What a scan asks before it rewrites a result: the same bytes, yes; the same size with
+    other bytes, a longer or shorter file, no file, a FIFO or a link in its place, no (and
+    the FIFO is never opened, so the question never blocks)."""
+    target = tmp_path / "a.waste.json"
+    assert safeio.holds(target, b"one\n") is False  # not there
+    target.write_bytes(b"one\n")
+    assert safeio.holds(target, b"one\n") is True
+    assert safeio.holds(target, b"two\n") is False  # same size, other bytes
+    assert safeio.holds(target, b"one\n\n") is False and safeio.holds(target, b"one") is False
+    link = tmp_path / "b.waste.json"
+    link.symlink_to(target)
+    assert safeio.holds(link, b"one\n") is False
+    os.mkfifo(tmp_path / "c.waste.json")
+    assert safeio.holds(tmp_path / "c.waste.json", b"") is False
+
+
 def test_atomic_write_skips_identical_content(tmp_path):
     target = tmp_path / "a.waste.json"
     assert atomic_write(target, "one\n") is True
