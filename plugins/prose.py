@@ -209,7 +209,7 @@ _LEADING = re.compile(
     r"^(?:a|an|the|to|then|next|finally|additional|more|fresh|further|dry|anhydrous|"
     r"freshly\s+distilled|degassed|distilled|cold|ice-cold|hot|warm|chilled|solid|neat|"
     r"another|excess|wet|little|small\s+amount\s+of|catalyst|reagent|ligand|crude|"
-    r"absolute|abs\.|portions?\s+of)\s+",
+    r"absolute|abs\.|portions?\s+of|desired|expected|required)\s+",
     re.I,
 )
 

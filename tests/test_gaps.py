@@ -243,6 +243,46 @@ def test_a_procedure_written_elsewhere_is_a_major_gap(notebook):
     assert "not in this entry" in gap.message
 
 
+def test_a_procedure_of_another_preparation_is_written_elsewhere(notebook):
+    gaps = _gaps(notebook, "product: {name: p, mass: 1.0 g}",
+                 "Ethyl benzoate (3.0 g) is treated in the same manner as described in "
+                 "Preparation 4-(2).")  # fmt: skip
+    assert gaps["procedure_elsewhere"].item == "Preparation 4"
+
+
+def test_a_text_mention_of_the_product_read_as_an_input_is_said(notebook):
+    """The product written "EtOAc" and a text mention "2.40 g of EtOAc remained": the mention
+    is read as an input (resolved to ethyl acetate), which it may be or not; a major gap names
+    it, and that it weighs what the product weighs."""
+    notebook.write("e.md", entry_md("product: {name: EtOAc, mass: 2.40 g}",
+                                    "Ethanol (3.0 g) and acetic acid (3.9 g) were heated and "
+                                    "distilled. Then 2.40 g of EtOAc remained in the receiver."))  # fmt: skip
+    (result,) = notebook.scan().results
+    assert [m.name for m in result.materials] == ["Ethanol", "acetic acid", "EtOAc"]
+    (gap,) = [g for g in result.gaps if g.kind == "product_among_inputs"]
+    assert "very likely the product's own mention" in gap.message
+    assert gap.evidence.startswith("Then 2.40 g of EtOAc")
+
+
+def test_the_product_counted_as_an_input_is_said(notebook):
+    """The product listed among the inputs makes them too heavy by its mass: a major gap says
+    so, and that twin masses make it very likely the product's own record. It is said, not
+    removed (a product can be an input: seed crystals, a second pass)."""
+    front = (
+        "product: {name: benzoic acid, mass: 2.40 g}\nmaterials:\n"
+        "  - {name: ethyl benzoate, amount: 3.0 g}\n  - {name: benzoic acid, amount: %s}"
+    )
+    gap = _gaps(notebook, front % "2.40 g")["product_among_inputs"]
+    assert gap.severity == "major" and gap.item == "benzoic acid"
+    assert "very likely the product's own mention" in gap.message
+    assert "too high by 2.4 g" in gap.message
+    seeded = _gaps(notebook, front % "5 mg")["product_among_inputs"]
+    assert "check whether this is an addition" in seeded.message
+    clean = _gaps(notebook, "product: {name: benzoic acid, mass: 2.40 g}\nmaterials: "
+                            "[{name: ethyl benzoate, amount: 3.0 g}]")  # fmt: skip
+    assert "product_among_inputs" not in clean
+
+
 def test_a_mass_that_disagrees_with_its_moles_is_named(notebook):
     # benzaldehyde, C7H6O: 20.0 mmol × 106.12 g/mol = 2.12 g (molar mass from IUPAC atomic
     # weights); the text says 1.06 g, half of it: a typo or a misread, which the gap names

@@ -94,6 +94,25 @@ def test_chemicals_fallback_needs_a_real_name():
     assert info.molar_mass == pytest.approx(218.035, abs=0.01)
 
 
+def test_a_name_the_library_reads_as_a_formula_is_not_taken_for_another_compound():
+    """The chemicals library answers some names it does not know by reading them as a
+    formula: both of these names (from real patents) come back as the nitride ion, N³⁻, whose
+    molar mass would weigh them. masstrail keeps an answer only when the name is one of its
+    names, its SMILES or its formula; these stay unknown (an honest gap). Names and formulas
+    it does know are still answered, in any spelling the library lists."""
+    pytest.importorskip("chemicals")
+    from chemicals.identifiers import search_chemical
+
+    from masstrail_plugins.resolve.names import resolve_with_chemicals
+
+    for name in ("N-methyl-4-piperidone hydrochloride", "N-benzoyl-(2-furylcarbonyl)methylamine"):
+        assert search_chemical(name).formula == "N-3"  # the library's answer, refused
+        assert resolve_with_chemicals(name, LabConfig()) is None
+    assert resolve_with_chemicals("malononitrile", LabConfig()).formula == "C3H2N2"
+    assert resolve_with_chemicals("Na2SO3", LabConfig()).formula == "Na2O3S"
+    assert resolve_with_chemicals("ethyl ethanoate", LabConfig()).name == "ethyl acetate"
+
+
 # ---------------------------------------------------------------- outside references
 # Source: IUPAC standard atomic weights as implemented by the `periodictable` library
 # (a second, independent implementation), and published molar masses.

@@ -312,3 +312,27 @@ def test_every_unit_masstrail_does_not_read_holds_one_of_the_hints_looked_for_fi
         for written in (f"3 {word}", f"3{word.upper()}", f"2.5 {word.title()}"):
             assert _FOREIGN_UNIT.fullmatch(written), written
             assert any(h in written.casefold() for h in _FOREIGN_HINTS), written
+
+
+def test_the_parts_of_what_came_out_are_not_inputs():
+    """ "a liquid was recovered comprising 2.40 g of X and 0.20 g of Y" states the parts of an
+    output: they are set aside with what came out, not added to the inputs. A vessel
+    "containing" a material before anything came out holds an input."""
+    lines = extract("Ethyl benzoate (3.0 g) was added to a flask containing 20 mL of water. "
+                    "About 2.6 g of a solid was collected comprising 2.40 g of benzoic acid "
+                    "(yield 90%) and 0.20 g of ethyl benzoate.")  # fmt: skip
+    roles = {(line.name, line.stated): line.role for line in lines}
+    assert roles[("Ethyl benzoate", "3.0 g")] is None and roles[("water", "20 mL")] is None
+    assert roles[("solid", "2.6 g")] == "intermediate"
+    assert roles[("benzoic acid", "2.40 g")] == "intermediate"
+    assert roles[("ethyl benzoate", "0.20 g")] == "intermediate"
+
+
+def test_a_product_produced_or_thereby_obtained_is_the_product():
+    """ "dried to produce 3.5 g of the desired X" and "4.0 g of X are thereby obtained" state the
+    product: set aside as the product's mentions, named without "the desired"."""
+    lines = extract("Hydrazine (17 g) and formic acid (60 mL) were heated. The solid was dried "
+                    "to produce 3.5 g of the desired triazolol which melted at 290 °C.")  # fmt: skip
+    assert [(m.name, m.role) for m in lines][-1] == ("triazolol", "product")
+    (line,) = extract("4.0 g of N-benzoylglycine are thereby obtained.")
+    assert (line.name, line.role) == ("N-benzoylglycine", "product")

@@ -73,11 +73,11 @@ _NUMBERED = re.compile(
 )
 _BARE_NUMBER = re.compile(r"^\d{1,4}[a-z]?$")  # "a solution of 74 (235 mg)"
 # a participle ends a name ("isatine represented by", "with stirring thionyl chloride"); these
-# belong to names
+# belong to names ("fuming nitric acid", "decolourising charcoal", "the desired amide")
 _VERB_LIKE = re.compile(
     r"^(?!(?:saturated|concentrated|deuterated|activated|buffered|fused|powdered|hydrated|"
     r"anhydrated|chlorinated|fluorinated|brominated|iodinated|methylated|fuming|bleaching|"
-    r"decolou?ri[sz]ing)$)[a-z]+(?:ed|ing)$"  # "fuming nitric acid", "decolourising charcoal"
+    r"decolou?ri[sz]ing|desired|expected|required|protected|substituted)$)[a-z]+(?:ed|ing)$"
 )
 _ARTICLE = re.compile(r"^(?:a|an|the)\s+", re.I)
 

@@ -48,26 +48,10 @@ from masstrail_plugins.extract.brackets import (
     parts,
     read_group,
 )
+from masstrail_plugins.extract.clauses import Sentence
 from masstrail_plugins.extract.names import name_after, name_before
-from masstrail_plugins.prose import (
-    OPERATION_STAGE,
-    OPERATION_STEMS,
-    characterisation,
-    led,
-    sentences,
-)
+from masstrail_plugins.prose import characterisation, led, sentences
 
-# words that introduce the product: the mention after them is an output, not an input
-_PRODUCT_WORDS = {"give", "gave", "giving", "gives", "afford", "afforded", "affording", "affords",
-                  "provide", "provided", "providing", "provides", "furnish", "furnished",
-                  "furnishing", "yielded", "yielding", "obtained", "obtain", "obtaining",
-                  "leaving", "left", "to yield"}  # fmt: skip
-# "obtained in Example 3", "obtained from step 2": a reference, not the product
-_NOT_PRODUCT_AFTER = re.compile(
-    r"\s+(?:in|from|as\s+(?:described|in)|according|above|by\s+the|following|under)\b", re.I
-)
-# a product word's reach ends with its clause
-_CLAUSE_END = re.compile(r",\s*which\b|;|\band\s+then\b|\bthen\b|,\s*and\s+(?=\w+\s+(?:was|were))")
 # "(ca. 30 mL remained)", "(24 L collected for reuse)", "30 mL of solvent were distilled off":
 # what left the flask, not an input
 _TAKEN_OUT = re.compile(
@@ -78,13 +62,21 @@ _TAKEN_OUT = re.compile(
 _TAKEN_OUT_INSIDE = re.compile(
     r"^\s*(?:remained|remaining|left|collected|distilled|evaporated|removed|recovered)\b", re.I
 )
+# "a liquid was recovered comprising 24.7 g of X, 1.4 g of Y": the parts of what came out
+_COMPOSITION = re.compile(
+    r"\b(?:recovered|obtained|isolated|collected|distilled(?:\s+off)?|formed)\s*,?\s*"
+    r"(?:which\s+(?:was|were)\s+)?(?:comprising|containing|consisting\s+of|composed\s+of)\b",
+    re.I,
+)
+# a bracket right after a quantity holding a number in a unit masstrail does not read (old
+# patents write moles as "m": "17 g (0.10 m) of X"); no name is in it
+_UNIT_ASIDE = re.compile(r"\s*(\()\s*\d+(?:[.,]\d+)?\s*[A-Za-z]{1,3}\.?\s*\)")
 _PASSIVE_PRODUCT = re.compile(
-    r"\s*(?:\([^()]*\)\s*)?(?:was|were)\s+(?:then\s+)?(?:obtained|isolated|collected|afforded|produced|formed)\b"
+    r"\s*(?:\([^()]*\)\s*)?(?:was|were|is|are)\s+(?:then\s+|thereby\s+|thus\s+)?"
+    r"(?:obtained|isolated|collected|afforded|produced|formed)\b"
 )
 # a bracket group, allowing one level of nested brackets inside
 _GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtracking
-# "… and the product was recrystallised": an operation after this belongs to another clause
-_NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
 _DIGIT = re.compile(r"[\d½⅓⅔¼¾⅛⅜⅝⅞]")  # a number, or a fraction sign
 # units of mass and volume from outside the lab's system: an amount written in one is not
 # read, and says so (the amount reader's "unknown unit" message)
@@ -108,7 +100,6 @@ _EQUIPMENT_AFTER = re.compile(
 )
 _SPACE = re.compile(r"\s*")
 _OUT_WORDS = re.compile(r"remain|left|collect|distil|evaporat|remov|recover", re.I)
-_GLASSWARE_DRIED = re.compile(r"\b(?:oven|flame|heat)[- ]$", re.I)
 _AQUEOUS_SOLUTION = re.compile(
     r"^(?:\d+(?:\.\d+)?\s*(?:M|N)\s+\S|\d+(?:\.\d+)?\s*%\s*(?:aq\.?|aqueous)\s+\S|"
     r"(?:sat\.?|saturated)\s+(?:aq\.?|aqueous)\s+\S|(?:aq\.?|aqueous)\s+\S|"
@@ -149,12 +140,6 @@ _CONDITION_BEFORE = re.compile(
     re.I,
 )
 
-# one regular expression over the lower-cased sentence finds the operation and product words
-_KEYWORDS = re.compile(
-    r"(?<![\w-])(?:(?P<op>" + "|".join(sorted(OPERATION_STEMS, key=len, reverse=True)) + r")"
-    r"|(?P<product>" + "|".join(sorted(_PRODUCT_WORDS, key=len, reverse=True)) + r")(?!\w))"
-)
-
 
 @dataclass(slots=True)
 class _Quantity:
@@ -174,59 +159,6 @@ class _Quantity:
         if self._amount is False:
             self._amount = _read_quantity(self.match, self.offset)
         return self._amount
-
-
-class _Sentence:
-    """One sentence read once: its operation words and where its product clauses are."""
-
-    def __init__(self, text: str) -> None:
-        self.text = text
-        self._evidence: str | None = None
-        self.operations: list[tuple[int, str, Stage]] = []
-        self.products: list[tuple[int, int]] = []  # (product word's end, its clause's end)
-        for m in _KEYWORDS.finditer(text.lower()):
-            stem = m.group("op")
-            if stem is not None:
-                if stem == "dried" and _GLASSWARE_DRIED.search(text, 0, m.start()):
-                    continue  # "an oven-dried vial": glassware, not a drying step
-                op = OPERATION_STEMS[stem]
-                self.operations.append((m.start(), op, OPERATION_STAGE[op]))
-            elif not _NOT_PRODUCT_AFTER.match(text, m.end()):
-                end = _CLAUSE_END.search(text, m.end())
-                self.products.append((m.end(), end.start() if end else len(text)))
-
-    def in_product_clause(self, pos: int) -> bool:
-        return self.product_clause(pos) is not None
-
-    def product_clause(self, pos: int) -> int | None:
-        """Which product clause ``pos`` lies in (its product word's end), if any."""
-        return next((a for a, b in self.products if a <= pos < b), None)
-
-    @property
-    def evidence(self) -> str:
-        """The sentence with its white space folded, as evidence for its mentions."""
-        if self._evidence is None:
-            folded = " ".join(self.text[:600].split())
-            if len(folded) < 300 and len(self.text) > 600:
-                folded = " ".join(self.text.split())
-            self._evidence = folded[:300]
-        return self._evidence
-
-    def operation(self, pos: int) -> tuple[str, Stage]:
-        """The operation of a mention at ``pos``: the nearest word before it, else the first
-        after it in the same clause ("Methanol (5 mL) was used to rinse the flask", but not
-        "heated in ethanol (20 mL) and the product was recrystallised")."""
-        hit = None
-        for op in self.operations:
-            if op[0] < pos:
-                hit = op
-            elif hit is None:
-                if not _NEW_CLAUSE.search(self.text, pos, op[0]):
-                    hit = op
-                break
-            else:
-                break
-        return (hit[1], hit[2]) if hit else ("reaction", "reaction")
 
 
 def _quantities(text: str, offset: int) -> list[_Quantity]:
@@ -381,19 +313,23 @@ class _Reading:
         self.head = text[:cut]
         self.quantities = _quantities(self.head, start)
         self.tail = _quantities(text[cut:], start + cut)
-        self._s: _Sentence | None = None
+        self._s: Sentence | None = None
         self.groups = {m.start(): (m.end(), m.group(1)) for m in _GROUP.finditer(self.head)
                        if _DIGIT.search(m.group(1))
                        and not _inside_a_word(self.head, m)}  # fmt: skip
         self.claimed: set[int] = set()
         self.lines: list[MaterialLine] = []
         self.clauses_taken: set[int | None] = set()  # product clauses that gave the product
+        h = self.head  # the pattern is run only where one of its words may be (any case)
+        hinted = "ompris" in h or "ontain" in h or "onsist" in h or "ompos" in h
+        parts = _COMPOSITION.search(h) if hinted else None
+        self.parts_from = parts.end() if parts else len(self.head) + 1  # an output's parts
 
     @property
-    def s(self) -> _Sentence:
+    def s(self) -> Sentence:
         """The sentence's operation and product words, read when a mention needs them."""
         if self._s is None:
-            self._s = _Sentence(self.head)
+            self._s = Sentence(self.head)
         return self._s
 
     def read(self) -> list[MaterialLine]:
@@ -440,6 +376,10 @@ class _Reading:
                 continue
             amounts = [q.amount]
             pos = self._joined(q.end, amounts)
+            aside = _UNIT_ASIDE.match(self.head, pos)
+            if aside and pos == q.end:  # "17 g (0.10 m) of X": the name follows the aside
+                self.claimed.add(aside.start(1))
+                pos = aside.end()
             if _CONDITION_BEFORE.search(self.head[max(0, q.start - 50) : q.start]):
                 self._add("", amounts, "condition", q.start)
                 done = pos
@@ -518,6 +458,8 @@ class _Reading:
         crude: the merge prefers an isolated product's."""
         if what in {"sample", "equipment"}:
             return what
+        if pos >= self.parts_from:  # a part of what came out, not an addition
+            return "intermediate"
         clause = self.s.product_clause(pos)
         taken = clause is not None and clause in self.clauses_taken
         if what == "intermediate" and (taken or clause is None):

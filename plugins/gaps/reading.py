@@ -72,7 +72,8 @@ _ELSEWHERE = re.compile(
     r"analogous(?:ly)?\s+to|similar\s+to|(?:same|similar)\s+(?:manner|operation|procedure|way)\s+"
     r"as\s+(?:in|for|described\s+in))\s+(?:that\s+(?:described\s+)?(?:in|for)\s+)?(?:the\s+)?"
     r"(?P<ref>general\s+(?:procedure|method)\s*\(?[A-Z0-9]{0,3}\)?|GP\s*\d+|(?:Reference\s+)?"
-    r"Example\s*\(?\d+[a-z]?\)?(?:\s*\([A-Za-z0-9]+\))?|(?:procedure|method)\s+[A-Z0-9]{1,3}\b)",
+    r"(?:Example|Preparation)\s*\(?\d+[a-z]?\)?(?:\s*\([A-Za-z0-9]+\))?|"
+    r"(?:procedure|method)\s+[A-Z0-9]{1,3}\b)",
     re.I,
 )
 

@@ -6,7 +6,8 @@
   with no limiting reagent; each with an allowance where one can be estimated;
 - ``recovered_gaps``: recovered material that cannot be weighed is not credited;
 - ``product_sanity_gaps``: a product heavier than all recorded inputs together
-  (blocking: a record is wrong), a yield above 100 % (major).
+  (blocking: a record is wrong), a yield above 100 % (major), the product counted as an
+  input too (major).
 """
 
 from __future__ import annotations
@@ -193,6 +194,7 @@ def product_sanity_gaps(
             y = product_mmol / limiting.moles_mmol
             basis = (f"{product_mmol:.4g} mmol of product from {limiting.moles_mmol:g} mmol of "
                      f"{limiting.name} (1:1 assumed: the entry gives no equation)")  # fmt: skip
+    gaps += _product_among_inputs(materials, product)
     if y is not None and y > 1.0:
         gaps.append(
             Gap(
@@ -205,6 +207,30 @@ def product_sanity_gaps(
             )
         )
     return gaps
+
+
+def _product_among_inputs(materials: list[MaterialLine], product: ProductOut) -> list[Gap]:
+    """The product counted as an input too: usually the text's mention of the product (or of
+    what was isolated: "a liquid was recovered comprising 24.7 g of X") read as an addition.
+    Said, not removed: a product can be an input as well (seed crystals, a second pass)."""
+    key = material_key(product.name or "")
+    if not key:
+        return []
+    same = [m for m in materials if m.mass_g is not None
+            and key in {material_key(m.name), material_key(m.resolved or "")}]  # fmt: skip
+    if not same:
+        return []
+    line = same[0]
+    twin = abs(line.mass_g - product.mass_g) <= 0.02 * product.mass_g
+    why = (f"it weighs what the product weighs ({product.mass_g:g} g), so it is very likely the "
+           "product's own mention" if twin else "check whether this is an addition")  # fmt: skip
+    return [Gap(
+        kind="product_among_inputs", item=product.name, severity="major", evidence=line.evidence,
+        message=f"the product, {product.name}, is counted as an input too ({line.stated}); {why}. "
+        f"If it is not an input, the inputs and the E-factor are too high by {line.mass_g:.4g} g: "
+        "record the inputs in the front matter, or write the product after 'gave' or 'was "
+        "obtained'",
+    )]  # fmt: skip
 
 
 def _nothing_weighed(materials: list[MaterialLine], product: ProductOut) -> Gap:

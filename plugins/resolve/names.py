@@ -11,7 +11,7 @@ from __future__ import annotations
 import functools
 from pathlib import Path
 
-from capture.chem import material_key, molar_mass
+from capture.chem import compact_key, hill_formula, looks_like_formula, material_key, molar_mass
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import MaterialInfo
@@ -37,7 +37,7 @@ class _NameCache:
         import os
 
         base = Path(os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache")
-        self.path = base / "masstrail" / f"names-{version}.json"
+        self.path = base / "masstrail" / f"names-{version}-{ANSWER_RULE}.json"
         try:
             data = json.loads(self.path.read_text(encoding="utf-8"))
             return data if isinstance(data, dict) else {}
@@ -64,6 +64,9 @@ class _NameCache:
 
 
 _name_cache = _NameCache()
+# the rule by which an answer is accepted (see _names_it); a new rule makes a new cache file
+# and, through the knowledge versions, recomputes the entries it may change
+ANSWER_RULE = "names-checked-1"
 
 
 @functools.lru_cache(maxsize=1)
@@ -96,16 +99,35 @@ def _ask_chemicals(name: str) -> list | None:
         found = search_chemical(name)
     except Exception:  # the library raises plain Exceptions for unknown names
         return None
-    if not found or not found.formula:
+    if not found or not found.formula or not _names_it(name, found):
         return None
     return [found.common_name or name, found.formula, float(found.MW)]
+
+
+def _names_it(name: str, found) -> bool:
+    """Whether the library's answer is the compound ``name`` names: the name is one of the
+    answer's names, or its SMILES, or a formula that is the answer's. The library also reads
+    a name that it does not know as a formula where it can ("N-methyl-4-piperidone
+    hydrochloride" became the nitride ion, N³⁻): such an answer is refused, and the name stays
+    unknown rather than be weighed as another compound."""
+    names = [found.common_name or "", found.iupac_name or "", *(found.synonyms or ())]
+    keys = {material_key(n) for n in names if n}
+    key = material_key(name)
+    if key in keys or compact_key(key) in {compact_key(k) for k in keys}:
+        return True
+    text = name.strip()
+    if found.smiles and text == found.smiles:
+        return True
+    hill = hill_formula(text) if looks_like_formula(text) else None
+    return hill is not None and hill == hill_formula(found.formula)
 
 
 @hookimpl(specname="masstrail_knowledge_versions")
 def chemicals_version(config: LabConfig) -> list[tuple[str, str]]:
     """The version of the ``chemicals`` library, whose name database this plugin asks."""
+    lib = _chemicals_version()
     return [("the chemicals name database (the names extra)",
-             _chemicals_version() or "not installed")]  # fmt: skip
+             f"{lib}, answers {ANSWER_RULE}" if lib else "not installed")]  # fmt: skip
 
 
 @hookimpl(trylast=True, specname="masstrail_resolve_material")
