@@ -248,6 +248,12 @@ def test_a_procedure_of_another_preparation_is_written_elsewhere(notebook):
                  "Ethyl benzoate (3.0 g) is treated in the same manner as described in "
                  "Preparation 4-(2).")  # fmt: skip
     assert gaps["procedure_elsewhere"].item == "Preparation 4"
+    for said in ("Following a procedure analogous to the procedure described in Example 28",
+                 "Prepared according to the method outlined in Example 28",
+                 "In analogy to the procedure used for Example 28"):  # fmt: skip
+        gaps = _gaps(notebook, "product: {name: p, mass: 1.0 g}",
+                     f"{said}, ethyl benzoate (3.0 g) gave the acid.")  # fmt: skip
+        assert gaps["procedure_elsewhere"].item == "Example 28", said
 
 
 def test_a_text_mention_of_the_product_read_as_an_input_is_said(notebook):

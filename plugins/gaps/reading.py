@@ -70,7 +70,10 @@ def unread_gaps(
 _ELSEWHERE = re.compile(
     r"\b(?:following|according\s+to|as\s+described\s+(?:in|for)|using|by|in\s+analogy\s+to|"
     r"analogous(?:ly)?\s+to|similar\s+to|(?:same|similar)\s+(?:manner|operation|procedure|way)\s+"
-    r"as\s+(?:in|for|described\s+in))\s+(?:that\s+(?:described\s+)?(?:in|for)\s+)?(?:the\s+)?"
+    r"as\s+(?:in|for|described\s+in))\s+"
+    r"(?:(?:a|the)\s+(?:procedure|method|process)\s+(?:analogous|similar)\s+to\s+)?"
+    r"(?:that\s+(?:described\s+)?(?:in|for)\s+|(?:the\s+)?(?:procedure|method|process)\s+"
+    r"(?:described|given|outlined|reported|used)\s+(?:in|for|under)\s+)?(?:the\s+)?"
     r"(?P<ref>general\s+(?:procedure|method)\s*\(?[A-Z0-9]{0,3}\)?|GP\s*\d+|(?:Reference\s+)?"
     r"(?:Example|Preparation)\s*\(?\d+[a-z]?\)?(?:\s*\([A-Za-z0-9]+\))?|"
     r"(?:procedure|method)\s+[A-Z0-9]{1,3}\b)",
