@@ -289,6 +289,27 @@ def test_the_product_counted_as_an_input_is_said(notebook):
     assert "product_among_inputs" not in clean
 
 
+def test_a_product_isolated_twice_with_different_masses_is_said(notebook):
+    """Two runs in one write-up: masstrail takes the last product mass, but counts both runs'
+    inputs against it, so a major gap says so; one mass said twice, a crude mass then an
+    isolated one, or a product mass in the front matter, is no such gap."""
+    two_runs = (
+        "Ethyl benzoate (3.0 g) was hydrolysed to give the acid (2.20 g). A second run: "
+        "ethyl benzoate (1.0 g) was hydrolysed to give the acid (0.70 g)."
+    )
+    gap = _gaps(notebook, "product: {name: the acid}", two_runs)["several_product_masses"]
+    assert gap.severity == "major" and "(2.20 g, 0.70 g)" in gap.message
+    assert "masstrail takes the last, 0.7 g" in gap.message
+    assert "several_product_masses" not in _gaps(
+        notebook, "product: {name: the acid, mass: 0.70 g}", two_runs
+    )
+    once = (
+        "Ethyl benzoate (3.0 g) was hydrolysed to give the crude acid (2.60 g), which was "
+        "recrystallised to give the acid (2.20 g)."
+    )
+    assert "several_product_masses" not in _gaps(notebook, "product: {name: the acid}", once)
+
+
 def test_a_mass_that_disagrees_with_its_moles_is_named(notebook):
     # benzaldehyde, C7H6O: 20.0 mmol × 106.12 g/mol = 2.12 g (molar mass from IUPAC atomic
     # weights); the text says 1.06 g, half of it: a typo or a misread, which the gap names

@@ -276,10 +276,13 @@ def _quantity_end(content: str) -> int:
     return (len(content) - len(content.lstrip()) + m.end()) if m else len(content)
 
 
-def _crude(role: str | None, name: str | None) -> str | None:
-    """ "crude" for a product's mention that is a crude mass ("the crude aldehyde (1.9 g)")."""
-    words = set(re.split(r"[\s-]+", (name or "").lower()))
-    return "crude" if role == "product" and words & {"crude", "residue", "concentrate"} else None
+def _crude(role: str | None, name: str | None, said: str = "") -> str | None:
+    """ "crude" for a product's mention that is a crude mass ("the crude aldehyde (1.9 g)"):
+    by its name, or by the words as written (``said``: the name reader drops "crude")."""
+    if role != "product":
+        return None
+    words = set(re.split(r"[\s-]+", f"{name or ''} {said}".lower()))
+    return "crude" if words & {"crude", "residue", "concentrate"} else None
 
 
 def _inside_a_word(text: str, m: re.Match) -> bool:
@@ -407,7 +410,8 @@ class _Reading:
                 continue
             taken = _TAKEN_OUT.match(self.head, end)
             role = "intermediate" if taken else self._role(q.start, what, end)
-            self._add(name or what, amounts, role, q.start, note=_crude(role, name))
+            said = self.head[pos:end]
+            self._add(name or what, amounts, role, q.start, note=_crude(role, name, said))
             done = end
 
     # ---------------------------------------------------------------- brackets
@@ -434,8 +438,9 @@ class _Reading:
         amounts = [q.amount for q in self.quantities if gs < q.start < ge and q.amount]
         amounts.sort(key=lambda a: a.kind != "mass")  # the mass first: the product's mass
         if amounts:
+            said = before[-len(name or what or "") - 16 :]  # the name as written, and its lead
             self._add(name or what or "", amounts, role, gs, stated_yield=_yield_of(content),
-                      note=_crude(role, name))  # fmt: skip
+                      note=_crude(role, name, said))  # fmt: skip
 
     def _name_after_bracket(self, gs: int) -> bool:
         """A bracket of amounts before its name: "reaction of (1.48 g, 5.0 mmol) of X",

@@ -9,8 +9,8 @@ The built-in rules run in this order:
 2. ``records`` (``masstrail_find_gaps``): the product mass, every material without
    a mass, no input weighed at all, a product heavier than its inputs, a yield above 100 %;
    ``reading`` (``masstrail_find_gaps``): quantities the text states that were not read, a
-   procedure written elsewhere, masses that disagree with their moles, stated yields that
-   disagree with the masses;
+   procedure written elsewhere, a product isolated several times, masses that disagree
+   with their moles, stated yields that disagree with the masses;
 3. ``grading`` (``masstrail_grade_gaps``): each gap's severity from its allowance.
 
 Allowances come from ``allowances`` and ``data/allowances.toml``; a lab overrides
@@ -22,6 +22,7 @@ from masstrail_plugins.gaps.operations import check_operations
 from masstrail_plugins.gaps.reading import (
     plausibility_gaps,
     procedure_elsewhere_gaps,
+    several_products_gaps,
     unread_gaps,
 )
 from masstrail_plugins.gaps.records import (
@@ -39,6 +40,7 @@ __all__ = [
     "product_mass_gaps",
     "product_sanity_gaps",
     "recovered_gaps",
+    "several_products_gaps",
     "unread_gaps",
     "weighing_gaps",
 ]

@@ -3,6 +3,8 @@
 - ``unread_gaps``: every quantity the text states that no rule read as an input, the
   product, an intermediate, a sample, equipment, a condition or characterisation; its size
   is the amount as written (a volume at an assumed 1 g/mL, moles at an assumed molar mass);
+- ``several_products_gaps``: the product isolated several times with different masses, the
+  product mass taken from the text (several runs or steps in one entry);
 - ``procedure_elsewhere_gaps``: an entry that follows a procedure written elsewhere
   (``Following General procedure C``, ``in the same manner as in Example 1``) lacks that
   procedure's solvents and workup;
@@ -82,6 +84,33 @@ _ELSEWHERE = re.compile(
 
 
 _ELSEWHERE_LED = led("fauibsFAUIBS", _ELSEWHERE)  # twice as fast over a whole body
+
+
+@hookimpl(specname="masstrail_find_gaps")
+def several_products_gaps(
+    entry: Entry, product: ProductOut, set_aside: list[MaterialLine]
+) -> list[Gap]:
+    """The text isolates the product more than once, with different masses, and the product
+    mass comes from it: a write-up of several runs or steps, whose inputs are all counted
+    against the one mass masstrail takes (the last isolated)."""
+    if entry.product.mass or product.mass_g is None:
+        return []
+    masses = [(m, a.total) for m in set_aside if m.role == "product" and m.note != "crude"
+              for a in m.amounts[:1] if a.kind == "mass"]  # fmt: skip
+    grams = [g for _, g in masses]
+    if len(grams) < 2 or max(grams) - min(grams) <= 0.05 * max(grams):
+        return []
+    if not any(abs(g - product.mass_g) <= 0.005 * g for g in grams):
+        return []  # the product mass came from elsewhere (a balance reading)
+    said = ", ".join(m.stated or m.name for m, _ in masses[:4])
+    return [Gap(
+        kind="several_product_masses", item=product.name or "product", severity="major",
+        evidence=said,
+        message=f"the text isolates the product {len(masses)} times with different masses "
+        f"({said}); masstrail takes the last, {product.mass_g:g} g. If the entry describes "
+        "several runs or steps, the inputs of all of them are counted against that mass: give "
+        "the product mass in the front matter, or write each run as its own entry",
+    )]  # fmt: skip
 
 
 @hookimpl(specname="masstrail_find_gaps")
