@@ -111,6 +111,9 @@ def test_a_name_the_library_reads_as_a_formula_is_not_taken_for_another_compound
     assert resolve_with_chemicals("malononitrile", LabConfig()).formula == "C3H2N2"
     assert resolve_with_chemicals("Na2SO3", LabConfig()).formula == "Na2O3S"
     assert resolve_with_chemicals("ethyl ethanoate", LabConfig()).name == "ethyl acetate"
+    # the library's "common name" of this one is its CAS number: its IUPAC name is shown
+    named = resolve_with_chemicals("3,4-dimethoxybenzyl cyanide", LabConfig()).name
+    assert named == "2-(3,4-dimethoxyphenyl)ethanenitrile"
 
 
 # ---------------------------------------------------------------- outside references

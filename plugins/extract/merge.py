@@ -13,6 +13,10 @@ Plugin ``merge`` (``masstrail_merge_materials``):
 - a text mention named like the entry's product is not an input: it is set aside as a
   mention of the product, with every other quantity that is not an input (intermediates,
   samples, equipment, conditions, characterisation, unread);
+- a text mention of what an earlier step of the same text put out ("… to produce an MEM
+  form (4.98 g). The resultant MEM form (4.98 g) and …"): the same name, or the same mass
+  with "the resultant", "the resulting", "the above" …, is that output carried forward, an
+  intermediate, not a second input;
 - the product's text record is its last isolated mention (``… to give the amide (2.41 g)``),
   else its last crude one: a recrystallised product wins over the crude mass before it.
 
@@ -21,6 +25,8 @@ Stages are compared only when both lines know theirs: ``washed with ice-cold eth
 """
 
 from __future__ import annotations
+
+import re
 
 from capture.chem import material_key
 from capture.config import LabConfig
@@ -35,6 +41,36 @@ from capture.models import (
 )
 
 STRUCTURED = {"front-matter", "table"}
+# words by which the text takes up what an earlier step put out
+_CARRIED = re.compile(
+    r"^(?:the\s+)?(?:resultant|resulting|above|above-mentioned|aforementioned|said|"
+    r"previously\s+obtained|thus\s+obtained)\s+",
+    re.I,
+)
+
+
+def _start(line: MaterialLine) -> int:
+    return min((a.span[0] for a in line.amounts if a.span), default=-1)
+
+
+def _grams(line: MaterialLine) -> float | None:
+    mass = next((a for a in line.amounts if a.kind == "mass"), None)
+    return mass.total if mass else None
+
+
+def _carried_forward(line: MaterialLine, outputs: list[MaterialLine]) -> MaterialLine | None:
+    """The earlier output of the same text that ``line`` takes up again, if any."""
+    at, key = _start(line), material_key(_CARRIED.sub("", line.name))
+    grams, carried = _grams(line), bool(_CARRIED.match(line.name))
+    for out in outputs:
+        if not 0 <= _start(out) < at:
+            continue
+        same_name = key and key == material_key(_CARRIED.sub("", out.name))
+        made = _grams(out)
+        same_mass = grams and made and abs(grams - made) <= 0.01 * made
+        if same_name or (carried and same_mass):
+            return out
+    return None
 
 
 def _key(line: MaterialLine) -> str:
@@ -85,11 +121,18 @@ def merge_text_with_records(
     set_aside = [m for m in lines if m.role in SET_ASIDE_ROLES]
     product_key = material_key(entry.product.name) if entry.product.name else None
     materials, gaps = list(structured), []
+    outputs = [m for m in set_aside if m.role in {"product", "intermediate"} and m.origin == "text"]
     for line in lines:
         if line.origin in STRUCTURED or line.role in apart:
             continue
         if _key(line) == product_key:
             set_aside.append(line.model_copy(update={"role": "product", "stage": None}))
+            continue
+        made = _carried_forward(line, outputs) if line.origin == "text" else None
+        if made is not None:
+            note = f"what the text put out earlier ({made.name}, {made.stated}), taken up again"
+            set_aside.append(line.model_copy(update={"role": "intermediate", "stage": None,
+                                                     "note": note}))  # fmt: skip
             continue
         same = [o for o in structured if _key(o) == _key(line) and same_stage(o, line)]
         if not same:

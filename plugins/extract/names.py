@@ -37,7 +37,7 @@ BOUNDARY_WORDS = {"with", "in", "over", "of", "and", "to", "from", "using", "by"
                   "yields", "yielding", "obtain", "obtained", "provide", "provided", "so",
                   "together", "here", "there", "this", "these", "those", "it", "its", "all",
                   "both", "about", "approximately", "ca.", "ca", "total", "but", "add",
-                  "adding"}  # fmt: skip
+                  "adding", "produce", "produces", "producing", "thereby"}  # fmt: skip
 
 MAX_WORDS = 6
 # "obtained in Example (22c)", "described in Preparation Example 72", "prepared as in step 2"

@@ -9,6 +9,7 @@ library gives (no density). Block it with ``[plugins] block = ["names"]``.
 from __future__ import annotations
 
 import functools
+import re
 from pathlib import Path
 
 from capture.chem import compact_key, hill_formula, looks_like_formula, material_key, molar_mass
@@ -90,6 +91,9 @@ def _chemicals_lookup(name: str) -> tuple[str, str, float] | None:
     return None if answer is None else (answer[0], answer[1], float(answer[2]))
 
 
+_CAS = re.compile(r"\d{2,7}-\d{2}-\d")
+
+
 def _ask_chemicals(name: str) -> list | None:
     try:
         from chemicals.identifiers import search_chemical
@@ -101,7 +105,10 @@ def _ask_chemicals(name: str) -> list | None:
         return None
     if not found or not found.formula or not _names_it(name, found):
         return None
-    return [found.common_name or name, found.formula, float(found.MW)]
+    common = found.common_name or ""
+    if not common or _CAS.fullmatch(common):  # some compounds' "common name" is their CAS number
+        common = found.iupac_name or name
+    return [common, found.formula, float(found.MW)]
 
 
 def _names_it(name: str, found) -> bool:
