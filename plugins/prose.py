@@ -204,6 +204,18 @@ def characterisation(text: str) -> re.Match | None:
     return _CHARACTERISATION_LED.search(text) if CHAR_HINT.search(text) else None
 
 
+def characterisation_start(text: str) -> int:
+    """Where the characterisation data of a sentence begin (its length if there are none):
+    at the separator before the first marker (``; mp``, ``: 1H NMR``, ``(m.p. …``). What
+    comes before is the procedure, read by the text reader and the gap rules alike."""
+    m = characterisation(text)
+    if m is None:
+        return len(text)
+    window = text[max(0, m.start() - 40) : m.start()]
+    cut = max(window.rfind(sep) for sep in (";", ":", ", ", "("))
+    return m.start() - len(window) + cut if cut >= 0 else m.start()
+
+
 # ---------------------------------------------------------------------- names
 _LEADING = re.compile(
     r"^(?:a|an|the|to|then|next|finally|additional|more|fresh|further|dry|anhydrous|"

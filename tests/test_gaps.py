@@ -289,6 +289,18 @@ def test_the_product_counted_as_an_input_is_said(notebook):
     assert "product_among_inputs" not in clean
 
 
+def test_an_operation_in_a_sentence_that_ends_in_characterisation_is_checked(notebook):
+    """ "… purified by chromatography on silica gel to afford 104 mg of the acid; mp 206 °C;
+    1H NMR …": the characterisation tail is cut off and the procedure before it is checked,
+    as the text reader reads it; the silica and the eluent are still missing records."""
+    gaps = _gaps(notebook, "product: {name: the acid, mass: 0.104 g}",
+                 "Ethyl ester (128 mg) in THF (15 mL) was hydrolysed with LiOH (20 mg), and the "
+                 "crude product was purified by chromatography on silica gel eluted with "
+                 "CH2Cl2:methanol 10:1 to afford 104 mg of the acid as a solid, mp 206-207 °C; "
+                 "1H NMR (300 MHz, DMSO-d6) δ 2.05 (s, 3H).")  # fmt: skip
+    assert {"stationary_phase_mass", "eluent_volume"} <= set(gaps)
+
+
 def test_a_product_isolated_twice_with_different_masses_is_said(notebook):
     """Two runs in one write-up: masstrail takes the last product mass, but counts both runs'
     inputs against it, so a major gap says so; one mass said twice, a crude mass then an

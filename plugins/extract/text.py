@@ -50,7 +50,7 @@ from masstrail_plugins.extract.brackets import (
 )
 from masstrail_plugins.extract.clauses import Sentence
 from masstrail_plugins.extract.names import name_after, name_before
-from masstrail_plugins.prose import characterisation, led, sentences
+from masstrail_plugins.prose import characterisation_start, led, sentences
 
 # "(ca. 30 mL remained)", "(24 L collected for reuse)", "30 mL of solvent were distilled off":
 # what left the flask, not an input
@@ -260,17 +260,6 @@ def _yield_of(content: str) -> float | None:
     return None
 
 
-def _characterisation_at(text: str) -> int:
-    """Where the characterisation data of a sentence begin (its length if there are none):
-    at the separator before the first marker (``; mp``, ``: 1H NMR``, ``(m.p. …``)."""
-    m = characterisation(text)
-    if m is None:
-        return len(text)
-    window = text[max(0, m.start() - 40) : m.start()]
-    cut = max(window.rfind(sep) for sep in (";", ":", ", ", "("))
-    return m.start() - len(window) + cut if cut >= 0 else m.start()
-
-
 def _quantity_end(content: str) -> int:
     m = _QUANTITY.match(content.lstrip())
     return (len(content) - len(content.lstrip()) + m.end()) if m else len(content)
@@ -312,7 +301,7 @@ class _Reading:
 
     def __init__(self, text: str, start: int) -> None:
         self.start = start
-        cut = _characterisation_at(text)
+        cut = characterisation_start(text)
         self.head = text[:cut]
         self.quantities = _quantities(self.head, start)
         self.tail = _quantities(text[cut:], start + cut)

@@ -31,7 +31,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, Gap, MaterialInfo, MaterialLine, ProductOut, RecordCheck
 from masstrail_plugins.gaps import allowances as al
-from masstrail_plugins.prose import characterisation, clean_name, operation_of, sentences
+from masstrail_plugins.prose import characterisation_start, clean_name, operation_of, sentences
 
 LIQUID_CATEGORIES = {"solvent", "water", "aqueous"}
 
@@ -478,7 +478,8 @@ def check_operations(
     seen: set[str] = set()
     for _, sentence in sentences(entry.body):
         text = " ".join(sentence.split())
-        if text.startswith("|") or characterisation(text):
+        text = text[: characterisation_start(text)]  # "… to afford 104 mg; mp 206 °C, 1H NMR …"
+        if text.startswith("|") or not text:
             continue
         low = text.lower()
         for rule, words in _RULES:
