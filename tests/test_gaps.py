@@ -301,6 +301,19 @@ def test_an_operation_in_a_sentence_that_ends_in_characterisation_is_checked(not
     assert {"stationary_phase_mass", "eluent_volume"} <= set(gaps)
 
 
+@pytest.mark.parametrize("said, column", [
+    ("The residue was purified by ISCO (0-20% MeOH in EtOAc).", True),
+    ("The oil was then repurified by CombiFlash (4-8% MeOH/DCM).", True),
+    ("The residue was loaded on ISCO (heptane to EtOAc).", True),
+    ("The mixture was heated to 150 °C in a Biotage microwave vial.", False),
+])  # fmt: skip
+def test_an_automated_flash_system_is_a_column(notebook, said, column):
+    """Automated flash systems go by their makers' names (common practice); a microwave
+    reactor of the same maker is not a column."""
+    gaps = _gaps(notebook, "product: {name: p, mass: 0.5 g}", f"The acid (2.00 g) was used. {said}")
+    assert ("stationary_phase_mass" in gaps) is column
+
+
 def test_a_product_isolated_twice_with_different_masses_is_said(notebook):
     """Two runs in one write-up: masstrail takes the last product mass, but counts both runs'
     inputs against it, so a major gap says so; one mass said twice, a crude mass then an

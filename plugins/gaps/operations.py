@@ -288,9 +288,13 @@ def liquids(ctx: Context, text: str) -> list[RecordCheck]:
 
 
 # ------------------------------------------------------------------ chromatography
+# automated flash systems go by their makers' names: "purified by ISCO (0-20% MeOH/DCM)",
+# "purified on a Teledyne Isco instrument", "by CombiFlash" (a "Biotage microwave" is not one)
 _CHROMATOGRAPHY = re.compile(
     r"\b(flash chromatography|column chromatography|chromatograph(?:ed|y)|flash column|"
-    r"purified on (?:a )?(?:silica|column)|eluting with|eluted with|elution with)\b",
+    r"purified on (?:a )?(?:silica|column)|eluting with|eluted with|elution with|"
+    r"(?:purified|re-?purif\w*|loaded)\s+(?:again\s+)?(?:by|on|with|using|via)\s+"
+    r"(?:an?\s+|the\s+)?(?:Teledyne\s+)?(?:ISCO|combi-?flash|Biotage\s+Isolera|Isolera))\b",
     re.I,
 )
 _ANALYTICAL = re.compile(r"thin[- ]layer chromatography|\bTLC\b|\bHPLC\b|\bGC\b|LC-?MS|\bUPLC\b")
@@ -495,7 +499,8 @@ _RULES = (
     (lambda ctx, text, seen: drying(ctx, text), ("dried",)),
     (lambda ctx, text, seen: liquids(ctx, text),
      ("wash", "rins", "extract", "quench", "dilut", "partition", "acidif", "basif", "neutrali")),
-    (chromatography, ("chromatograph", "flash column", "purified on", "elut")),
+    (chromatography, ("chromatograph", "flash column", "purified on", "elut", "isco",
+                      "combiflash", "combi-flash", "isolera")),
     (lambda ctx, text, seen: recrystallisation(ctx, text), ("crystalli", "triturat")),
     (aspirator, ("aspirator", "water-jet", "water jet", "water pump")),
     (lambda ctx, text, seen: unquantified(ctx, text),
