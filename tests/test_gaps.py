@@ -301,6 +301,23 @@ def test_an_operation_in_a_sentence_that_ends_in_characterisation_is_checked(not
     assert {"stationary_phase_mass", "eluent_volume"} <= set(gaps)
 
 
+def test_a_mixture_passed_through_celite_needs_the_pad_and_a_tiny_yield_is_doubted(notebook):
+    """ "The reaction mixture was passed through celite" is a filtration through a pad whose
+    mass is a record to keep; "to obtain 0.447 mg of product" from 6.33 mmol is a yield of
+    0.04 %: a unit slip (mg for g) is likely, and a major gap says so."""
+    gaps = _gaps(notebook, "product: {name: C1CN(CC1O)C2=CC=NC=C2}",
+                 "4-Bromopyridine (1.00 g, 6.33 mmol) and pyrrolidin-3-ol (0.662 g, 7.60 mmol) "
+                 "in THF (10 mL) were heated. The reaction mixture was passed through celite and "
+                 "concentrated to obtain 0.447 mg of product.")  # fmt: skip
+    assert gaps["filter_pad"].item.lower() == "celite"
+    low = gaps["yield_below_1"]
+    assert low.severity == "major" and "0.04%" in low.message and "mg for g" in low.message
+    said = _gaps(notebook, "product: {name: C1CN(CC1O)C2=CC=NC=C2}",
+                 "4-Bromopyridine (1.00 g, 6.33 mmol) and pyrrolidin-3-ol (0.662 g, 7.60 mmol) "
+                 "in THF (10 mL) were heated to give the product (0.400 mg, 0.04%).")  # fmt: skip
+    assert "yield_below_1" not in said  # a trace yield the text states itself
+
+
 @pytest.mark.parametrize("said, column", [
     ("The residue was purified by ISCO (0-20% MeOH in EtOAc).", True),
     ("The oil was then repurified by CombiFlash (4-8% MeOH/DCM).", True),

@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import re
 
-from masstrail_plugins.prose import read_name
+from masstrail_plugins.prose import EQUIPMENT_WORDS, read_name
 
 # a name ends at the word after one of these (or after a word ending in , ; :)
 BOUNDARY_WORDS = {"with", "in", "over", "of", "and", "to", "from", "using", "by", "into", "onto",
@@ -129,7 +129,8 @@ def name_before(text: str) -> tuple[str | None, str | None]:
     for i in range(len(words) - 1, -1, -1):
         w = words[i]
         ends_sentence = w[-1] == "." and not _ABBREVIATION.match(w.lower()) and len(w) > 2
-        if (w.lower() in BOUNDARY_WORDS or w[-1] in ",;:" or ends_sentence
+        vessel = i < len(words) - 1 and w.lower() in _VESSELS  # "flask THF (1 mL)": THF
+        if (w.lower() in BOUNDARY_WORDS or w[-1] in ",;:" or ends_sentence or vessel
                 or _VERB_LIKE.match(w)) and _balanced(words[i + 1 :]):  # fmt: skip
             start = i + 1  # "with stirring thionyl chloride", "activated charcoal"
             break
@@ -179,6 +180,8 @@ def name_after(text: str) -> tuple[str | None, str | None, int]:
         ends.append(m.end())
         if (w[-1] in ",;:" and _balanced(words)) or len(words) > MAX_WORDS + 2:
             break
+        if low in _VESSELS and _balanced(words):
+            break  # "a 50 ml round bottomed flask THF (1 mL) was added": the flask ends there
         if w.endswith(".") and not _ABBREVIATION.match(low + "."):
             break  # the end of the sentence
     if not words:
@@ -209,4 +212,5 @@ _QUANTITY_AHEAD = re.compile(  # the start of another mention's amount
 _AMOUNT_GROUP = re.compile(  # a bracket holding an amount, with a separator after it
     r"\(\s*\d[\d.,]*\s*(?:[mµμk]?g|[mµμ]?[lL]|[mµμ]?mol)\b[^()]*\)\s*[/,;–-]?\s*"
 )
+_VESSELS = EQUIPMENT_WORDS - {"sealed", "bottom", "bottomed", "bath", "schlenk"}  # nouns only
 _ABBREVIATION = re.compile(r"^(?:aq|sat|conc|ca|approx|abs|anh|eq|equiv|no)\.$")

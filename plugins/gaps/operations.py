@@ -102,7 +102,8 @@ def _gap(kind: str, item: str, evidence: str, message: str, allowance: float | N
 _FILTER = re.compile(
     r"\b(filtered|filtration|filtering|filter(?:ed)? off|suction[- ]filt\w*|vacuum[- ]filt\w*|"
     r"collected on (?:a )?(?:B[uü]chner|Hirsch) funnel|passed through (?:a )?(?:syringe|membrane|"
-    r"PTFE|nylon) filter)",
+    r"PTFE|nylon) filter|passed through (?:a |an )?(?:short |small |thin |fresh )?(?:pad|plug|bed)"
+    r" of|passed through (?:Celite|silica gel|Florisil)\b)",
     re.I,
 )
 _PAD = re.compile(
@@ -495,7 +496,7 @@ def check_operations(
 
 
 _RULES = (
-    (lambda ctx, text, seen: filtration(ctx, text), ("filt", "funnel")),
+    (lambda ctx, text, seen: filtration(ctx, text), ("filt", "funnel", "passed through")),
     (lambda ctx, text, seen: drying(ctx, text), ("dried",)),
     (lambda ctx, text, seen: liquids(ctx, text),
      ("wash", "rins", "extract", "quench", "dilut", "partition", "acidif", "basif", "neutrali")),

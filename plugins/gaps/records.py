@@ -6,8 +6,8 @@
   with no limiting reagent; each with an allowance where one can be estimated;
 - ``recovered_gaps``: recovered material that cannot be weighed is not credited;
 - ``product_sanity_gaps``: a product heavier than all recorded inputs together
-  (blocking: a record is wrong), a yield above 100 % (major), the product counted as an
-  input too (major).
+  (blocking: a record is wrong), a yield above 100 % or below 1 % (major), the product
+  counted as an input too (major).
 """
 
 from __future__ import annotations
@@ -160,8 +160,10 @@ def product_sanity_gaps(
     product: ProductOut,
     limiting: MaterialLine | None,
     reaction: ReactionFigures | None,
+    set_aside: list[MaterialLine],
 ) -> list[Gap]:
-    """A product heavier than every recorded input together, or a yield above 100 %."""
+    """A product heavier than every recorded input together, a yield above 100 % or below
+    1 % (unless the text states that yield too), the product counted as an input."""
     if product.mass_g is None:
         return []
     weighed = [m for m in materials if m.mass_g is not None]
@@ -195,6 +197,14 @@ def product_sanity_gaps(
             basis = (f"{product_mmol:.4g} mmol of product from {limiting.moles_mmol:g} mmol of "
                      f"{limiting.name} (1:1 assumed: the entry gives no equation)")  # fmt: skip
     gaps += _product_among_inputs(materials, product)
+    stated = [m.stated_yield for m in set_aside if m.role == "product" and m.stated_yield]
+    if y is not None and y < 0.01 and not any(abs(v - y) <= max(0.2 * y, 0.0005) for v in stated):
+        gaps.append(Gap(
+            kind="yield_below_1", item=product.name or "product", severity="major",
+            evidence=basis,
+            message=f"the yield works out at {y:.2%}; a unit may be wrong (mg for g?) or the "
+            "mass may be a sample's only. Check the product mass before using the E-factor",
+        ))  # fmt: skip
     if y is not None and y > 1.0:
         gaps.append(
             Gap(
