@@ -369,6 +369,12 @@ def test_a_mass_that_disagrees_with_its_moles_is_named(notebook):
         "Benzaldehyde (2.12 g, 20.0 mmol) was added to ethanol (10 mL).",
     )
     assert "mass_moles_mismatch" not in ok
+    # tris(dibenzylideneacetone)dipalladium(0), C51H42O3Pd2, 915.72 g/mol: 11.63 mg is
+    # 0.0127 mmol, which "0.01 mmol" rounds; "0.010 mmol" could not hold it
+    front = "product: {name: p, mass: 1.0 g}"
+    body = "Benzaldehyde (2.12 g, 20.0 mmol) and Pd2(dba)3 (11.63 mg, %s) in dioxane (4 mL)."
+    assert "mass_moles_mismatch" not in _gaps(notebook, front, body % "0.01 mmol")
+    assert "mass_moles_mismatch" in _gaps(notebook, front, body % "0.010 mmol")
 
 
 def test_a_stated_yield_that_disagrees_with_the_masses_is_named(notebook):

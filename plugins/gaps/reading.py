@@ -133,6 +133,23 @@ def _stated(line: MaterialLine, kind: str):
     return next((a for a in line.amounts if a.kind == kind), None)
 
 
+_WRITTEN_NUMBER = re.compile(r"\d+(?:[.,](\d+))?")
+
+
+def _half_digit(amount) -> float:
+    """Half a unit of the last decimal written, in the amount's canonical unit: the rounding
+    an amount written "0.01 mmol" may hold (0.005 mmol). A whole number ("2 mmol") is taken
+    as exact: its zeros may be significant."""
+    m = _WRITTEN_NUMBER.search(amount.text)
+    if m is None or m.group(1) is None or amount.low is not None or amount.multiplier != 1:
+        return 0.0
+    written = float(m.group(0).replace(",", "."))
+    if written <= 0:
+        return 0.0
+    decimals = len(m.group(1) or "")
+    return 0.5 * 10**-decimals * amount.value / written
+
+
 def _mass_moles_gap(line: MaterialLine) -> Gap | None:
     mass, moles = _stated(line, "mass"), _stated(line, "amount")
     if mass is None or moles is None or not line.formula:
@@ -142,7 +159,9 @@ def _mass_moles_gap(line: MaterialLine) -> Gap | None:
     except ValueError:
         return None
     expected = moles.total * mw / 1000
-    if abs(mass.total - expected) <= 0.05 * expected:
+    # 5 %, or what the written digits allow: "11.63 mg, 0.01 mmol" (0.0127 mmol) agree
+    slack = _half_digit(moles) * mw / 1000 + _half_digit(mass)
+    if abs(mass.total - expected) <= max(0.05 * expected, slack):
         return None
     return Gap(
         kind="mass_moles_mismatch", item=line.name, severity="major", evidence=line.evidence,
