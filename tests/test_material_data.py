@@ -108,6 +108,13 @@ def test_a_name_the_library_reads_as_a_formula_is_not_taken_for_another_compound
     for name in ("N-methyl-4-piperidone hydrochloride", "N-benzoyl-(2-furylcarbonyl)methylamine"):
         assert search_chemical(name).formula == "N-3"  # the library's answer, refused
         assert resolve_with_chemicals(name, LabConfig()) is None
+    # a step's label read without its space, and a fragment of a name taken for a radical
+    assert search_chemical("Step A").common_name == "thiotepa"
+    assert search_chemical("tert-butyl").common_name == "tert-butyl radical"
+    assert resolve_with_chemicals("Step A", LabConfig()) is None
+    assert resolve_with_chemicals("tert-butyl", LabConfig()) is None
+    spaced = resolve_with_chemicals("1-(3-methoxy phenyl)piperazine", LabConfig())
+    assert spaced.formula == "C11H16N2O"  # a stray space in a long name still finds it
     assert resolve_with_chemicals("malononitrile", LabConfig()).formula == "C3H2N2"
     assert resolve_with_chemicals("Na2SO3", LabConfig()).formula == "Na2O3S"
     assert resolve_with_chemicals("ethyl ethanoate", LabConfig()).name == "ethyl acetate"

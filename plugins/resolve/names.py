@@ -67,7 +67,7 @@ class _NameCache:
 _name_cache = _NameCache()
 # the rule by which an answer is accepted (see _names_it); a new rule makes a new cache file
 # and, through the knowledge versions, recomputes the entries it may change
-ANSWER_RULE = "names-checked-1"
+ANSWER_RULE = "names-checked-2"
 
 
 @functools.lru_cache(maxsize=1)
@@ -113,14 +113,21 @@ def _ask_chemicals(name: str) -> list | None:
 
 def _names_it(name: str, found) -> bool:
     """Whether the library's answer is the compound ``name`` names: the name is one of the
-    answer's names, or its SMILES, or a formula that is the answer's. The library also reads
-    a name that it does not know as a formula where it can ("N-methyl-4-piperidone
-    hydrochloride" became the nitride ion, N³⁻): such an answer is refused, and the name stays
-    unknown rather than be weighed as another compound."""
+    answer's names (without spaces and hyphens only when that leaves 8 letters or more), or
+    its SMILES, or a formula that is the answer's; never a radical or an ion. The library also
+    reads a name that it does not know as a formula where it can ("N-methyl-4-piperidone
+    hydrochloride" became the nitride ion, N³⁻) or without its spaces ("Step A" became
+    thiotepa, "STEPA"): such answers are refused, and the name stays unknown rather than be
+    weighed as another compound."""
     names = [found.common_name or "", found.iupac_name or "", *(found.synonyms or ())]
+    if "radical" in (found.common_name or "") or getattr(found, "charge", 0):
+        return False  # "tert-butyl" is a fragment of a name, not the radical; ions are not bottled
     keys = {material_key(n) for n in names if n}
     key = material_key(name)
-    if key in keys or compact_key(key) in {compact_key(k) for k in keys}:
+    if key in keys:
+        return True
+    compact = compact_key(key)  # "ethylacetate" is ethyl acetate; "stepa" is not "Step A"
+    if len(compact) >= 8 and compact in {compact_key(k) for k in keys}:
         return True
     text = name.strip()
     if found.smiles and text == found.smiles:
