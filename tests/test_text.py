@@ -336,3 +336,16 @@ def test_a_product_produced_or_thereby_obtained_is_the_product():
     assert [(m.name, m.role) for m in lines][-1] == ("triazolol", "product")
     (line,) = extract("4.0 g of N-benzoylglycine are thereby obtained.")
     assert (line.name, line.role) == ("N-benzoylglycine", "product")
+
+
+def test_a_name_may_open_with_a_stereodescriptor_and_end_with_its_number():
+    """ "of tert-butyl (3RS,4RS)-4-aryl-piperidine-1-carboxylate": the bracket opens part of
+    the name, not an amount; "the amine (3) (1.2 mmol)": the compound's number is passed over
+    and the bracket of amounts after it is the same mention's, not a second input."""
+    (line, _) = extract("A solution of 173 mg (0.35 mmol) of tert-butyl (3RS,4RS)-4-phenyl-"
+                        "piperidine-1-carboxylate in 6 ml of methanol was stirred.")  # fmt: skip
+    assert line.name == "tert-butyl (3RS,4RS)-4-phenyl-piperidine-1-carboxylate"
+    assert line.stated == "173 mg, 0.35 mmol"
+    lines = extract("Then 2.0 g of benzaldehyde (3) (18.8 mmol) in THF (5 mL) was added.")
+    assert [(m.name, m.stated) for m in lines] == [("benzaldehyde", "2.0 g, 18.8 mmol"),
+                                                   ("THF", "5 mL")]  # fmt: skip

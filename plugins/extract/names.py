@@ -172,6 +172,9 @@ def name_after(text: str) -> tuple[str | None, str | None, int]:
             break
         if words and _balanced(words) and _QUANTITY_AHEAD.match(text, m.start()):
             break  # "in 20 ml of water 5.21 g (0.02 mole) of …": the next mention's amount
+        if words and _balanced(words) and _LABEL.fullmatch(w):
+            ends[-1] = m.end()  # "the amine (3) (1.2 mmol)": its number, passed over
+            continue
         if words and w.startswith("(") and _balanced(words) and (
                 _AMOUNT_BRACKET.match(w) or ")" not in w):  # fmt: skip
             break  # a bracket of amounts (it belongs to this mention), or an aside
@@ -205,7 +208,13 @@ _LEAD = re.compile(
     r"(?P<aq>aqueous|aq\.|saturated|sat\.)?\s*(?:(?:solution|suspension|slurry|dispersion)\s+of|"
     r"(?<=%)\s*by\s+(?:volume|weight)\s+of)\s+)?"  # "15% by volume of sodium hydroxide"
 )
-_AMOUNT_BRACKET = re.compile(r"\(\s*[\d.~≈]")
+_LABEL = re.compile(r"\((?:\d{1,3}[a-z]?|[IVX]{1,5}[a-z]?)\)")  # a compound's number in the text
+# a bracket that opens with an amount ("(0.35 mmol", "(2 eq.", "(~5 mL") or is a bare number
+# ("(3)"); not a stereodescriptor or locant that opens a name ("(3RS,4RS)-4-…", "(2E)-…")
+_AMOUNT_BRACKET = re.compile(
+    r"\(\s*(?:ca\.?\s*|approx\.?\s*|[~≈]\s*)?[\d.,]*\d\s*(?:\)|%|(?:[mµμk]?g|gms?|mgs|[mµμ]?[lL]|"
+    r"cm3|cc|[mµμ]?mol(?:es?)?|mmole?s?|eq|equiv|M|N)\b)"
+)
 _QUANTITY_AHEAD = re.compile(  # the start of another mention's amount
     r"\d+(?:[.,]\d+)?\s*(?:[mµμk]?g|gm|mgs|[mµμ]?l|cm3|[mµμ]?mol(?:es?)?)\b", re.I
 )
