@@ -59,6 +59,9 @@ def test_halogenated_flag_matches_the_formula_for_solvents():
         ("Hünig's base", "N,N-diisopropylethylamine"),
         ("Pd(dppf)Cl2", "[1,1'-bis(diphenylphosphino)ferrocene]dichloropalladium(II)"),
         ("2-MeTHF", "2-methyltetrahydrofuran"),
+        # the supported catalyst, not the metal (common practice)
+        ("10% palladium on carbon", "palladium on carbon 10%"),
+        ("palladium on activated charcoal", "palladium on carbon 10%"),
     ],
 )
 def test_names_and_synonyms_resolve(name, expected):

@@ -349,3 +349,14 @@ def test_a_name_may_open_with_a_stereodescriptor_and_end_with_its_number():
     lines = extract("Then 2.0 g of benzaldehyde (3) (18.8 mmol) in THF (5 mL) was added.")
     assert [(m.name, m.stated) for m in lines] == [("benzaldehyde", "2.0 g, 18.8 mmol"),
                                                    ("THF", "5 mL")]  # fmt: skip
+
+
+def test_a_metal_on_its_support_is_one_name():
+    """ "10% palladium on carbon (267 mg)" is the catalyst, not "carbon"; "on" still ends a
+    name elsewhere ("placed on ice (20 g)")."""
+    lines = extract("3-Nitrobiphenyl (500 mg) and 10% palladium on carbon (267 mg) in methanol "
+                    "(1 mL) were stirred; then 50 mg of Pt on alumina was added and the flask "
+                    "was placed on ice (20 g).")  # fmt: skip
+    assert [(m.name, m.stated) for m in lines] == [
+        ("3-Nitrobiphenyl", "500 mg"), ("10% palladium on carbon", "267 mg"),
+        ("methanol", "1 mL"), ("Pt on alumina", "50 mg"), ("ice", "20 g")]  # fmt: skip

@@ -130,8 +130,10 @@ def name_before(text: str) -> tuple[str | None, str | None]:
         w = words[i]
         ends_sentence = w[-1] == "." and not _ABBREVIATION.match(w.lower()) and len(w) > 2
         vessel = i < len(words) - 1 and w.lower() in _VESSELS  # "flask THF (1 mL)": THF
-        if (w.lower() in BOUNDARY_WORDS or w[-1] in ",;:" or ends_sentence or vessel
-                or _VERB_LIKE.match(w)) and _balanced(words[i + 1 :]):  # fmt: skip
+        support = w.lower() == "on" and 0 < i < len(words) - 1 and _on_support(
+            words[i - 1], " " + " ".join(words[i + 1 :]))  # "palladium on carbon"  # fmt: skip
+        if ((w.lower() in BOUNDARY_WORDS and not support) or w[-1] in ",;:" or ends_sentence
+                or vessel or _VERB_LIKE.match(w)) and _balanced(words[i + 1 :]):  # fmt: skip
             start = i + 1  # "with stirring thionyl chloride", "activated charcoal"
             break
         if len(words) - i > MAX_WORDS + 2:
@@ -168,7 +170,8 @@ def name_after(text: str) -> tuple[str | None, str | None, int]:
             reference = ref.group(0).strip()
             ends[-1] = ref.end()
             break
-        if low in BOUNDARY_WORDS and _balanced(words) and (words or not had_of):
+        if low in BOUNDARY_WORDS and _balanced(words) and (words or not had_of) and not (
+                low == "on" and words and _on_support(words[-1], text[m.end() :])):  # fmt: skip
             break
         if words and _balanced(words) and _QUANTITY_AHEAD.match(text, m.start()):
             break  # "in 20 ml of water 5.21 g (0.02 mole) of …": the next mention's amount
@@ -208,6 +211,15 @@ _LEAD = re.compile(
     r"(?P<aq>aqueous|aq\.|saturated|sat\.)?\s*(?:(?:solution|suspension|slurry|dispersion)\s+of|"
     r"(?<=%)\s*by\s+(?:volume|weight)\s+of)\s+)?"  # "15% by volume of sodium hydroxide"
 )
+# a metal on its support is one catalyst: "10% palladium on carbon", "Pt on alumina"
+_METALS = {"palladium", "platinum", "rhodium", "ruthenium", "nickel", "pd", "pt", "rh", "ru", "ni"}
+_SUPPORT = re.compile(r"\s+(?:activated\s+)?(?:carbon|charcoal|alumina|silica|C)\b", re.I)
+
+
+def _on_support(metal: str, after: str) -> bool:
+    return metal.lower().strip("(") in _METALS and bool(_SUPPORT.match(after))
+
+
 _LABEL = re.compile(r"\((?:\d{1,3}[a-z]?|[IVX]{1,5}[a-z]?)\)")  # a compound's number in the text
 # a bracket that opens with an amount ("(0.35 mmol", "(2 eq.", "(~5 mL") or is a bare number
 # ("(3)"); not a stereodescriptor or locant that opens a name ("(3RS,4RS)-4-…", "(2E)-…")
