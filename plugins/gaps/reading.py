@@ -150,6 +150,20 @@ def _half_digit(amount) -> float:
     return 0.5 * 10**-decimals * amount.value / written
 
 
+_PERCENT = re.compile(r"(\d{1,2}(?:\.\d+)?)\s*%")
+
+
+def _fractions_near(line: MaterialLine, mass, moles) -> list[float]:
+    """The strengths stated beside a mass and its moles ("60% in oil", "60% dispersion",
+    "90% purity"), as fractions: the moles are then of the substance in the weighed mass."""
+    text = line.evidence or ""
+    at = [text.find(a.text) for a in (mass, moles) if a.text in text]
+    if not at:
+        return []
+    window = text[max(0, min(at) - 40) : max(at) + 60]
+    return [float(m.group(1)) / 100 for m in _PERCENT.finditer(window) if float(m.group(1)) >= 5]
+
+
 def _mass_moles_gap(line: MaterialLine) -> Gap | None:
     mass, moles = _stated(line, "mass"), _stated(line, "amount")
     if mass is None or moles is None or not line.formula:
@@ -161,8 +175,9 @@ def _mass_moles_gap(line: MaterialLine) -> Gap | None:
     expected = moles.total * mw / 1000
     # 5 %, or what the written digits allow: "11.63 mg, 0.01 mmol" (0.0127 mmol) agree
     slack = _half_digit(moles) * mw / 1000 + _half_digit(mass)
-    if abs(mass.total - expected) <= max(0.05 * expected, slack):
-        return None
+    for fraction in (1.0, *_fractions_near(line, mass, moles)):  # "NaH (60% in oil, 58 mg, …)"
+        if abs(mass.total * fraction - expected) <= max(0.05 * expected, slack):
+            return None
     return Gap(
         kind="mass_moles_mismatch", item=line.name, severity="major", evidence=line.evidence,
         message=f"{line.name}: {mass.text} and {moles.text} disagree ({moles.text} × "
