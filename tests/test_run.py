@@ -372,6 +372,24 @@ def test_what_an_earlier_step_put_out_is_not_a_second_input(notebook):
                                                    abs=1e-3)  # fmt: skip
 
 
+def test_the_product_among_the_parts_of_what_came_out_is_the_product(notebook):
+    """ "a solid was recovered comprising 1.40 g of the ester and 0.20 g of the amide": the
+    ester, named as the entry's product ("the ester"), is the product's mention, so the
+    front matter's 1.40 g agrees with the text and no conflict is reported; the amide is a
+    part of the output, not an input."""
+    notebook.write("e.md", entry_md("product: {name: the ester, mass: 1.40 g}",
+                                    "The amide (2.10 g) and ethanol (0.90 g) were heated. About "
+                                    "1.6 g of a solid was recovered comprising 1.40 g of the "
+                                    "ester and 0.20 g of the amide."))  # fmt: skip
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    roles = {(m["name"], m["stated"]): m["role"] for m in side["set_aside"]}
+    assert roles == {("solid", "1.6 g"): "intermediate", ("ester", "1.40 g"): "product",
+                     ("amide", "0.20 g"): "intermediate"}  # fmt: skip
+    assert [g["kind"] for g in side["gaps"]] == []
+    assert side["metrics"]["pmi"] == pytest.approx(3.00 / 1.40, abs=1e-3)
+
+
 def test_solutions_and_mixtures_are_weighed_with_their_basis(notebook):
     notebook.write(
         "e.md",

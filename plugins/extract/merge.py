@@ -17,6 +17,8 @@ Plugin ``merge`` (``masstrail_merge_materials``):
   form (4.98 g). The resultant MEM form (4.98 g) and …"): the same name, or the same mass
   with "the resultant", "the resulting", "the above" …, is that output carried forward, an
   intermediate, not a second input;
+- an output of the text named as the product (a part of what was recovered, what was
+  collected) is a mention of the product;
 - the product's text record is its last isolated mention (``… to give the amide (2.41 g)``),
   else its last crude one: a recrystallised product wins over the crude mass before it.
 
@@ -41,6 +43,7 @@ from capture.models import (
 )
 
 STRUCTURED = {"front-matter", "table"}
+_ARTICLE = re.compile(r"^(?:the|a|an)\s+", re.I)
 # words by which the text takes up what an earlier step put out
 _CARRIED = re.compile(
     r"^(?:the\s+)?(?:resultant|resulting|above|above-mentioned|aforementioned|said|"
@@ -56,6 +59,21 @@ def _start(line: MaterialLine) -> int:
 def _grams(line: MaterialLine) -> float | None:
     mass = next((a for a in line.amounts if a.kind == "mass"), None)
     return mass.total if mass else None
+
+
+def _bare_key(name: str) -> str:
+    """A name's key without a leading article: the product "the ester" is the text's "ester"."""
+    return material_key(_ARTICLE.sub("", name))
+
+
+def _as_product(line: MaterialLine, product_key: str | None) -> MaterialLine:
+    """An output of the text named as the entry's product ("a solid was recovered comprising
+    1.40 g of the ester", "the ester (1.40 g) was collected") is a mention of the product."""
+    if line.role != "intermediate" or line.origin != "text" or not product_key:
+        return line
+    if product_key not in {_key(line), _bare_key(line.name)}:
+        return line
+    return line.model_copy(update={"role": "product"})
 
 
 def _carried_forward(line: MaterialLine, outputs: list[MaterialLine]) -> MaterialLine | None:
@@ -118,8 +136,8 @@ def merge_text_with_records(
     apart = SET_ASIDE_ROLES | {"recovered"}
     structured = [m for m in lines if m.origin in STRUCTURED and m.role not in apart]
     recovered = [m for m in lines if m.role == "recovered"]
-    set_aside = [m for m in lines if m.role in SET_ASIDE_ROLES]
-    product_key = material_key(entry.product.name) if entry.product.name else None
+    product_key = _bare_key(entry.product.name) if entry.product.name else None
+    set_aside = [_as_product(m, product_key) for m in lines if m.role in SET_ASIDE_ROLES]
     materials, gaps = list(structured), []
     outputs = [m for m in set_aside if m.role in {"product", "intermediate"} and m.origin == "text"]
     for line in lines:
