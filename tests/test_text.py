@@ -360,3 +360,16 @@ def test_a_metal_on_its_support_is_one_name():
     assert [(m.name, m.stated) for m in lines] == [
         ("3-Nitrobiphenyl", "500 mg"), ("10% palladium on carbon", "267 mg"),
         ("methanol", "1 mL"), ("Pt on alumina", "50 mg"), ("ice", "20 g")]  # fmt: skip
+
+
+def test_an_apparatus_provided_with_a_stirrer_and_a_solid_with_its_yield():
+    """ "An autoclave provided with a stirrer … was charged with 250 g of X": "provided with"
+    equips, it names no product, so X is an input; "isolated as a white solid (175 mg, 88%)":
+    a mass with its yield is the product's, though "solid" alone would be a residue."""
+    (line,) = extract("An autoclave provided with a stirrer and a thermometer was charged "
+                      "with 250 g of N-methyloctadecylamine and heated.")  # fmt: skip
+    assert (line.name, line.role) == ("N-methyloctadecylamine", None)
+    (line,) = extract("The title compound was isolated as a white solid (175 mg, 88%).")
+    assert (line.role, line.stated_yield) == ("product", 0.88)
+    (line,) = extract("The residue (1.2 g) was dissolved in ether.")
+    assert line.role == "intermediate"

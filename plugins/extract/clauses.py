@@ -15,9 +15,11 @@ _PRODUCT_WORDS = {"give", "gave", "giving", "gives", "afford", "afforded", "affo
                   "furnishing", "yielded", "yielding", "obtained", "obtain", "obtaining",
                   "leaving", "left", "to yield", "produce", "produces", "producing",
                   "produced"}  # fmt: skip
-# "obtained in Example 3", "obtained from step 2": a reference, not the product
+# "obtained in Example 3", "obtained from step 2": a reference, not the product; "an
+# autoclave provided with a stirrer": equipped, not a product
 _NOT_PRODUCT_AFTER = re.compile(
-    r"\s+(?:in|from|as\s+(?:described|in)|according|above|by\s+the|following|under)\b", re.I
+    r"\s+(?:in|from|as\s+(?:described|in)|according|above|by\s+the|following|under|with)\b",
+    re.I,
 )
 # a product word's reach ends with its clause
 _CLAUSE_END = re.compile(r",\s*which\b|;|\band\s+then\b|\bthen\b|,\s*and\s+(?=\w+\s+(?:was|were))")

@@ -456,11 +456,12 @@ class _Reading:
             return "intermediate"
         clause = self.s.product_clause(pos)
         taken = clause is not None and clause in self.clauses_taken
-        if what == "intermediate" and (taken or clause is None):
+        stated_yield = _yield_of(content) is not None  # "a white solid (175 mg, 88%)"
+        if what == "intermediate" and (taken or clause is None) and not stated_yield:
             return what
         product = (what in {"product", "intermediate"} or clause is not None
                    or (end is not None and (_PASSIVE_PRODUCT.match(self.head, end)
-                                            or _yield_of(content) is not None)))  # fmt: skip
+                                            or stated_yield)))  # fmt: skip
         if not product:
             return None
         if taken and what != "product":
