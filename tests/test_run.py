@@ -349,27 +349,28 @@ def test_conflicting_amounts_at_one_step_count_once(notebook):
 
 def test_what_an_earlier_step_put_out_is_not_a_second_input(notebook):
     """Two steps in one write-up: the first step's output taken up again ("the resultant
-    amide (2.10 g)", or the same name, "the bromide (1.10 g)") is that output carried
-    forward, set aside as an intermediate; PMI counts what was added in each step once,
-    against 1.40 g of product. An input that only weighs the same as an output, with no word
-    taking it up ("toluene (2.10 g)"), is an input."""
+    amide (2.10 g)", or by the same name and mass, "the bromide (1.10 g)") is that output
+    carried forward, set aside as an intermediate; PMI counts what was added in each step
+    once, against 1.40 g of product. An input that only weighs the same as an output, with no
+    word taking it up ("toluene (2.10 g)"), or only has its name (fresh ether after ether was
+    distilled off), is an input."""
     notebook.write("e.md", entry_md("product: {name: the ester, mass: 1.40 g}", """
         The acid (2.00 g) and thionyl chloride (1.50 g) were heated to give the amide (2.10 g,
         90%). The resultant amide (2.10 g), toluene (2.10 g) and the bromide (1.20 g) were
-        heated to give the bromide (1.10 g). Then the bromide (1.10 g) and ethanol (0.90 g)
-        gave the ester (1.40 g).
+        heated to give the bromide (1.10 g). Then 2.0 g of ether was distilled off, and the
+        bromide (1.10 g), ether (3.0 g) and ethanol (0.90 g) gave the ester (1.40 g).
         """))  # fmt: skip
     notebook.scan()
     side = notebook.sidecar("e.md")
     assert [(m["name"], m["stated"]) for m in side["materials"]] == [
         ("acid", "2.00 g"), ("thionyl chloride", "1.50 g"), ("toluene", "2.10 g"),
-        ("bromide", "1.20 g"), ("ethanol", "0.90 g")]  # fmt: skip
+        ("bromide", "1.20 g"), ("ether", "3.0 g"), ("ethanol", "0.90 g")]  # fmt: skip
     carried = [m for m in side["set_aside"] if m["role"] == "intermediate"]
     assert [(m["name"], m["stated"]) for m in carried] == [
-        ("resultant amide", "2.10 g"), ("bromide", "1.10 g")]  # fmt: skip
+        ("resultant amide", "2.10 g"), ("ether", "2.0 g"), ("bromide", "1.10 g")]  # fmt: skip
     assert "taken up again" in carried[0]["note"]
-    assert side["metrics"]["pmi"] == pytest.approx((2.00 + 1.50 + 2.10 + 1.20 + 0.90) / 1.40,
-                                                   abs=1e-3)  # fmt: skip
+    assert side["metrics"]["pmi"] == pytest.approx(
+        (2.00 + 1.50 + 2.10 + 1.20 + 3.0 + 0.90) / 1.40, abs=1e-3)  # fmt: skip
 
 
 def test_the_product_among_the_parts_of_what_came_out_is_the_product(notebook):

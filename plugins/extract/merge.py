@@ -14,9 +14,9 @@ Plugin ``merge`` (``masstrail_merge_materials``):
   mention of the product, with every other quantity that is not an input (intermediates,
   samples, equipment, conditions, characterisation, unread);
 - a text mention of what an earlier step of the same text put out ("… to produce an MEM
-  form (4.98 g). The resultant MEM form (4.98 g) and …"): the same name, or the same mass
-  with "the resultant", "the resulting", "the above" …, is that output carried forward, an
-  intermediate, not a second input;
+  form (4.98 g). The resultant MEM form (4.98 g) and …"): two of the same name, the same
+  mass, and "the resultant", "the resulting", "the above" … before it, is that output
+  carried forward, an intermediate, not a second input;
 - an output of the text named as the product (a part of what was recovered, what was
   collected) is a mention of the product;
 - the product's text record is its last isolated mention (``… to give the amide (2.41 g)``),
@@ -86,7 +86,9 @@ def _carried_forward(line: MaterialLine, outputs: list[MaterialLine]) -> Materia
         same_name = key and key == material_key(_CARRIED.sub("", out.name))
         made = _grams(out)
         same_mass = grams and made and abs(grams - made) <= 0.01 * made
-        if same_name or (carried and same_mass):
+        # a name alone is not enough: "toluene (30 mL) was added" after 30 mL were
+        # distilled off is fresh toluene, an input
+        if (same_name and (same_mass or carried)) or (carried and same_mass):
             return out
     return None
 
