@@ -326,6 +326,10 @@ def test_the_parts_of_what_came_out_are_not_inputs():
     assert roles[("solid", "2.6 g")] == "intermediate"
     assert roles[("benzoic acid", "2.40 g")] == "intermediate"
     assert roles[("ethyl benzoate", "0.20 g")] == "intermediate"
+    lines = extract("The LDA solution thus obtained, containing 10 mmol of LDA, was added to the "
+                    "ketone (2.0 g) in THF (20 mL).")  # fmt: skip
+    assert [(m.name, m.role) for m in lines] == [("LDA", "intermediate"), ("ketone", None),
+                                                 ("THF", None)]  # fmt: skip
 
 
 def test_a_product_produced_or_thereby_obtained_is_the_product():

@@ -21,6 +21,8 @@ _NOT_PRODUCT_AFTER = re.compile(
     r"\s+(?:in|from|as\s+(?:described|in)|according|above|by\s+the|following|under|with)\b",
     re.I,
 )
+# "the solution thus obtained was added to …": what was made before, not this clause's product
+_ADJECTIVAL = re.compile(r"\b(?:thus|so|just|previously)\s+$", re.I)
 # a product word's reach ends with its clause
 _CLAUSE_END = re.compile(r",\s*which\b|;|\band\s+then\b|\bthen\b|,\s*and\s+(?=\w+\s+(?:was|were))")
 
@@ -52,7 +54,8 @@ class Sentence:
                     continue  # "an oven-dried vial": glassware, not a drying step
                 op = OPERATION_STEMS[stem]
                 self.operations.append((m.start(), op, OPERATION_STAGE[op]))
-            elif not _NOT_PRODUCT_AFTER.match(text, m.end()):
+            elif not _NOT_PRODUCT_AFTER.match(text, m.end()) and not _ADJECTIVAL.search(
+                    text, max(0, m.start() - 12), m.start()):  # fmt: skip
                 end = _CLAUSE_END.search(text, m.end())
                 self.products.append((m.end(), end.start() if end else len(text)))
 

@@ -68,6 +68,9 @@ _COMPOSITION = re.compile(
     r"(?:which\s+(?:was|were)\s+)?(?:comprising|containing|consisting\s+of|composed\s+of)\b",
     re.I,
 )
+# the parts end where the sentence goes on ("… obtained, containing 10 mmol of LDA, was added
+# to X (2 g)": X is an input)
+_PARTS_END = re.compile(r"\b(?:was|were|is|are|then)\b|;")
 # a bracket right after a quantity holding a number in a unit masstrail does not read (old
 # patents write moles as "m": "17 g (0.10 m) of X"); no name is in it
 _UNIT_ASIDE = re.compile(r"\s*(\()\s*\d+(?:[.,]\d+)?\s*[A-Za-z]{1,3}\.?\s*\)")
@@ -315,7 +318,9 @@ class _Reading:
         h = self.head  # the pattern is run only where one of its words may be (any case)
         hinted = "ompris" in h or "ontain" in h or "onsist" in h or "ompos" in h
         parts = _COMPOSITION.search(h) if hinted else None
-        self.parts_from = parts.end() if parts else len(self.head) + 1  # an output's parts
+        self.parts_from = parts.end() if parts else len(self.head) + 1  # an output's parts …
+        upto = _PARTS_END.search(self.head, self.parts_from) if parts else None
+        self.parts_to = upto.start() if upto else len(self.head)  # … up to its clause's end
 
     @property
     def s(self) -> Sentence:
@@ -452,7 +457,7 @@ class _Reading:
         crude: the merge prefers an isolated product's."""
         if what in {"sample", "equipment"}:
             return what
-        if pos >= self.parts_from:  # a part of what came out, not an addition
+        if self.parts_from <= pos < self.parts_to:  # a part of what came out, not an addition
             return "intermediate"
         clause = self.s.product_clause(pos)
         taken = clause is not None and clause in self.clauses_taken
