@@ -322,6 +322,8 @@ def test_a_mixture_passed_through_celite_needs_the_pad_and_a_tiny_yield_is_doubt
     ("The residue was purified by ISCO (0-20% MeOH in EtOAc).", True),
     ("The oil was then repurified by CombiFlash (4-8% MeOH/DCM).", True),
     ("The residue was loaded on ISCO (heptane to EtOAc).", True),
+    ("The residue was purified by flash (SiO2; DCM/MeOH 97/3).", True),
+    ("The flask was flushed with argon.", False),
     ("The mixture was heated to 150 °C in a Biotage microwave vial.", False),
 ])  # fmt: skip
 def test_an_automated_flash_system_is_a_column(notebook, said, column):

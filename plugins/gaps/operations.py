@@ -295,7 +295,8 @@ _CHROMATOGRAPHY = re.compile(
     r"\b(flash chromatography|column chromatography|chromatograph(?:ed|y)|flash column|"
     r"purified on (?:a )?(?:silica|column)|eluting with|eluted with|elution with|"
     r"(?:purified|re-?purif\w*|loaded)\s+(?:again\s+)?(?:by|on|with|using|via)\s+"
-    r"(?:an?\s+|the\s+)?(?:Teledyne\s+)?(?:ISCO|combi-?flash|Biotage\s+Isolera|Isolera))\b",
+    r"(?:an?\s+|the\s+)?(?:Teledyne\s+)?(?:ISCO|combi-?flash|Biotage\s+Isolera|Isolera|flash)|"
+    r"(?:a\s+)?(?:second|another|further)\s+flash)\b",
     re.I,
 )
 _ANALYTICAL = re.compile(r"thin[- ]layer chromatography|\bTLC\b|\bHPLC\b|\bGC\b|LC-?MS|\bUPLC\b")
@@ -500,8 +501,7 @@ _RULES = (
     (lambda ctx, text, seen: drying(ctx, text), ("dried",)),
     (lambda ctx, text, seen: liquids(ctx, text),
      ("wash", "rins", "extract", "quench", "dilut", "partition", "acidif", "basif", "neutrali")),
-    (chromatography, ("chromatograph", "flash column", "purified on", "elut", "isco",
-                      "combiflash", "combi-flash", "isolera")),
+    (chromatography, ("chromatograph", "flash", "purified on", "elut", "isco", "isolera")),
     (lambda ctx, text, seen: recrystallisation(ctx, text), ("crystalli", "triturat")),
     (aspirator, ("aspirator", "water-jet", "water jet", "water pump")),
     (lambda ctx, text, seen: unquantified(ctx, text),
