@@ -32,6 +32,7 @@ OPERATION_STAGE: dict[str, Stage] = {
     "recrystallisation": "purification",
     "trituration": "purification",
     "distillation": "purification",
+    "purification": "purification",  # "purified …" when the text names no method
 }
 
 # operation word stems → operation; a word names the operation when it starts with the stem
@@ -41,6 +42,8 @@ OPERATION_STEMS: dict[str, str] = {
     "elut": "chromatography",
     "eluent": "chromatography",
     "flash": "chromatography",
+    "cartridge": "chromatography",
+    "purif": "purification",
     "recrystalli": "recrystallisation",
     "crystalli": "recrystallisation",
     "triturat": "trituration",

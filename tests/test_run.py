@@ -391,6 +391,23 @@ def test_the_product_among_the_parts_of_what_came_out_is_the_product(notebook):
     assert side["metrics"]["pmi"] == pytest.approx(3.00 / 1.40, abs=1e-3)
 
 
+def test_what_is_purified_on_a_cartridge_belongs_to_the_purification(notebook):
+    """ "purified on a Teledyne Isco instrument with a 24 g cartridge (SiO2) and 20% EtOAc in
+    heptane (350 mL)": the cartridge's silica and the eluent are the purification's, so the
+    silica the front matter records is counted once, and the eluent is recorded."""
+    notebook.write("e.md", entry_md(
+        "product: {name: p, mass: 0.50 g}\n"
+        "materials: [{name: silica gel, amount: 24 g, role: purification}]",
+        "The acid (2.00 g) was stirred for 1 h. The crude ester was purified on a Teledyne Isco "
+        "instrument with a 24 g cartridge (SiO2) and 20% EtOAc in heptane (350 mL)."))  # fmt: skip
+    notebook.scan()
+    side = notebook.sidecar("e.md")
+    stages = [(m["name"], m["stage"]) for m in side["materials"]]
+    assert stages == [("silica gel", "purification"), ("acid", "reaction"),
+                      ("EtOAc", "purification"), ("heptane", "purification")]  # fmt: skip
+    assert side["gaps"] == []
+
+
 def test_solutions_and_mixtures_are_weighed_with_their_basis(notebook):
     notebook.write(
         "e.md",
