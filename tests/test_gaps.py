@@ -289,6 +289,15 @@ def test_the_product_counted_as_an_input_is_said(notebook):
     assert "product_among_inputs" not in clean
 
 
+def test_a_quench_with_a_reagent_needs_its_amount(notebook):
+    """What a reaction is quenched with is a record whether it is a solvent or a reagent:
+    "quenched with triethylamine" is a missing volume; with its amount, none."""
+    front = "product: {name: p, mass: 0.5 g}"
+    said = "The ylide (2.00 g) in THF (20 mL) was stirred for 1 h and quenched with triethylamine"
+    assert _gaps(notebook, front, said + ".")["liquid_volume"].item == "triethylamine"
+    assert "liquid_volume" not in _gaps(notebook, front, said + " (2 mL).")
+
+
 def test_an_operation_in_a_sentence_that_ends_in_characterisation_is_checked(notebook):
     """ "… purified by chromatography on silica gel to afford 104 mg of the acid; mp 206 °C;
     1H NMR …": the characterisation tail is cut off and the procedure before it is checked,

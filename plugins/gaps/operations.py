@@ -265,7 +265,9 @@ def liquids(ctx: Context, text: str) -> list[RecordCheck]:
         for name in _names_in(m.group("rest")):
             info = ctx.resolve(name)
             liquid = info is not None and info.category in LIQUID_CATEGORIES
-            if not liquid and not re.search(r"\b(solution|water|brine|acid|aq)\b", name, re.I):
+            quencher = op == "quench" and info is not None  # "quenched with dimethyl sulfide"
+            if not (liquid or quencher) and not re.search(r"\b(solution|water|brine|acid|aq)\b",
+                                                          name, re.I):  # fmt: skip
                 continue  # "extracted into the organic phase"
             if ctx.recorded(name, "workup"):
                 checks.append(_check(op, "liquid volume", name, text, None))
