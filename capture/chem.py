@@ -48,6 +48,24 @@ def material_key(name: str) -> str:
     return " ".join(out)
 
 
+_ARTICLE = re.compile(r"^(?:the|a|an)\s+", re.I)
+
+
+def prose_key(name: str) -> str:
+    """A :func:`material_key` without a leading article, for names as prose writes them: the
+    product "the ester" is the text's "ester". (The compound table's keys are material keys:
+    an article is never part of a substance's name there.)"""
+    return material_key(_ARTICLE.sub("", name))
+
+
+_CAS_NUMBER = re.compile(r"\d{2,7}-\d{2}-\d")
+
+
+def looks_like_cas(text: str) -> bool:
+    """True for a CAS registry number as written, '93-17-4' (the check digit not verified)."""
+    return bool(_CAS_NUMBER.fullmatch(text))
+
+
 _SPELLINGS = (("sulph", "sulf"), ("aluminium", "aluminum"), ("caesium", "cesium"),
               ("oestr", "estr"))  # fmt: skip
 

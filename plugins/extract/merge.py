@@ -30,7 +30,7 @@ from __future__ import annotations
 
 import re
 
-from capture.chem import material_key
+from capture.chem import material_key, prose_key
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import (
@@ -43,7 +43,6 @@ from capture.models import (
 )
 
 STRUCTURED = {"front-matter", "table"}
-_ARTICLE = re.compile(r"^(?:the|a|an)\s+", re.I)
 # words by which the text takes up what an earlier step put out
 _CARRIED = re.compile(
     r"^(?:the\s+)?(?:resultant|resulting|above|above-mentioned|aforementioned|said|"
@@ -61,17 +60,12 @@ def _grams(line: MaterialLine) -> float | None:
     return mass.total if mass else None
 
 
-def _bare_key(name: str) -> str:
-    """A name's key without a leading article: the product "the ester" is the text's "ester"."""
-    return material_key(_ARTICLE.sub("", name))
-
-
 def _as_product(line: MaterialLine, product_key: str | None) -> MaterialLine:
     """An output of the text named as the entry's product ("a solid was recovered comprising
     1.40 g of the ester", "the ester (1.40 g) was collected") is a mention of the product."""
     if line.role != "intermediate" or line.origin != "text" or not product_key:
         return line
-    if product_key not in {_key(line), _bare_key(line.name)}:
+    if product_key not in {_key(line), prose_key(line.name)}:
         return line
     return line.model_copy(update={"role": "product"})
 
@@ -138,7 +132,7 @@ def merge_text_with_records(
     apart = SET_ASIDE_ROLES | {"recovered"}
     structured = [m for m in lines if m.origin in STRUCTURED and m.role not in apart]
     recovered = [m for m in lines if m.role == "recovered"]
-    product_key = _bare_key(entry.product.name) if entry.product.name else None
+    product_key = prose_key(entry.product.name) if entry.product.name else None
     set_aside = [_as_product(m, product_key) for m in lines if m.role in SET_ASIDE_ROLES]
     materials, gaps = list(structured), []
     outputs = [m for m in set_aside if m.role in {"product", "intermediate"} and m.origin == "text"]

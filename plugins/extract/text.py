@@ -318,9 +318,9 @@ class _Reading:
         h = self.head  # the pattern is run only where one of its words may be (any case)
         hinted = "ompris" in h or "ontain" in h or "onsist" in h or "ompos" in h
         parts = _COMPOSITION.search(h) if hinted else None
-        self.parts_from = parts.end() if parts else len(self.head) + 1  # an output's parts …
-        upto = _PARTS_END.search(self.head, self.parts_from) if parts else None
-        self.parts_to = upto.start() if upto else len(self.head)  # … up to its clause's end
+        self.parts_from = parts.end() if parts else len(h) + 1  # an output's parts …
+        upto = _PARTS_END.search(h, self.parts_from) if parts else None
+        self.parts_to = upto.start() if upto else len(h)  # … up to its clause's end
 
     @property
     def s(self) -> Sentence:

@@ -146,8 +146,7 @@ def _half_digit(amount) -> float:
     written = float(m.group(0).replace(",", "."))
     if written <= 0:
         return 0.0
-    decimals = len(m.group(1) or "")
-    return 0.5 * 10**-decimals * amount.value / written
+    return 0.5 * 10 ** -len(m.group(1)) * amount.value / written
 
 
 _PERCENT = re.compile(r"(\d{1,2}(?:\.\d+)?)\s*%")

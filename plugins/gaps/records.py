@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import re
 
-from capture.chem import material_key
+from capture.chem import material_key, prose_key
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, Gap, MaterialLine, ProductOut, ReactionFigures, RecordCheck
@@ -223,11 +223,11 @@ def _product_among_inputs(materials: list[MaterialLine], product: ProductOut) ->
     """The product counted as an input too: usually the text's mention of the product (or of
     what was isolated: "a liquid was recovered comprising 24.7 g of X") read as an addition.
     Said, not removed: a product can be an input as well (seed crystals, a second pass)."""
-    key = material_key(product.name or "")
+    key = prose_key(product.name or "")  # the same comparison as the merge's
     if not key:
         return []
     same = [m for m in materials if m.mass_g is not None
-            and key in {material_key(m.name), material_key(m.resolved or "")}]  # fmt: skip
+            and key in {prose_key(m.name), material_key(m.resolved or "")}]  # fmt: skip
     if not same:
         return []
     line = same[0]

@@ -9,10 +9,16 @@ library gives (no density). Block it with ``[plugins] block = ["names"]``.
 from __future__ import annotations
 
 import functools
-import re
 from pathlib import Path
 
-from capture.chem import compact_key, hill_formula, looks_like_formula, material_key, molar_mass
+from capture.chem import (
+    compact_key,
+    hill_formula,
+    looks_like_cas,
+    looks_like_formula,
+    material_key,
+    molar_mass,
+)
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import MaterialInfo
@@ -91,9 +97,6 @@ def _chemicals_lookup(name: str) -> tuple[str, str, float] | None:
     return None if answer is None else (answer[0], answer[1], float(answer[2]))
 
 
-_CAS = re.compile(r"\d{2,7}-\d{2}-\d")
-
-
 def _ask_chemicals(name: str) -> list | None:
     try:
         from chemicals.identifiers import search_chemical
@@ -106,7 +109,7 @@ def _ask_chemicals(name: str) -> list | None:
     if not found or not found.formula or not _names_it(name, found):
         return None
     common = found.common_name or ""
-    if not common or _CAS.fullmatch(common):  # some compounds' "common name" is their CAS number
+    if not common or looks_like_cas(common):  # some compounds' "common name" is their CAS number
         common = found.iupac_name or name
     return [common, found.formula, float(found.MW)]
 
