@@ -313,7 +313,9 @@ def test_an_operation_in_a_sentence_that_ends_in_characterisation_is_checked(not
 def test_a_mixture_passed_through_celite_needs_the_pad_and_a_tiny_yield_is_doubted(notebook):
     """ "The reaction mixture was passed through celite" is a filtration through a pad whose
     mass is a record to keep; "to obtain 0.447 mg of product" from 6.33 mmol is a yield of
-    0.04 %: a unit slip (mg for g) is likely, and a major gap says so."""
+    0.04 %: a unit slip (mg for g) is likely, and a major gap says so. (The product,
+    4-(pyrrolidin-3-ol)pyridine C9H12N2O, 164.21 g/mol from the IUPAC standard atomic weights:
+    0.447 mg is 0.00272 mmol.)"""
     gaps = _gaps(notebook, "product: {name: C1CN(CC1O)C2=CC=NC=C2}",
                  "4-Bromopyridine (1.00 g, 6.33 mmol) and pyrrolidin-3-ol (0.662 g, 7.60 mmol) "
                  "in THF (10 mL) were heated. The reaction mixture was passed through celite and "
@@ -380,8 +382,9 @@ def test_a_mass_that_disagrees_with_its_moles_is_named(notebook):
         "Benzaldehyde (2.12 g, 20.0 mmol) was added to ethanol (10 mL).",
     )
     assert "mass_moles_mismatch" not in ok
-    # tris(dibenzylideneacetone)dipalladium(0), C51H42O3Pd2, 915.72 g/mol: 11.63 mg is
-    # 0.0127 mmol, which "0.01 mmol" rounds; "0.010 mmol" could not hold it
+    # molar masses from the IUPAC standard atomic weights (the molmass library's table, an
+    # outside source): tris(dibenzylideneacetone)dipalladium(0), C51H42O3Pd2, 915.72 g/mol:
+    # 11.63 mg is 0.0127 mmol, which "0.01 mmol" rounds; "0.010 mmol" could not hold it
     front = "product: {name: p, mass: 1.0 g}"
     body = "Benzaldehyde (2.12 g, 20.0 mmol) and Pd2(dba)3 (11.63 mg, %s) in dioxane (4 mL)."
     assert "mass_moles_mismatch" not in _gaps(notebook, front, body % "0.01 mmol")
