@@ -30,7 +30,8 @@ _AMOUNT = re.compile(r"(\d+(?:[.,]\d+)?)\s*(mg|g|kg|mL|ml|L|mmol|mol|equiv|M)\b"
 
 
 def _floor(path: Path, result: dict) -> float:
-    from capture.safeio import decode_text, load_yaml
+    from capture.safeio import decode_text
+    from capture.safeyaml import load_yaml
 
     t = time.perf_counter()
     text = decode_text(path.read_bytes())

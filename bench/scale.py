@@ -101,7 +101,8 @@ def generate(target: Path, n: int, seed: int = 3, names: bool = False) -> None:
 FLOOR_COLD = r"""
 import json, os, sys, time
 from pathlib import Path
-from capture.safeio import atomic_write, decode_text, load_json, load_yaml, sync_folder
+from capture.safeio import atomic_write, decode_text, load_json, sync_folder
+from capture.safeyaml import load_yaml
 root, out, durable = Path(sys.argv[1]), Path(sys.argv[2]), sys.argv[3] == "1"
 out.mkdir(exist_ok=True)
 t = time.perf_counter()

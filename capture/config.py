@@ -19,7 +19,7 @@ from pydantic import (
     model_validator,
 )
 
-CONFIG_NAME = "masstrail.toml"
+from capture.paths import CONFIG_NAME
 
 
 class ConfigError(Exception):

@@ -23,7 +23,8 @@ import pluggy
 from capture import __version__
 from capture.config import LabConfig
 from capture.paths import STATE_DIR, sidecar_name
-from capture.safeio import InputError, atomic_write, read_bounded, read_small, safe_log_path
+from capture.safeio import InputError, atomic_write, read_bounded
+from capture.standing import BASIS_FILE, RACY_NS, fingerprint, log_digests, read_record
 
 if TYPE_CHECKING:
     from capture.models import EntrySummary
@@ -31,8 +32,6 @@ if TYPE_CHECKING:
 GENERATOR = f"masstrail {__version__}"
 CONFIG_PART = "the lab configuration (masstrail.toml)"
 PLUGINS_PART = "the plugins"
-BASIS_FILE = "basis.json"  # in the notebook's STATE_DIR: the parts of the last scan's results
-RACY_NS = 2_000_000_000  # coarser than any file system's time stamps (FAT's are 2 s)
 
 
 def file_stat(path: Path) -> str | None:
@@ -104,18 +103,11 @@ class Fingerprints:
 
     def log_digests(self, entry_dir: Path, logs: list[str] | tuple[str, ...]) -> str:
         """What the fingerprint takes of an entry's balance logs: each name and hash."""
-        parts = []
-        for ref in logs:
-            try:
-                digest = self.log_sha(safe_log_path(self.root, entry_dir, ref))
-            except (InputError, OSError):
-                digest = "-"
-            parts.append(f"\n{ref}\0{digest}")
-        return "".join(parts)
+        return log_digests(self.root, entry_dir, logs, self.log_sha)
 
     def of(self, entry_sha: str, log_digests: str) -> str:
         """The fingerprint from the entry's hash and :meth:`log_digests`."""
-        return hashlib.sha256(f"{self.base}\n{entry_sha}{log_digests}".encode()).hexdigest()
+        return fingerprint(self.base, entry_sha, log_digests)
 
     def of_entry(self, entry_sha: str, entry_dir: Path, logs: list[str]) -> str:
         """The fingerprint of one entry's result (see ``EntryRef.inputs_sha256``)."""
@@ -153,24 +145,23 @@ class Fingerprints:
         return before.inputs_sha256 == self.of(sha, digests)
 
 
-def read_basis(root: Path) -> dict[str, str] | None:
-    """The :attr:`Fingerprints.parts` the last writing scan recorded, or None (none yet, or a
-    damaged file: then the scan cannot name what changed, and says nothing of it)."""
-    try:
-        data = json.loads(read_small(root / STATE_DIR / BASIS_FILE, 2**20) or "")
-    except ValueError:
-        return None
-    parts = data.get("parts") if isinstance(data, dict) else None
+def read_basis(root: Path) -> tuple[dict[str, str] | None, dict | None]:
+    """What the last writing scan recorded: its :attr:`Fingerprints.parts` (None when there
+    is no record or it is damaged: then the scan cannot name what changed, and says nothing
+    of it) and its standing (:func:`capture.standing.standing`, or None)."""
+    data = read_record(root) or {}
+    parts, standing = data.get("parts"), data.get("standing")
     if not isinstance(parts, dict) or not all(isinstance(v, str) for v in parts.values()):
-        return None
-    return parts
+        parts = None
+    return parts, standing if isinstance(standing, dict) else None
 
 
-def write_basis(root: Path, parts: dict[str, str]) -> None:
-    """Record ``parts`` as the basis of the notebook's results (a cache of what was used: a
-    file that cannot be written only loses the naming of the next change)."""
+def write_basis(root: Path, parts: dict[str, str], standing: dict | None) -> None:
+    """Record ``parts`` as the basis of the notebook's results, with the standing that lets
+    ``masstrail show`` answer from a current sidecar (a cache of what was used: a file that
+    cannot be written only loses the naming of the next change and the quick answers)."""
     path = root / STATE_DIR / BASIS_FILE
-    text = json.dumps({"parts": parts}, indent=1, sort_keys=True) + "\n"
+    text = json.dumps({"parts": parts, "standing": standing}, indent=1, sort_keys=True) + "\n"
     try:
         path.parent.mkdir(exist_ok=True)
         atomic_write(path, text, sync_dir=False)

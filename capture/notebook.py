@@ -14,6 +14,7 @@ from capture.config import LabConfig, load_config
 from capture.fingerprint import Fingerprints
 from capture.models import MaterialInfo, Result
 from capture.paths import EntryRule, entry_stem, is_own_output, output_stem
+from capture.standing import setup_stamp, standing
 
 
 def flatten(answers) -> list:
@@ -31,6 +32,9 @@ class Notebook:
     _resolved: dict[str, MaterialInfo | None] = field(default_factory=dict)
     unnamed: list[str] = field(default_factory=list, init=False)  # see folders
     orphans: list[str] = field(default_factory=list, init=False)  # see folders
+    # the set-up the plugins were loaded from (capture.standing.setup_stamp), taken before
+    # they were; None when the caller brought its own plugin manager or a part just changed
+    stamp: str | None = field(default=None, kw_only=True)
 
     @classmethod
     def open(cls, root: Path, pm: pluggy.PluginManager | None = None) -> Notebook:
@@ -38,8 +42,10 @@ class Notebook:
         from capture.plugin_manager import get_plugin_manager
 
         root = root.resolve()
+        stamp = setup_stamp(root) if pm is None else None
         config = load_config(root)
-        return cls(root, config, pm or get_plugin_manager(block=config.plugins.block))
+        pm = pm or get_plugin_manager(block=config.plugins.block)
+        return cls(root, config, pm, stamp=stamp)
 
     # ------------------------------------------------------------------ which files are entries
     @functools.cached_property
@@ -117,6 +123,11 @@ class Notebook:
     def fingerprints(self) -> Fingerprints:
         """The fingerprints of this notebook's results (see :mod:`capture.fingerprint`)."""
         return Fingerprints(self.root, self.config, self.pm)
+
+    def standing(self) -> dict | None:
+        """What a writing scan records so that ``masstrail show`` can tell a current sidecar
+        without loading the plugins (:mod:`capture.standing`); None without a stamp."""
+        return standing(self.stamp, self.fingerprints.base, self.config.scan.max_entry_bytes)
 
     def process(self, path: Path, write: bool = True) -> Result:
         """Compute (and by default write) one entry's result; never raises for bad input."""

@@ -8,8 +8,7 @@ import os
 import re
 from pathlib import Path
 
-from capture.config import CONFIG_NAME
-
+CONFIG_NAME = "masstrail.toml"  # the lab configuration, at the notebook's root
 SIDECAR_SUFFIX = ".waste.json"
 CARD_SUFFIX = ".waste.md"
 STATE_DIR = ".masstrail"
@@ -45,6 +44,14 @@ def output_stem(name: str) -> str:
         if name.endswith(suffix):
             return name[: -len(suffix)]
     return name
+
+
+def notebook_root(entry: Path) -> Path:
+    """The notebook an entry file belongs to: the nearest folder above it that holds a
+    masstrail.toml, else the entry's own folder (resolved)."""
+    entry = entry.resolve()
+    return next((folder for folder in [entry.parent, *entry.parent.parents]
+                 if (folder / CONFIG_NAME).is_file()), entry.parent)  # fmt: skip
 
 
 def sidecar_path(entry_path: Path) -> Path:

@@ -115,7 +115,7 @@ def scan(
     one. ``progress(path, summary)`` is called for each entry file, in order.
     """
     basis = notebook.fingerprints.parts if write else None
-    last_basis = read_basis(notebook.root) if write else None
+    last_basis, last_standing = read_basis(notebook.root) if write else (None, None)
     changes = basis_changes(last_basis, basis) if last_basis is not None and basis else []
     ask = write and (reuse or changes) and previous is None  # the writers, a chunk at a time
     report = ScanReport(notebook.root, basis_changes=changes)
@@ -132,8 +132,9 @@ def scan(
                                              present=report.summaries.view(_path),
                                              written=report.written,
                                              orphans=notebook.orphans)  # fmt: skip
-        if basis != last_basis:
-            write_basis(notebook.root, basis)
+        standing = notebook.standing()
+        if basis != last_basis or standing != last_standing:
+            write_basis(notebook.root, basis, standing)
     return report
 
 

@@ -6,8 +6,9 @@ import os
 
 import pytest
 
-from capture import safeio
-from capture.safeio import InputError, atomic_write, decode_text, load_json, load_yaml, read_bounded
+from capture import safeio, safeyaml
+from capture.safeio import InputError, atomic_write, decode_text, load_json, read_bounded
+from capture.safeyaml import load_yaml
 
 # YAML 1.1 implicit typing would turn these into booleans, sexagesimal integers, octal, floats.
 YAML_SCALARS = [
@@ -164,7 +165,7 @@ def test_the_fast_yaml_path_gives_what_the_pure_python_loader_gives(text):
     same rules (the reference): the same value, or the same error and line."""
     import yaml
 
-    if safeio._FastLoader is None:
+    if safeyaml._FastLoader is None:
         pytest.skip("PyYAML without LibYAML")
 
     def outcome(load):
@@ -173,8 +174,8 @@ def test_the_fast_yaml_path_gives_what_the_pure_python_loader_gives(text):
         except InputError as exc:
             return "error", exc.message, exc.location
 
-    assert outcome(safeio._load_fast) == outcome(
-        lambda t: yaml.load(t, Loader=safeio._StringLoader)
+    assert outcome(safeyaml._load_fast) == outcome(
+        lambda t: yaml.load(t, Loader=safeyaml._StringLoader)
     )
 
 

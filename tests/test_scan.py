@@ -84,7 +84,7 @@ def test_a_changed_basis_is_named_and_the_entries_whose_figures_changed_are_list
     monkeypatch.setenv("MASSTRAIL_BLOCK", "names")
     first = scan(Notebook.open(notebook.root), reuse=True)
     assert first.basis_changes == [] and first.basis_note() is None  # nothing to compare yet
-    assert "names" not in read_basis(notebook.root)["the plugins"].split(", ")
+    assert "names" not in read_basis(notebook.root)[0]["the plugins"].split(", ")
     assert notebook.sidecar("a/moles.md")["materials"][0]["mass_g"] is None  # 10 mmol, no M
     again = scan(Notebook.open(notebook.root), reuse=True)
     assert again.recomputed == 0 and again.basis_note() is None

@@ -44,20 +44,16 @@ def open_notebook(path: Path):
 
 
 def notebook_of(entry: Path):
-    """The notebook an entry belongs to: the nearest folder above it that holds a
-    masstrail.toml, else the entry's own folder."""
-    from capture.config import CONFIG_NAME
+    """The notebook an entry belongs to (:func:`capture.paths.notebook_root`)."""
+    from capture.paths import notebook_root
 
-    entry = entry.resolve()
-    root = next((folder for folder in [entry.parent, *entry.parent.parents]
-                 if (folder / CONFIG_NAME).is_file()), entry.parent)  # fmt: skip
-    return open_notebook(root)
+    return open_notebook(notebook_root(entry))
 
 
 def num(x: float | None, spec: str = ".3g") -> str:
     """A figure for a table: '—' for none, thousands separated above 1000 (the report's own
-    rule: :func:`capture.views.filters.figure_text`)."""
-    from capture.views.filters import figure_text
+    rule: :func:`capture.views.figures.figure_text`)."""
+    from capture.views.figures import figure_text
 
     return figure_text(x, spec)
 

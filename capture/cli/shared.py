@@ -40,7 +40,7 @@ CONFIGURED = "\0configured"  # --store given without a URL
 def _configured_store(_ctx, _param, value: str | None) -> str | None:
     if value != CONFIGURED:
         return value
-    from capture.config import CONFIG_NAME
+    from capture.paths import CONFIG_NAME
 
     return _url(None, Path.cwd() if (Path.cwd() / CONFIG_NAME).is_file() else None)
 

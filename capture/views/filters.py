@@ -42,16 +42,6 @@ class GapFilter(BaseModel):
         return True
 
 
-def figure_text(x: float | None, spec: str = ".3g") -> str:
-    """A figure as the terminal and the report show it: three significant figures, '—' for
-    none, thousands separated from 1000 up (16,043 g, not 1.6e+04 g)."""
-    if x is None:
-        return "—"
-    if abs(x) >= 1000:
-        return f"{x:,.0f}"
-    return format(x, spec)
-
-
 def markdown_text(value: object) -> object:
     """A value as plain text in Markdown: HTML in an entry (``<script>``, ``<img onerror=…>``)
     is shown, not run, by a Markdown viewer, and a ``|`` does not split a table cell."""

@@ -18,7 +18,8 @@ from typing import TYPE_CHECKING
 
 from capture.models import SEVERITY_RANK, Result
 from capture.views.charts import CardChart, bar_chart
-from capture.views.filters import GapFilter, figure_text
+from capture.views.figures import figure_text
+from capture.views.filters import GapFilter
 from capture.views.gaplist import GroupSummary
 
 if TYPE_CHECKING:

@@ -17,7 +17,8 @@ from pydantic import ValidationError
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, StructuredMaterial
-from capture.safeio import InputError, decode_text, load_json, load_yaml
+from capture.safeio import InputError, decode_text, load_json
+from capture.safeyaml import load_yaml
 
 KNOWN_KEYS = {
     "id",
