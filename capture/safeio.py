@@ -12,7 +12,6 @@ import functools
 import json
 import os
 import stat
-import tempfile
 from pathlib import Path, PureWindowsPath
 from typing import Any
 
@@ -232,7 +231,7 @@ def holds(path: Path, data: bytes) -> bool:
 def replace_atomically(path: Path, data: bytes) -> None:
     """Temp file in the same folder, written, fsynced, moved over ``path`` (see
     :func:`atomic_write`; the folder is not fsynced here)."""
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    fd, tmp = _temp_file(path)
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
@@ -243,6 +242,13 @@ def replace_atomically(path: Path, data: bytes) -> None:
         with contextlib.suppress(OSError):
             os.unlink(tmp)
         raise
+
+
+def _temp_file(path: Path) -> tuple[int, str]:
+    """A new temp file beside ``path``, named so the watcher and scans pass over it."""
+    import tempfile  # here: a command that only reads (show) need not import it
+
+    return tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
 
 
 @functools.lru_cache(maxsize=1)
@@ -275,7 +281,7 @@ def replace_all_atomically(items: list[tuple[Path, bytes]]) -> None:
     moved = 0  # temps[:moved] are in place
     try:
         for path, data in items:
-            fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+            fd, tmp = _temp_file(path)
             temps.append((tmp, path))
             with os.fdopen(fd, "wb") as fh:
                 fh.write(data)

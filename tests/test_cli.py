@@ -137,3 +137,12 @@ def test_a_large_scan_lists_only_what_needs_action_and_a_rescan_says_unchanged(n
     ]
     assert len(rows) == 203 and not any(r["recomputed"] for r in rows)
     assert rows[0]["metrics"]["e_factor"] == 2.0  # read from the sidecar, still current
+
+
+def test_show_prints_an_entry_s_text_as_written_never_as_emoji_or_markup(notebook):
+    """rich would turn ":fire:" into an emoji and "[bold]" into style: an entry's words are
+    shown as the chemist wrote them."""
+    path = notebook.write("e.md", GOOD.replace("title: good", 'title: "run :fire: [bold]B[/bold]"'))
+    res = CliRunner().invoke(cli, ["show", str(path)], env={"COLUMNS": "200"})
+    assert res.exit_code == 0, res.output
+    assert "run :fire: [bold]B[/bold]" in res.output

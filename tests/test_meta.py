@@ -9,6 +9,7 @@ import os
 import re
 from pathlib import Path
 
+import click
 import pytest
 
 from capture import hookspecs
@@ -172,11 +173,26 @@ def test_every_default_plugin_is_registered_through_the_entry_point_group():
         assert target in MODULES, target
 
 
-@pytest.mark.parametrize("command", sorted(cli.commands))
+@pytest.mark.parametrize("command", sorted(cli.list_commands(click.Context(cli))))
 def test_every_command_has_help_and_is_documented(command):
     assert (cli.commands[command].help or "").strip()
     docs = (ROOT / "README.md").read_text() + (ROOT / "DEVELOPERS.md").read_text()
     assert f"masstrail {command}" in docs
+
+
+def test_each_command_is_looked_up_in_the_module_that_defines_it():
+    """capture.cli imports a command's module when the command is asked for, by its table."""
+    import importlib
+    import pkgutil
+
+    import capture.cli as package
+    from capture.cli.common import COMMAND_MODULES
+
+    for info in pkgutil.iter_modules(package.__path__):
+        importlib.import_module(f"capture.cli.{info.name}")
+    defined = {name: command.callback.__module__.rsplit(".", 1)[1]
+               for name, command in cli.commands.items()}  # fmt: skip
+    assert defined == COMMAND_MODULES
 
 
 def test_committed_schema_equals_generated():

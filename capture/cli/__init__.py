@@ -6,12 +6,9 @@ not failures), 1 when ``--fail-on`` (or ``gaps``) found such gaps, 2 for usage o
 configuration errors. The library never imports this package.
 """
 
-from capture.cli import gaps, ord, plugins, report, route, scan, shared, show, store, watch
 from capture.cli.common import cli
 
-__all__ = ["cli", "main"]
-# registered on import
-_COMMANDS = (gaps, ord, plugins, report, route, scan, shared, show, store, watch)
+__all__ = ["cli", "main"]  # each command's module is imported when it is asked for
 
 
 def main() -> None:

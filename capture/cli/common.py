@@ -17,7 +17,34 @@ EXIT_USAGE = 2
 TABLE_ROWS = 200  # above this many entries, the scan table lists only those needing action
 
 
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+# the module of capture.cli that defines each command: it is imported when its command is
+# asked for, so one command's start-up does not pay for the others' (``show`` of a current
+# sidecar is about as quick as importing pydantic); a test holds this table to the modules
+COMMAND_MODULES = {
+    "scan": "scan", "show": "show", "watch": "watch", "gaps": "gaps", "audit": "gaps",
+    "report": "report", "export": "report", "route": "route", "import": "ord",
+    "plugins": "plugins", "schema": "plugins", "rebuild": "store", "backup": "store",
+    "history": "store", "store": "shared",
+}  # fmt: skip
+
+
+class _Commands(click.Group):
+    """The command group, each command's module imported on first use."""
+
+    def list_commands(self, ctx: click.Context) -> list[str]:
+        for name in COMMAND_MODULES:
+            self.get_command(ctx, name)
+        return super().list_commands(ctx)
+
+    def get_command(self, ctx: click.Context, name: str) -> click.Command | None:
+        if name not in self.commands and name in COMMAND_MODULES:
+            import importlib
+
+            importlib.import_module(f"capture.cli.{COMMAND_MODULES[name]}")
+        return super().get_command(ctx, name)
+
+
+@click.group(cls=_Commands, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="masstrail")
 def cli() -> None:
     """masstrail: waste records and mass metrics (E-factor, PMI) next to each notebook entry."""
@@ -73,7 +100,7 @@ def esc(text: str) -> str:
 def console():
     from rich.console import Console
 
-    return Console(highlight=False)
+    return Console(highlight=False, emoji=False)  # ":fire:" in an entry stays as written
 
 
 def entry_filters(fn):
