@@ -298,6 +298,25 @@ def test_a_quench_with_a_reagent_needs_its_amount(notebook):
     assert "liquid_volume" not in _gaps(notebook, front, said + " (2 mL).")
 
 
+def test_pouring_into_a_liquid_needs_its_volume_and_a_volume_written_first_counts(notebook):
+    """A reaction mixture poured into a liquid is quenched by it: "poured into ice-water" is a
+    missing volume, "poured into a separatory funnel" is no liquid at all; a volume written
+    before the liquid's name ("washed three times with 40 ml brine", "poured into 120 ml of
+    water") is recorded, as much as one written after it."""
+    front = "product: {name: p, mass: 0.5 g}"
+    said = "The tosylate (2.00 g) in acetone (20 mL) was heated for 2 h, cooled and poured "
+    gaps = _gaps(notebook, front, said + "into ice-water with vigorous stirring.")
+    assert gaps["liquid_volume"].item == "ice-water"
+    assert "quench" in gaps["liquid_volume"].message
+    assert "liquid_volume" not in _gaps(notebook, front, said + "into a separatory funnel.")
+    for written in ("into 120 ml of water.", "onto 80 g of ice.",
+                    "into water and washed three times with 40 ml brine."):  # fmt: skip
+        gaps = _gaps(notebook, front, said + written)
+        assert "liquid_volume" not in gaps or gaps["liquid_volume"].item == "water", written
+    gaps = _gaps(notebook, front, said + "into water and washed three times with 40 ml brine.")
+    assert gaps["liquid_volume"].item == "water"  # the water has no volume; the brine has
+
+
 def test_an_operation_in_a_sentence_that_ends_in_characterisation_is_checked(notebook):
     """ "… purified by chromatography on silica gel to afford 104 mg of the acid; mp 206 °C;
     1H NMR …": the characterisation tail is cut off and the procedure before it is checked,

@@ -221,15 +221,18 @@ def drying(ctx: Context, text: str) -> list[RecordCheck]:
 # ------------------------------------------------------------------ washes, extractions, quenches
 _LIQUID_OP = re.compile(
     r"\b(?P<verb>washed|washing|rinsed|rinsing|extracted|extracting|quenched|quenching|"
-    r"diluted|partitioned|back-extracted|acidified|basified|neutrali[sz]ed)\b(?P<mid>(?:\s+[\w-]+){0,4}?)\s+"
-    r"(?P<prep>with|into|between|using|by (?:the )?addition of|by adding)\s+"
-    r"(?P<rest>(?:(?!\b(?:washed|washing|rinsed|extracted|quenched|diluted|partitioned)\b)[^;])+)",
+    r"diluted|partitioned|back-extracted|acidified|basified|neutrali[sz]ed|poured)\b"
+    r"(?P<mid>(?:\s+[\w-]+){0,4}?)\s+"
+    r"(?P<prep>with|into|onto|between|using|by (?:the )?addition of|by adding)\s+"
+    r"(?P<rest>(?:(?!\b(?:washed|washing|rinsed|extracted|quenched|diluted|partitioned|poured)"
+    r"\b)[^;])+)",
     re.I,
 )
 _LIST_STOP = re.compile(
     r"\s*\(|,\s*(?:dried|filtered|concentrated|evaporated|and|then)\b|\s+(?:and|then)\s+(?:was|were|"
     r"dried|filtered|concentrated|evaporated|the|stirred|separated|extracted|washed)\b|"
-    r"\s+(?:to|until|before|after|for|at|under|which|while|so|giving|to give)\b",
+    r"\s+(?:to|until|before|after|for|at|under|which|while|so|giving|to give)\b|"
+    r"\s+with\s+(?:\w+\s+)?(?:stirring|cooling|shaking)\b",  # "… acid with vigorous stirring"
     re.I,
 )
 _LIST_SPLIT = re.compile(r",\s*(?:and\s+)?|\s+and\s+(?:then\s+)?(?:with\s+)?|"
@@ -237,6 +240,12 @@ _LIST_SPLIT = re.compile(r",\s*(?:and\s+)?|\s+and\s+(?:then\s+)?(?:with\s+)?|"
                          r"\s+followed by\s+|\s*/\s*")  # fmt: skip
 _LIST_LEAD = re.compile(r"^(?:successively|portions of|\d+\s+portions of|each)\s+", re.I)
 _TRAILING_JOIN = re.compile(r"(?:\s*,|\s+and|\s+then|\s+or)+\s*$", re.I)
+# a liquid named after its amount: "washed five times with 100 ml water", "poured into 150 ml
+# of water", "quenched with 2.1 ml of water": its volume is written (the reader weighs it)
+_AMOUNT_FIRST = re.compile(
+    r"^(?:\d+\s*[x×]\s*)?\d+(?:[.,]\d+)?\s*(?:[mµu]?l|litres?|liters?|[mk]?g)\.?(?:\s+of)?\s+",
+    re.I,
+)
 _TIMES = {"twice": 2, "two": 2, "three": 3, "thrice": 3, "four": 4, "2": 2, "3": 3, "4": 4}
 _TIMES_RE = re.compile(r"\b(twice|thrice|(two|three|four|[234])\s+(?:times|portions))\b", re.I)
 
@@ -256,13 +265,18 @@ def _names_in(rest: str) -> list[str]:
 
 
 def liquids(ctx: Context, text: str) -> list[RecordCheck]:
-    """Each liquid a wash, extraction or quench uses needs its volume."""
+    """Each liquid a wash, extraction or quench uses needs its volume; so does the liquid a
+    reaction mixture is poured into ("poured into ice-water": a quench)."""
     checks = []
     for m in _LIQUID_OP.finditer(text):
-        op = operation_of(m.group("verb"))
+        verb = m.group("verb").lower()
+        op = "quench" if verb == "poured" else operation_of(verb)
         times = _TIMES_RE.search(text[m.start() : m.end() + 40])
         n = _TIMES.get((times.group(2) or times.group(1)).lower(), 1) if times else 1
         for name in _names_in(m.group("rest")):
+            if written := _AMOUNT_FIRST.match(name):
+                checks.append(_check(op, "liquid volume", name[written.end() :], text, None))
+                continue
             info = ctx.resolve(name)
             liquid = info is not None and info.category in LIQUID_CATEGORIES
             quencher = op == "quench" and info is not None  # "quenched with dimethyl sulfide"
@@ -502,7 +516,8 @@ _RULES = (
     (lambda ctx, text, seen: filtration(ctx, text), ("filt", "funnel", "passed through")),
     (lambda ctx, text, seen: drying(ctx, text), ("dried",)),
     (lambda ctx, text, seen: liquids(ctx, text),
-     ("wash", "rins", "extract", "quench", "dilut", "partition", "acidif", "basif", "neutrali")),
+     ("wash", "rins", "extract", "quench", "dilut", "partition", "acidif", "basif", "neutrali",
+      "pour")),
     (chromatography, ("chromatograph", "flash", "purified on", "elut", "isco", "isolera")),
     (lambda ctx, text, seen: recrystallisation(ctx, text), ("crystalli", "triturat")),
     (aspirator, ("aspirator", "water-jet", "water jet", "water pump")),
