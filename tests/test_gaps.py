@@ -317,6 +317,17 @@ def test_pouring_into_a_liquid_needs_its_volume_and_a_volume_written_first_count
     assert gaps["liquid_volume"].item == "water"  # the water has no volume; the brine has
 
 
+def test_a_mixture_with_its_volume_is_recorded_for_each_of_its_liquids(notebook):
+    """ "washed with cold MeOH/H2O (5 mL, 1:1)": the 5 mL are the mixture's, so neither
+    liquid is a missing record; "washed with a mixture of hexane/ether" with no volume is."""
+    front = "product: {name: p, mass: 0.5 g}"
+    said = "The hydrazone (2.00 g) in ethanol (20 mL) was filtered, and the solid was washed with "
+    assert "liquid_volume" not in _gaps(notebook, front, said + "cold MeOH/H2O (5 mL, 1:1).")
+    notebook.write("e.md", entry_md(front, said + "a 1:1 mixture of hexane/ether and dried."))
+    (result,) = notebook.scan().results
+    assert sorted(g.item for g in result.gaps if g.kind == "liquid_volume") == ["ether", "hexane"]
+
+
 def test_an_operation_in_a_sentence_that_ends_in_characterisation_is_checked(notebook):
     """ "… purified by chromatography on silica gel to afford 104 mg of the acid; mp 206 °C;
     1H NMR …": the characterisation tail is cut off and the procedure before it is checked,

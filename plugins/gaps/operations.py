@@ -237,8 +237,13 @@ _LIST_STOP = re.compile(
 )
 _LIST_SPLIT = re.compile(r",\s*(?:and\s+)?|\s+and\s+(?:then\s+)?(?:with\s+)?|"
                          r"\s+then\s+(?:with\s+)?|"
-                         r"\s+followed by\s+|\s*/\s*")  # fmt: skip
-_LIST_LEAD = re.compile(r"^(?:successively|portions of|\d+\s+portions of|each)\s+", re.I)
+                         r"\s+followed by\s+")  # fmt: skip
+_MIXTURE_SPLIT = re.compile(r"\s*/\s*")  # "MeOH/H2O": each liquid of a mixture
+_LIST_LEAD = re.compile(
+    r"^(?:successively|portions of|\d+\s+portions of|each|(?:an?\s+)?(?:\d+:\d+\s+)?"
+    r"(?:mixed solvent|(?:solvent\s+)?mixture)\s+of)\s+",
+    re.I,
+)
 _TRAILING_JOIN = re.compile(r"(?:\s*,|\s+and|\s+then|\s+or)+\s*$", re.I)
 # a liquid named after its amount: "washed five times with 100 ml water", "poured into 150 ml
 # of water", "quenched with 2.1 ml of water": its volume is written (the reader weighs it)
@@ -250,7 +255,8 @@ _TIMES = {"twice": 2, "two": 2, "three": 3, "thrice": 3, "four": 4, "2": 2, "3":
 _TIMES_RE = re.compile(r"\b(twice|thrice|(two|three|four|[234])\s+(?:times|portions))\b", re.I)
 
 
-def _names_in(rest: str) -> list[str]:
+def _names_in(rest: str) -> list[tuple[str, str | None]]:
+    """The liquids a list names, each with the mixture it is part of ("MeOH/H2O"), if any."""
     cut = _LIST_STOP.search(rest)
     head = rest[: cut.start()] if cut else rest
     head = _TRAILING_JOIN.sub("", head)  # "water and " before the next operation's verb
@@ -258,10 +264,19 @@ def _names_in(rest: str) -> list[str]:
     for piece in _LIST_SPLIT.split(head.strip().rstrip(".")):
         piece = _LIST_LEAD.sub("", piece.strip())
         piece = re.sub(r"\s+(?:twice|thrice|three times|two times|several times)$", "", piece)
-        name = clean_name(piece) if piece else None
-        if name:
-            names.append(name)
+        parts = _MIXTURE_SPLIT.split(piece) if piece else []
+        mixture = clean_name(piece) if len(parts) > 1 else None
+        for part in parts:
+            name = clean_name(part) if part else None
+            if name:
+                names.append((name, mixture))
     return names
+
+
+def _recorded(ctx: Context, name: str, mixture: str | None, stage: str) -> bool:
+    """A liquid's amount is recorded, by itself or as the mixture it is part of ("washed with
+    MeOH/H2O (5 mL, 1:1)")."""
+    return ctx.recorded(name, stage) or (mixture is not None and ctx.recorded(mixture, stage))
 
 
 def liquids(ctx: Context, text: str) -> list[RecordCheck]:
@@ -273,7 +288,7 @@ def liquids(ctx: Context, text: str) -> list[RecordCheck]:
         op = "quench" if verb == "poured" else operation_of(verb)
         times = _TIMES_RE.search(text[m.start() : m.end() + 40])
         n = _TIMES.get((times.group(2) or times.group(1)).lower(), 1) if times else 1
-        for name in _names_in(m.group("rest")):
+        for name, mixture in _names_in(m.group("rest")):
             if written := _AMOUNT_FIRST.match(name):
                 checks.append(_check(op, "liquid volume", name[written.end() :], text, None))
                 continue
@@ -283,7 +298,7 @@ def liquids(ctx: Context, text: str) -> list[RecordCheck]:
             if not (liquid or quencher) and not re.search(r"\b(solution|water|brine|acid|aq)\b",
                                                           name, re.I):  # fmt: skip
                 continue  # "extracted into the organic phase"
-            if ctx.recorded(name, "workup"):
+            if _recorded(ctx, name, mixture, "workup"):
                 checks.append(_check(op, "liquid volume", name, text, None))
                 continue
             base = ctx.scale.reaction_solvent_ml
@@ -397,11 +412,11 @@ def recrystallisation(ctx: Context, text: str) -> list[RecordCheck]:
     checks = []
     for m in _RECRYST.finditer(text):
         op = "trituration" if m.group("op").lower().startswith("trit") else "recrystallisation"
-        for name in _names_in(m.group("solvent")):
+        for name, mixture in _names_in(m.group("solvent")):
             info = ctx.resolve(name)
             if info is None or info.category not in LIQUID_CATEGORIES:
                 continue
-            if ctx.recorded(name, "purification"):
+            if _recorded(ctx, name, mixture, "purification"):
                 checks.append(_check(op, "solvent volume", name, text, None))
                 continue
             per_g, basis = al.value("recrystallisation_ml_per_g", ctx.config)
