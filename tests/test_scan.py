@@ -122,6 +122,24 @@ def test_the_scan_command_prints_the_change_and_a_damaged_basis_file_is_not_an_e
     assert json.loads((notebook.root / ".masstrail" / "basis.json").read_text())["parts"]
 
 
+def test_a_changed_allowance_table_recomputes_every_entry_and_is_named(
+    notebook, monkeypatch, tmp_path
+):
+    """The allowances (data/allowances.toml) size the estimates: a new table is a new basis,
+    as new material data is, so no result computed with the old one is called current."""
+    from masstrail_plugins.gaps import allowances
+
+    notebook.write("a/good.md", GOOD)
+    assert scan(Notebook.open(notebook.root), reuse=True).recomputed == 1
+    assert scan(Notebook.open(notebook.root), reuse=True).recomputed == 0
+    changed = tmp_path / "allowances.toml"
+    changed.write_text(allowances.TABLE_FILE.read_text(encoding="utf-8") + "\n# edited\n")
+    monkeypatch.setattr(allowances, "TABLE_FILE", changed)
+    now = scan(Notebook.open(notebook.root), reuse=True)
+    assert now.recomputed == 1
+    assert now.basis_changes == ["masstrail's consumable allowances (allowances.toml) changed"]
+
+
 def test_basis_changes_in_words():
     from capture.fingerprint import basis_changes
 

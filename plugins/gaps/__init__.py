@@ -13,10 +13,12 @@ The built-in rules run in this order:
    with their moles, stated yields that disagree with the masses;
 3. ``grading`` (``masstrail_grade_gaps``): each gap's severity from its allowance.
 
-Allowances come from ``allowances`` and ``data/allowances.toml``; a lab overrides
-them in ``masstrail.toml``.
+Allowances come from ``allowances`` and ``data/allowances.toml`` (whose version is part of
+every result's fingerprint, ``masstrail_knowledge_versions``); a lab overrides them in
+``masstrail.toml``.
 """
 
+from masstrail_plugins.gaps.allowances import allowances_version
 from masstrail_plugins.gaps.grading import grade_by_estimate
 from masstrail_plugins.gaps.operations import check_operations
 from masstrail_plugins.gaps.reading import (
@@ -33,6 +35,7 @@ from masstrail_plugins.gaps.records import (
 )
 
 __all__ = [
+    "allowances_version",
     "check_operations",
     "grade_by_estimate",
     "plausibility_gaps",

@@ -10,12 +10,14 @@ teaching-lab run are not given the same allowance.
 from __future__ import annotations
 
 import functools
+import hashlib
 import math
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
 from capture.config import LabConfig
+from capture.hookspecs import hookimpl
 from capture.models import MaterialLine, ProductOut
 
 TABLE_FILE = Path(__file__).resolve().parent.parent / "data" / "allowances.toml"
@@ -27,6 +29,14 @@ def table() -> dict[str, tuple[float, str]]:
     """key → (default value, basis)."""
     raw = tomllib.loads(TABLE_FILE.read_text(encoding="utf-8"))
     return {k: (float(v["value"]), v["basis"]) for k, v in raw.items()}
+
+
+@hookimpl(specname="masstrail_knowledge_versions")
+def allowances_version(config: LabConfig) -> list[tuple[str, str]]:
+    """The version of the allowance table: a changed allowance changes the estimates, so every
+    result is computed again (a lab's own overrides are part of its configuration)."""
+    digest = hashlib.sha256(TABLE_FILE.read_bytes()).hexdigest()[:12]
+    return [("masstrail's consumable allowances (allowances.toml)", digest)]
 
 
 def value(key: str, config: LabConfig) -> tuple[float, str]:
