@@ -23,12 +23,16 @@ _TOKEN_MAP = {
     "satd": "saturated",
     "aq.": "aqueous",
     "aq": "aqueous",
+    "conc.": "concentrated",  # "conc. sulfuric acid" is "concentrated sulfuric acid"
+    "conc": "concentrated",
+    "concd.": "concentrated",
 }
 
 
 @functools.lru_cache(maxsize=8192)
 def material_key(name: str) -> str:
-    """The form in which names are compared: case, spacing, dashes and 'sat. aq.' folded."""
+    """The form in which names are compared: case, spacing, dashes and 'sat. aq. conc.'
+    folded."""
     s = unicodedata.normalize("NFKC", name).replace("\u2212", "-").replace("–", "-")
     s = re.sub(r"\s+", " ", s.replace("·", ".")).strip().strip(".,;:").casefold()
     s = _OXIDATION_STATE.sub(r"(\1)", s)  # "palladium (II) acetate" = "palladium(II) acetate"

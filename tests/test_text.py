@@ -41,6 +41,17 @@ def _found(body: str):
             ],
         ),
         ("Pd(dppf)Cl2 (0.15 g) was added.", [("Pd(dppf)Cl2", [(0.15, "g", 1)], "reaction")]),
+        (  # locants written with a space after the comma belong to the name
+            "2, 6-Lutidine (1.1 mL) was added to the acid in N, N-dimethylformamide (8 mL).",
+            [
+                ("2, 6-Lutidine", [(1.1, "mL", 1)], "reaction"),
+                ("N, N-dimethylformamide", [(8.0, "mL", 1)], "reaction"),
+            ],
+        ),
+        (
+            "The diol was taken up in 6 mL of N, O-bis(trimethylsilyl)acetamide.",
+            [("N, O-bis(trimethylsilyl)acetamide", [(6.0, "mL", 1)], "reaction")],
+        ),
         (
             "The solid was recrystallised from ethanol (12 mL).",
             [("ethanol", [(12.0, "mL", 1)], "purification")],

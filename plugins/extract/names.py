@@ -132,7 +132,8 @@ def name_before(text: str) -> tuple[str | None, str | None]:
         vessel = i < len(words) - 1 and w.lower() in _VESSELS  # "flask THF (1 mL)": THF
         support = w.lower() == "on" and 0 < i < len(words) - 1 and _on_support(
             words[i - 1], " " + " ".join(words[i + 1 :]))  # "palladium on carbon"  # fmt: skip
-        if ((w.lower() in BOUNDARY_WORDS and not support) or w[-1] in ",;:" or ends_sentence
+        comma = w[-1] in ",;:" and not (i + 1 < len(words) and _locants(w, words[i + 1]))
+        if ((w.lower() in BOUNDARY_WORDS and not support) or comma or ends_sentence
                 or vessel or _VERB_LIKE.match(w)) and _balanced(words[i + 1 :]):  # fmt: skip
             start = i + 1  # "with stirring thionyl chloride", "activated charcoal"
             break
@@ -148,6 +149,19 @@ def name_before(text: str) -> tuple[str | None, str | None]:
 
 
 _WORD = re.compile(r"\S+")
+_NEXT_WORD = re.compile(r"\s+(\S+)")
+# a list of locants written with a space: "N, N-dimethylformamide", "2, 6-dichloropyridine"
+# (heteroatom letters with letters, digits with digits; "Step B, 7-chloro…" is not one)
+_LOCANT = re.compile(r"(?:([NOSP])|(\d{1,2}))['′]?")
+
+
+def _locants(word: str, following: str) -> bool:
+    """True when ``word`` ("N,") and ``following`` ("N-dimethyl…") are one name's locants."""
+    a = _LOCANT.fullmatch(word[:-1]) if word.endswith(",") else None
+    b = _LOCANT.match(following)
+    if a is None or b is None or following[b.end() : b.end() + 1] not in {"-", ","}:
+        return False
+    return (a.group(1) is None) == (b.group(1) is None)
 
 
 def name_after(text: str) -> tuple[str | None, str | None, int]:
@@ -184,7 +198,9 @@ def name_after(text: str) -> tuple[str | None, str | None, int]:
 
         words.append(w)
         ends.append(m.end())
-        if (w[-1] in ",;:" and _balanced(words)) or len(words) > MAX_WORDS + 2:
+        nxt = _NEXT_WORD.match(text, m.end())
+        comma = w[-1] in ",;:" and not (nxt and _locants(w, nxt.group(1)))
+        if (comma and _balanced(words)) or len(words) > MAX_WORDS + 2:
             break
         if low in _VESSELS and _balanced(words):
             break  # "a 50 ml round bottomed flask THF (1 mL) was added": the flask ends there

@@ -7,6 +7,7 @@ A public module, not a plugin: the resolvers ``materials`` and ``names`` both us
 from __future__ import annotations
 
 import functools
+import re
 import tomllib
 from pathlib import Path
 from typing import Any
@@ -130,3 +131,14 @@ def info_from_formula(name: str, formula: str) -> MaterialInfo | None:
         category="reagent",
         source="the formula given in the entry",
     )
+
+
+# a name followed by its short form: "iodotrimethylsilane (TMSI)", "N,N-diisopropylethylamine
+# (DIPEA)"; not a bracket that is part of the name ("… (E)-…", "bis(…)", "(2S)-…")
+_ALIAS = re.compile(r"^(?P<name>.*\S)\s+\((?P<alias>[A-Za-z][\w+-]{1,11})\)$")
+
+
+def name_and_alias(name: str) -> tuple[str, str] | None:
+    """(the name, its short form) for a name written with its short form in brackets."""
+    m = _ALIAS.match(name.strip())
+    return (m["name"], m["alias"]) if m else None

@@ -21,7 +21,7 @@ from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import MaterialInfo, MaterialLine, Stage
 from masstrail_plugins.prose import CATEGORY_STAGE, stage_of_role
-from masstrail_plugins.resolve.knowledge import info_from_formula
+from masstrail_plugins.resolve.knowledge import info_from_formula, name_and_alias
 
 
 def solvent_stand_in(
@@ -50,12 +50,23 @@ def solvent_stand_in(
     )
 
 
+def _named(name: str, resolve: Callable[[str], MaterialInfo | None]) -> MaterialInfo | None:
+    """The knowledge of a name, or of the name before its short form in brackets
+    ("iodotrimethylsilane (TMSI)"); never of the short form alone, which may name several
+    compounds (TMSI is iodotrimethylsilane and N-trimethylsilylimidazole)."""
+    info = resolve(name)
+    if info is None and (parts := name_and_alias(name)):
+        info = resolve(parts[0])
+    return info
+
+
 @hookimpl(trylast=True, specname="masstrail_line_material")
 def material_of_line(
     line: MaterialLine, resolve: Callable[[str], MaterialInfo | None], config: LabConfig
 ) -> MaterialInfo | None:
-    """The name's knowledge, the entry's own formula, and a solution's solvent stand-in."""
-    info = resolve(line.name)
+    """The name's knowledge (or, failing that, of the name before its short form in brackets),
+    the entry's own formula, and a solution's solvent stand-in."""
+    info = _named(line.name, resolve)
     if line.formula:
         own = info_from_formula(line.name, line.formula)
         if own is not None and info is not None:

@@ -35,6 +35,7 @@ from masstrail_plugins.resolve.knowledge import (
     apply_lab_density,
     builtin_data,
     data_version,
+    name_and_alias,
 )
 
 
@@ -81,6 +82,8 @@ def resolve_builtin(name: str, config: LabConfig) -> MaterialInfo | None:
     if info is not None and (rec := data.index.get(material_key(info.name))) is not None:
         return apply_lab_density(data.info(rec), name, config)  # "CC1=CC=CC=C1": curated toluene
     info = info or _from_smiles(name) or _dilute_solution(name, config)
+    if info is None and (parts := name_and_alias(name)):  # "N,N-diisopropylethylamine (DIPEA)"
+        return resolve_builtin(parts[0], config)  # never by the short form: "TMSI" is two
     return None if info is None else apply_lab_density(info, name, config)
 
 
