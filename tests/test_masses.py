@@ -64,6 +64,15 @@ def test_volume_without_density_or_material_is_a_problem_not_a_guess():
     assert "masstrail.toml" in got.problem
 
 
+def test_a_mixture_without_its_ratio_asks_for_the_ratio_not_for_new_material_data():
+    """ "THF/water (20 mL)": both liquids are known, their proportions are not; the advice is
+    to note the ratio, not to add 'THF/water' to the material data."""
+    got = _weigh("THF/water", "20 mL")
+    assert got.mass_g is None and got.problem_kind == "unknown_material"
+    assert "proportions are not given" in got.problem and "'THF/water 1:1 (20 mL)'" in got.problem
+    assert "proportions" not in _weigh("Kestrel wash blend", "25 mL").problem
+
+
 def test_the_basis_gives_the_density_used_so_the_mass_can_be_redone():
     """40 mL of DCM at 1.3266 g/mL (dichloromethane, 20 °C: CRC Handbook / Riddick–Bunger–
     Sakano as quoted in FIELD.md, there marked from memory). The basis must not round the

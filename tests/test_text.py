@@ -48,6 +48,24 @@ def _found(body: str):
                 ("N, N-dimethylformamide", [(8.0, "mL", 1)], "reaction"),
             ],
         ),
+        (  # a mixture's ratio given among its amounts, in either order, or before its name
+            "The salt was washed with cold EtOH/water (6 mL, 1:2) and eluted with "
+            "cyclohexane/EtOAc (3:1, 400 mL).",
+            [
+                ("EtOH", [(2.0, "mL", 1)], "workup"),
+                ("water", [(4.0, "mL", 1)], "workup"),
+                ("cyclohexane", [(300.0, "mL", 1)], "purification"),
+                ("EtOAc", [(100.0, "mL", 1)], "purification"),
+            ],
+        ),
+        (
+            "The ester was hydrolysed in a 2:1:1 mixture of THF/MeOH/water (8.0 mL).",
+            [
+                ("THF", [(4.0, "mL", 1)], "reaction"),
+                ("MeOH", [(2.0, "mL", 1)], "reaction"),
+                ("water", [(2.0, "mL", 1)], "reaction"),
+            ],
+        ),
         (
             "The diol was taken up in 6 mL of N, O-bis(trimethylsilyl)acetamide.",
             [("N, O-bis(trimethylsilyl)acetamide", [(6.0, "mL", 1)], "reaction")],

@@ -58,8 +58,9 @@ _MIX_SLASH_RATIO = re.compile(
 )
 
 
-_MIX_RATIO_SLASH = re.compile(
-    rf"(?P<r>{_RATIO})\s*(?:v/v\s+)?(?P<names>{_NAME_TOKEN}(?:\s*/\s*{_NAME_TOKEN})+)\s*$"
+_MIX_RATIO_SLASH = re.compile(  # "4:1 hexane/EtOAc", "a 1:1:1 mixture of THF/MeOH/water"
+    rf"(?P<r>{_RATIO})\s*(?:v/v\s+)?(?:(?:mixture|mixed solvent|solution)\s+of\s+)?"
+    rf"(?P<names>{_NAME_TOKEN}(?:\s*/\s*{_NAME_TOKEN})+)\s*$"
 )
 
 
@@ -79,16 +80,38 @@ def mixture_before(text: str) -> tuple[str, list[tuple[str, float]]] | None:
         return None
     for rx in (_MIX_SLASH_RATIO, _MIX_RATIO_SLASH):
         m = rx.search(text)
-        if not m:
-            continue
-        names = [n.strip() for n in m.group("names").split("/")]
-        ratio = [float(x) for x in m.group("r").replace(" ", "").split(":")]
-        if len(names) != len(ratio) or sum(ratio) <= 0:
-            continue
-        cleaned = [clean_name(n) for n in names]
-        if all(cleaned):
-            total = sum(ratio)
-            return m.group(0).strip(), [(c, r / total) for c, r in zip(cleaned, ratio, strict=True)]
+        if m:
+            found = _mixture(m.group("names"), m.group("r"), m.group(0).strip())
+            if found is not None:
+                return found
+    return None
+
+
+def _mixture(names: str, ratio: str, written: str) -> tuple[str, list[tuple[str, float]]] | None:
+    """("A/B", "4:1") → (written, [(A, 0.8), (B, 0.2)]), or None when they do not pair up."""
+    split = [n.strip() for n in names.split("/")]
+    shares = [float(x) for x in ratio.replace(" ", "").split(":")]
+    if len(split) != len(shares) or sum(shares) <= 0:
+        return None
+    cleaned = [clean_name(n) for n in split]
+    if not all(cleaned):
+        return None
+    total = sum(shares)
+    return written, [(c, r / total) for c, r in zip(cleaned, shares, strict=True)]
+
+
+_RATIO_PART = re.compile(rf"^(?P<r>{_RATIO})\s*(?:v/v|by volume)?$")
+
+
+def mixture_in(name: str | None, content: str) -> tuple[str, list[tuple[str, float]]] | None:
+    """A mixture named before a bracket that gives its ratio among its amounts:
+    "hexane/EtOAc (4:1, 500 mL)", "MeOH/H2O (5 mL, 1:1)"."""
+    if not name or "/" not in name or ":" not in content:
+        return None
+    for part, _ in parts(content, 0):
+        m = _RATIO_PART.match(part)
+        if m:
+            return _mixture(name, m.group("r"), f"{name} {m.group('r')}")
     return None
 
 

@@ -45,6 +45,7 @@ from masstrail_plugins.extract.brackets import (
     PERCENT_ONLY,
     Group,
     mixture_before,
+    mixture_in,
     parts,
     read_group,
 )
@@ -414,6 +415,8 @@ class _Reading:
         before = self.head[max(0, gs - 400) : gs]
         mixture = mixture_before(before)
         name, what = (mixture[0], None) if mixture else name_before(before)
+        if mixture is None and (given := mixture_in(name, content)):  # "hexane/EtOAc (4:1, …)"
+            mixture, name = given, given[0]
         offset = self.start + gs + 1
         if name is None and what is None and mixture is None and self._name_after_bracket(gs):
             return

@@ -14,6 +14,8 @@ approximate amounts say so.
 
 from __future__ import annotations
 
+import re
+
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import AmountMention, MassAssignment, MassContext, MaterialInfo, MaterialLine
@@ -112,6 +114,22 @@ def weigh_line(
     return got
 
 
+# "THF/water", "acetonitrile:water", "MTBE/acetone/water": liquids mixed in a ratio not given
+_MIXTURE = re.compile(r"[A-Za-z][^/:]*(?:\s*[/:]\s*[A-Za-z][^/:]*)+")
+
+
+def _unknown(line: MaterialLine, volume: AmountMention) -> str:
+    """Why a volume of a material the data does not know cannot be weighed, and what to do."""
+    if _MIXTURE.fullmatch(line.name) and not _first(line, "concentration"):
+        return (f"{line.name!r} is a mixture whose proportions are not given, so {volume.text} "
+                f"cannot be weighed; note its ratio by volume (e.g. '{line.name} 1:1 "
+                f"({volume.text})') or weigh it")  # fmt: skip
+    return (
+        f"{line.name!r} is not in the material data, so {volume.text} cannot be weighed; "
+        "record the mass, or add the material to masstrail.toml"
+    )
+
+
 def _weigh(
     line: MaterialLine, info: MaterialInfo | None, context: MassContext
 ) -> MassAssignment | None:
@@ -125,12 +143,9 @@ def _weigh(
     volume = _first(line, "volume")
     if volume is not None:
         if info is None:
-            return MassAssignment(
-                moles_mmol=_moles(line, info, None),
-                problem=f"{line.name!r} is not in the material data, so {volume.text} cannot "
-                "be weighed; record the mass, or add the material to masstrail.toml",
-                problem_kind="unknown_material",
-            )
+            return MassAssignment(moles_mmol=_moles(line, info, None),
+                                  problem=_unknown(line, volume),
+                                  problem_kind="unknown_material")  # fmt: skip
         if not info.density_g_ml:
             by_moles = _weigh_by_moles(line, info, volume)
             if by_moles is not None:
