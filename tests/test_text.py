@@ -58,6 +58,23 @@ def _found(body: str):
                 ("EtOAc", [(100.0, "mL", 1)], "purification"),
             ],
         ),
+        (  # an amount before its mixture: the ratio before, after or around the names
+            "The filter cake was washed with 300 mL of a 95/5 solution of DCM/MeOH and the "
+            "column eluted with 200 mL of 3:1 pentane/ether.",
+            [
+                ("DCM", [(285.0, "mL", 1)], "workup"),
+                ("MeOH", [(15.0, "mL", 1)], "workup"),
+                ("pentane", [(150.0, "mL", 1)], "purification"),
+                ("ether", [(50.0, "mL", 1)], "purification"),
+            ],
+        ),
+        (
+            "The column was eluted with 120 mL of a 5:1 mixture of heptane and acetone.",
+            [
+                ("heptane", [(100.0, "mL", 1)], "purification"),
+                ("acetone", [(20.0, "mL", 1)], "purification"),
+            ],
+        ),
         (
             "The ester was hydrolysed in a 2:1:1 mixture of THF/MeOH/water (8.0 mL).",
             [

@@ -100,6 +100,27 @@ def _mixture(names: str, ratio: str, written: str) -> tuple[str, list[tuple[str,
     return written, [(c, r / total) for c, r in zip(cleaned, shares, strict=True)]
 
 
+# after an amount: "500 mL of a 90/10 solution of CH2Cl2/MeOH", "of a 4:1 mixture of hexane
+# and EtOAc" (a ratio written with a slash is one only between numbers)
+_MIX_AFTER = re.compile(
+    rf"\s*of\s+(?:an?\s+)?(?P<r>\d+(?:\.\d+)?(?:\s*[:/]\s*\d+(?:\.\d+)?)+)\s*(?:v/v\s+)?"
+    rf"(?:mixture|solution|mixed solvent)\s+of\s+"
+    rf"(?P<names>{_NAME_TOKEN}(?:\s*/\s*{_NAME_TOKEN})+|"
+    rf"{_NAME_TOKEN}(?:\s*,\s*{_NAME_TOKEN})*,?\s+and\s+{_NAME_TOKEN})"
+)
+
+
+def mixture_after(text: str, pos: int) -> tuple[tuple[str, list[tuple[str, float]]], int] | None:
+    """A mixture named with its ratio right after an amount that ends at ``pos`` ("of a 9:1
+    mixture of A and B"): the mixture and where its mention ends."""
+    m = _MIX_AFTER.match(text, pos)
+    if m is None:
+        return None
+    names = re.sub(r",?\s+and\s+|\s*,\s*", "/", m.group("names"))
+    found = _mixture(names, m.group("r").replace("/", ":"), " ".join(m.group(0).split()[1:]))
+    return (found, m.end()) if found is not None else None
+
+
 _RATIO_PART = re.compile(rf"^(?P<r>{_RATIO})\s*(?:v/v|by volume)?$")
 
 

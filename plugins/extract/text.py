@@ -44,6 +44,7 @@ from masstrail_plugins.extract.brackets import (
     MAYBE_AMOUNT,
     PERCENT_ONLY,
     Group,
+    mixture_after,
     mixture_before,
     mixture_in,
     parts,
@@ -405,9 +406,31 @@ class _Reading:
                 continue
             taken = _TAKEN_OUT.match(self.head, end)
             role = "intermediate" if taken else self._role(q.start, what, end)
+            mixed = self._mixture_after(pos, name, end) if role is None else None
+            if mixed is not None and self._add_mixture(mixed[0], amounts, q.start):
+                done = mixed[1]  # "500 mL of 4:1 hexane/EtOAc": each liquid its share
+                continue
             said = self.head[pos:end]
             self._add(name or what, amounts, role, q.start, note=_crude(role, name, said))
             done = end
+
+    def _mixture_after(self, pos: int, name: str | None, end: int) -> tuple | None:
+        """The mixture an amount ending at ``pos`` names, with where it ends: "of a 90/10
+        solution of CH2Cl2/MeOH", or a name that is one ("4:1 hexane/EtOAc")."""
+        if (found := mixture_after(self.head, pos)) is not None:
+            return found
+        mix = mixture_before(name) if name and "/" in name else None
+        return (mix, end) if mix is not None and mix[0] == name.strip() else None
+
+    def _add_mixture(self, mixture: tuple, amounts: list[AmountMention], pos: int) -> bool:
+        """Add a mixture's liquids, each its share of the volume; False when no volume is
+        stated (a mixture by mass is one line, as written)."""
+        group = Group(mixture[0], mixture)
+        group.amounts, group.texts = amounts, [a.text for a in amounts]
+        op, stage = self.s.operation(pos)
+        lines = _lines_for(group, op, stage, self.s.evidence)
+        self.lines += lines
+        return bool(lines)
 
     # ---------------------------------------------------------------- brackets
     def _bracket(self, gs: int) -> None:
