@@ -310,7 +310,7 @@ def _clean(name: str, max_len: int) -> tuple[str | None, str | None]:
         if stripped == name:
             break
         name = stripped
-    name = name.strip(" ,;:")
+    name = name.strip(" ,;:").rstrip("-–").rstrip()  # "chloroacetyl chloride-(0.62 g)": a slip
     if not name or len(name) > max_len or not _LETTER.search(name):
         return None, None
     words = name.split()

@@ -58,6 +58,10 @@ def _found(body: str):
                 ("EtOAc", [(100.0, "mL", 1)], "purification"),
             ],
         ),
+        (  # a hyphen slipped in before the bracket is not part of the name
+            "To the amine was added bromoacetyl bromide-(0.40 mL).",
+            [("bromoacetyl bromide", [(0.40, "mL", 1)], "reaction")],
+        ),
         (  # an amount before its mixture: the ratio before, after or around the names
             "The filter cake was washed with 300 mL of a 95/5 solution of DCM/MeOH and the "
             "column eluted with 200 mL of 3:1 pentane/ether.",
