@@ -137,6 +137,10 @@ def _ledger(body: str):
             [("equipment", "three-necked flask", "250 mL"), (None, "diol", "4.0 g"),
              (None, "THF", "30 mL")],
         ),
+        (  # the size of a run is a condition, not a material added
+            "Two runs were made, each on a 400 mg scale, and the diol (0.40 g) was added.",
+            [("condition", "scale", "400 mg"), (None, "diol", "0.40 g")],
+        ),
         (  # a condition, and what left the flask
             "The solution was concentrated to about 15 mL and 40 mL of hexane was distilled off.",
             [("condition", "condition", "about 15 mL"),
@@ -151,8 +155,8 @@ def _ledger(body: str):
             [("product", "amide", "1.45 g"), ("characterisation", "2 mg", "2 mg")],
         ),
     ],
-    ids=["classes", "intermediate-sample", "equipment", "condition-taken-out", "unread",
-         "characterisation-tail"],
+    ids=["classes", "intermediate-sample", "equipment", "scale", "condition-taken-out",
+         "unread", "characterisation-tail"],
 )  # fmt: skip
 def test_every_quantity_is_accounted_for(body, expected):
     assert _ledger(body) == expected

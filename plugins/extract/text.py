@@ -98,6 +98,12 @@ _PER = re.compile(r"\s*(?:per|for\s+each)\s", re.I)
 _PERCENT_REMARK = re.compile(r"\d+(?:[.,]\d+)?\s*%\s+\w")  # "(35% calculated from …)"
 # "a SNAP 25 g column", "(330g column)": a prepacked column is sold by its silica's mass
 _COLUMN_AFTER = re.compile(r"\s*(?:[\w-]+\s+){0,2}?(?:column|cartridge)s?\b", re.I)
+# "each 600 mg scale", "a 2-g batch", "200mg trial purification": the size of a run, no material
+_SCALE_AFTER = re.compile(
+    r"[\s-]*(?:trial\s+|test\s+)?(?:scale|batch|run|experiment|purification|"
+    r"reaction(?!\s+(?:mixture|solution|solvent|medium|vessel|flask|vial|tube|reactor)))\b",
+    re.I,
+)
 _EQUIPMENT_AFTER = re.compile(
     r"[\s,.-]*(?:[\w-]+\s+){0,4}?(?:flask|vessel|reactor|vial|tube|beaker|bottle|autoclave|"
     r"funnel|trap|condenser)s?\b",
@@ -387,6 +393,10 @@ class _Reading:
             if taken:  # "60 mL was collected for reuse"
                 said = self.head[taken.start() : taken.end() + 30].split(",")[0]
                 self._add(" ".join(said.split()), amounts, "intermediate", q.start)
+                done = pos
+                continue
+            if _SCALE_AFTER.match(self.head, pos):  # "each 600 mg scale": a run's size
+                self._add("scale", amounts, "condition", q.start)
                 done = pos
                 continue
             if _COLUMN_AFTER.match(self.head, pos):  # "a SNAP 25 g column": the silica in it
