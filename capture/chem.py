@@ -34,6 +34,7 @@ def material_key(name: str) -> str:
     """The form in which names are compared: case, spacing, dashes and 'sat. aq. conc.'
     folded."""
     s = unicodedata.normalize("NFKC", name).replace("\u2212", "-").replace("–", "-")
+    s = s.replace("—", "-")  # "10% Pd—C": an em dash typed for a hyphen
     s = re.sub(r"\s+", " ", s.replace("·", ".")).strip().strip(".,;:").casefold()
     s = _OXIDATION_STATE.sub(r"(\1)", s)  # "palladium (II) acetate" = "palladium(II) acetate"
     if s[:1].isdigit():  # "2 mol/L HCl" = "2N HCl" = "2 M aq. HCl" (= "2 m hcl", "2 n hcl")

@@ -224,7 +224,8 @@ _LEADING = re.compile(
     r"^(?:a|an|the|to|then|next|finally|additional|more|fresh|further|dry|anhydrous|"
     r"freshly\s+distilled|degassed|distilled|cold|ice-cold|hot|warm|chilled|solid|neat|"
     r"another|excess|wet|little|small\s+amount\s+of|catalyst|reagent|ligand|crude|"
-    r"absolute|abs\.|portions?\s+of|desired|expected|required)\s+",
+    r"absolute|abs\.|portions?\s+of|desired|expected|required|(?:finely\s+)?powdered|"
+    r"pulveri[sz]ed|crushed|granular|thereto|successively|subsequently)\s+",
     re.I,
 )
 

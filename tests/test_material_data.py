@@ -62,6 +62,8 @@ def test_halogenated_flag_matches_the_formula_for_solvents():
         # the supported catalyst, not the metal (common practice)
         ("10% palladium on carbon", "palladium on carbon 10%"),
         ("palladium on activated charcoal", "palladium on carbon 10%"),
+        ("10% Pd—C", "palladium on carbon 10%"),  # an em dash typed for the hyphen
+        ("Pd/C 10%", "palladium on carbon 10%"),
     ],
 )
 def test_names_and_synonyms_resolve(name, expected):

@@ -58,6 +58,14 @@ def _found(body: str):
                 ("EtOAc", [(100.0, "mL", 1)], "purification"),
             ],
         ),
+        (  # a grade or an adverb before the name is not part of it
+            "Powdered sodium carbonate (1.5 g) was added thereto, and there was added thereto "
+            "DBU (0.9 mL).",
+            [
+                ("sodium carbonate", [(1.5, "g", 1)], "reaction"),
+                ("DBU", [(0.9, "mL", 1)], "reaction"),
+            ],
+        ),
         (  # a hyphen slipped in before the bracket is not part of the name
             "To the amine was added bromoacetyl bromide-(0.40 mL).",
             [("bromoacetyl bromide", [(0.40, "mL", 1)], "reaction")],
