@@ -24,7 +24,8 @@ from helpers import entry_md
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "example_entries"
 FROM_SIDECAR = "which is current."
-COMPUTED = "Computed now (no current sidecar); nothing written."
+COMPUTED = "Computed now (its sidecar could not be confirmed current); nothing written."
+FRESH = "Computed now; nothing written."
 
 
 def show(path: Path, *options: str, env: dict | None = None) -> str:
@@ -56,7 +57,7 @@ def test_show_answers_from_a_current_sidecar_exactly_as_it_would_compute(tmp_pat
     for path in entries:
         quick, computed = show(path), show(path, "--recompute")
         assert quick.splitlines()[-1].endswith(FROM_SIDECAR), path
-        assert computed.splitlines()[-1] == COMPUTED
+        assert computed.splitlines()[-1] == FRESH
         assert quick.splitlines()[:-1] == computed.splitlines()[:-1], path
         sidecar = path.with_name(path.name.rsplit(".", 1)[0] + ".waste.json")
         assert show(path, "--json") == sidecar.read_text(encoding="utf-8")
@@ -130,6 +131,7 @@ def test_no_stamp_while_a_folder_on_the_import_path_just_changed(tmp_path, monke
 
 def test_the_scan_records_no_standing_without_a_stamp(notebook, monkeypatch):
     notebook.write("e.md", BALANCED)
+    assert show(notebook.root / "e.md").splitlines()[-1] == FRESH  # no sidecar yet
     nb = Notebook.open(notebook.root)
     nb.stamp = None
     scan(nb)

@@ -40,7 +40,9 @@ def show(entry: Path, as_json: bool, recompute: bool) -> None:
         source = f"As written in {sidecar_path(entry).name}, which is current."
     else:
         text, r = _computed(entry)
-        source = "Computed now (no current sidecar); nothing written."
+        unsure = not recompute and sidecar_path(entry).exists()
+        why = " (its sidecar could not be confirmed current)" if unsure else ""
+        source = f"Computed now{why}; nothing written."
     if as_json:
         click.echo(text, nl=False)
         return
