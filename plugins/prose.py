@@ -68,6 +68,7 @@ OPERATION_STEMS: dict[str, str] = {
 _STEMS_LONGEST_FIRST = sorted(OPERATION_STEMS, key=len, reverse=True)
 
 
+@functools.lru_cache(maxsize=8192)
 def operation_of(word: str) -> str | None:
     """The operation a word names (``washed`` → wash, ``back-extracted`` → extraction)."""
     low = word.lower()
@@ -118,6 +119,7 @@ ROLE_OPERATION = {"stationary phase": "chromatography", "antisolvent": "recrysta
                   "anti-solvent": "recrystallisation"}  # fmt: skip
 
 
+@functools.lru_cache(maxsize=1024)
 def operation_of_role(role: str | None) -> str | None:
     """The operation a front-matter or table role names (``drying agent`` → drying,
     ``extraction solvent`` → extraction, ``eluent`` → chromatography), or None."""
