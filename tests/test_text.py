@@ -58,6 +58,14 @@ def _found(body: str):
                 ("EtOAc", [(100.0, "mL", 1)], "purification"),
             ],
         ),
+        (  # a prepacked column named inside a bracket: its silica
+            "The residue was purified by flash chromatography (40 g column, 0-60% EtOAc in "
+            "heptane) and on a second 12 g cartridge.",
+            [
+                ("silica", [(40.0, "g", 1)], "purification"),
+                ("silica", [(12.0, "g", 1)], "purification"),
+            ],
+        ),
         (  # a grade or an adverb before the name is not part of it
             "Powdered sodium carbonate (1.5 g) was added thereto, and there was added thereto "
             "DBU (0.9 mL).",

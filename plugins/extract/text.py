@@ -377,7 +377,10 @@ class _Reading:
     def _quantities_before_names(self) -> None:
         done = -1
         for q in self.quantities:
-            if q.start < done or self._inside_group(q.start) or q.amount is None:
+            if q.start < done or q.amount is None:
+                continue
+            if self._inside_group(q.start):
+                self._column_in_bracket(q)  # "(40 g column, 0-50% EtOAc)": its silica
                 continue
             amounts = [q.amount]
             pos = self._joined(q.end, amounts)
@@ -423,6 +426,18 @@ class _Reading:
             said = self.head[pos:end]
             self._add(name or what, amounts, role, q.start, note=_crude(role, name, said))
             done = end
+
+    def _column_in_bracket(self, q) -> None:
+        """A prepacked column named by its silica's mass inside a bracket ("(330g column)",
+        "(40 g column, 0-50% EtOAc/hexanes)"): that silica is an input when the bracket holds
+        no other amount; the eluent's gradient is left to the gap rules."""
+        if not _COLUMN_AFTER.match(self.head, q.end):
+            return
+        gs, ge = next((gs, ge) for gs, (ge, _) in self.groups.items() if gs < q.start < ge)
+        if any(gs < other.start < ge for other in self.quantities if other is not q):
+            return  # more amounts in the bracket: read as before (this one stays unread)
+        self.claimed.add(gs)
+        self._add("silica", [q.amount], None, q.start, note="a prepacked column's packing")
 
     def _mixture_after(self, pos: int, name: str | None, end: int) -> tuple | None:
         """The mixture an amount ending at ``pos`` names, with where it ends: "of a 90/10
