@@ -184,7 +184,7 @@ def _refuse_odd_numbers(text: str) -> None:
 def _number(raw: str, whole: str) -> float:
     if "," in raw:
         head, _, tail = raw.partition(",")
-        if len(tail) == 3:
+        if len(tail) == 3 and head.lstrip("0"):  # "0,147" is 0.147: no thousands start at 0
             raise AmountError(
                 f"{whole!r}: {raw!r} could be {head}.{tail} or {head}{tail}; "
                 "write it without a thousands separator and with a decimal point"

@@ -61,6 +61,13 @@ def test_golden_amounts(text, value, unit, mult, approx, low, high):
     assert a.high == (pytest.approx(high) if high is not None else None)
 
 
+def test_a_decimal_comma_after_a_leading_zero_is_read():
+    """ "0,147 mmol" can only be 0.147 (a thousands separator never follows a lone 0), so it is
+    read; "1,120 g" stays refused as ambiguous (1.120 or 1120)."""
+    assert parse_amount("0,147 mmol").value == pytest.approx(0.147)
+    assert parse_amount("0,250 g").value == pytest.approx(0.25)
+
+
 REFUSED = [
     ("5 blorps", "unknown unit 'blorps'"),
     ("0 g", "greater than zero"),
@@ -69,6 +76,7 @@ REFUSED = [
     ("0.5 N", "normality"),  # pint alone: newtons
     ("5 Mm", "unknown unit 'Mm'"),  # pint alone: megametres
     ("1,000 g", "could be 1.000 or 1000"),
+    ("12,500 mL", "could be 12.500 or 12500"),
     ("12", "has no unit"),
     ("", "empty"),
     ("15–10 mL", "backwards"),
