@@ -154,8 +154,11 @@ def _ledger(body: str):
              (None, "THF", "30 mL")],
         ),
         (  # the size of a run is a condition, not a material added
-            "Two runs were made, each on a 400 mg scale, and the diol (0.40 g) was added.",
-            [("condition", "scale", "400 mg"), (None, "diol", "0.40 g")],
+            "Two runs were made, each on a 400 mg scale, and the diol (0.40 g) was added to a "
+            "2.5 g batch of the acid.",
+            # "a 2.5 g batch of X" names what an earlier run made: the name reader's, as before
+            [("condition", "scale", "400 mg"), (None, "diol", "0.40 g"),
+             ("intermediate", "batch", "2.5 g")],
         ),
         (  # a condition, and what left the flask
             "The solution was concentrated to about 15 mL and 40 mL of hexane was distilled off.",

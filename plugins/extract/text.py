@@ -101,7 +101,8 @@ _COLUMN_AFTER = re.compile(r"\s*(?:[\w-]+\s+){0,2}?(?:column|cartridge)s?\b", re
 # "each 600 mg scale", "a 2-g batch", "200mg trial purification": the size of a run, no material
 _SCALE_AFTER = re.compile(
     r"[\s-]*(?:trial\s+|test\s+)?(?:scale|batch|run|experiment|purification|"
-    r"reaction(?!\s+(?:mixture|solution|solvent|medium|vessel|flask|vial|tube|reactor)))\b",
+    r"reaction(?!\s+(?:mixture|solution|solvent|medium|vessel|flask|vial|tube|reactor)))\b"
+    r"(?!\s+of\b)",  # "a 5 g batch of the amine" is the amine's amount
     re.I,
 )
 _EQUIPMENT_AFTER = re.compile(
