@@ -145,23 +145,29 @@ class Fingerprints:
         return before.inputs_sha256 == self.of(sha, digests)
 
 
-def read_basis(root: Path) -> tuple[dict[str, str] | None, dict | None]:
+def read_basis(root: Path) -> tuple[dict[str, str] | None, dict | None, int | None]:
     """What the last writing scan recorded: its :attr:`Fingerprints.parts` (None when there
     is no record or it is damaged: then the scan cannot name what changed, and says nothing
-    of it) and its standing (:func:`capture.standing.standing`, or None)."""
+    of it), its standing (:func:`capture.standing.standing`, or None) and how many entries
+    it saw (the progress bar's total next time, or None)."""
     data = read_record(root) or {}
-    parts, standing = data.get("parts"), data.get("standing")
+    parts, standing, entries = data.get("parts"), data.get("standing"), data.get("entries")
     if not isinstance(parts, dict) or not all(isinstance(v, str) for v in parts.values()):
         parts = None
-    return parts, standing if isinstance(standing, dict) else None
+    return (parts, standing if isinstance(standing, dict) else None,
+            entries if isinstance(entries, int) else None)  # fmt: skip
 
 
-def write_basis(root: Path, parts: dict[str, str], standing: dict | None) -> None:
+def write_basis(
+    root: Path, parts: dict[str, str], standing: dict | None, entries: int | None = None
+) -> None:
     """Record ``parts`` as the basis of the notebook's results, with the standing that lets
-    ``masstrail show`` answer from a current sidecar (a cache of what was used: a file that
-    cannot be written only loses the naming of the next change and the quick answers)."""
+    ``masstrail show`` answer from a current sidecar and the number of entries seen (a cache
+    of what was used: a file that cannot be written only loses the naming of the next
+    change, the quick answers and a progress bar's total)."""
     path = root / STATE_DIR / BASIS_FILE
-    text = json.dumps({"parts": parts, "standing": standing}, indent=1, sort_keys=True) + "\n"
+    record = {"parts": parts, "standing": standing, "entries": entries}
+    text = json.dumps(record, indent=1, sort_keys=True) + "\n"
     try:
         path.parent.mkdir(exist_ok=True)
         atomic_write(path, text, sync_dir=False)

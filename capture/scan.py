@@ -115,7 +115,8 @@ def scan(
     one. ``progress(path, summary)`` is called for each entry file, in order.
     """
     basis = notebook.fingerprints.parts if write else None
-    last_basis, last_standing = read_basis(notebook.root) if write else (None, None)
+    last = read_basis(notebook.root) if write else (None, None, None)
+    last_basis = last[0]
     changes = basis_changes(last_basis, basis) if last_basis is not None and basis else []
     ask = write and (reuse or changes) and previous is None  # the writers, a chunk at a time
     report = ScanReport(notebook.root, basis_changes=changes)
@@ -132,9 +133,9 @@ def scan(
                                              present=report.summaries.view(_path),
                                              written=report.written,
                                              orphans=notebook.orphans)  # fmt: skip
-        standing = notebook.standing()
-        if basis != last_basis or standing != last_standing:
-            write_basis(notebook.root, basis, standing)
+        now = (basis, notebook.standing(), len(report.summaries))
+        if now != last:
+            write_basis(notebook.root, *now)
     return report
 
 

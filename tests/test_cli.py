@@ -146,3 +146,55 @@ def test_show_prints_an_entry_s_text_as_written_never_as_emoji_or_markup(noteboo
     res = CliRunner().invoke(cli, ["show", str(path)], env={"COLUMNS": "200"})
     assert res.exit_code == 0, res.output
     assert "run :fire: [bold]B[/bold]" in res.output
+
+
+def test_the_progress_bar_takes_its_total_from_the_last_scan_not_from_a_second_walk(notebook):
+    """On a terminal the scan shows a progress bar; its total is the number of entries the last
+    scan saw (recorded in .masstrail/basis.json), so a rescan does not walk the notebook twice
+    just to count; with no record, a walk counts them."""
+    from capture.cli.scan import bar_total
+    from capture.notebook import Notebook
+    from capture.scan import scan
+
+    for i in range(3):
+        notebook.write(f"e{i}.md", GOOD)
+    nb = Notebook.open(notebook.root)
+    assert bar_total(nb) == 3  # no record yet: counted by a walk
+    scan(nb)
+    notebook.write("e3.md", GOOD)  # one more since: the bar's total grows as it goes
+    nb = Notebook.open(notebook.root)
+    nb.folders = None  # a walk would fail
+    assert bar_total(nb) == 3
+
+
+def test_a_scan_on_a_terminal_shows_its_bar_and_its_table(notebook, tmp_path):
+    """A real process in a pseudo-terminal, as a chemist runs it: more than 50 entries, twice
+    (the second time the bar's total comes from the first scan)."""
+    import os
+    import pty
+    import select
+    from pathlib import Path
+
+    for i in range(55):
+        notebook.write(f"e{i:02d}.md", GOOD)
+    command = Path(sys.executable).with_name("masstrail")
+    for _ in range(2):
+        master, slave = pty.openpty()
+        env = {**os.environ, "COLUMNS": "120"}
+        env.pop("MASSTRAIL_HOOK_LOG", None)
+        proc = subprocess.Popen([command, "scan", notebook.root], stdin=slave, stdout=slave,
+                                stderr=slave, env=env)  # fmt: skip
+        os.close(slave)
+        out = b""
+        while True:
+            ready, _, _ = select.select([master], [], [], 60)
+            try:
+                chunk = os.read(master, 65536) if ready else b""
+            except OSError:  # the child closed the terminal
+                chunk = b""
+            if not chunk:
+                break
+            out += chunk
+        os.close(master)
+        assert proc.wait(timeout=60) == 0, out.decode(errors="replace")
+        assert b"55 entries" in out and b"scanning" in out  # the bar, then the table

@@ -50,22 +50,13 @@ def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: 
     from capture.scan import scan as run_scan
 
     nb = open_notebook(path)
-    bar = None
-    if not as_json and sys.stderr.isatty():  # the bar's total: a walk that only counts
-        total = sum(len(names) for _, names in nb.folders())
-        if total > 50:
-            from rich.progress import Progress
-
-            bar = Progress(transient=True)
-            task = bar.add_task("scanning", total=total)
-            bar.start()
+    bar = _progress_bar(nb) if not as_json and sys.stderr.isatty() else None
     try:
-        report = run_scan(nb, progress=(lambda *_: bar.advance(task)) if bar else None,
-                          reuse=not recompute, keep=False,
-                          jobs=jobs or default_jobs())  # fmt: skip
+        report = run_scan(nb, progress=bar.step if bar else None, reuse=not recompute,
+                          keep=False, jobs=jobs or default_jobs())  # fmt: skip
     finally:
         if bar is not None:
-            bar.stop()
+            bar.progress.stop()
     if report.unnamed:
         from capture.notebook import unnamed_message
 
@@ -80,6 +71,39 @@ def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: 
         worst = report.count("blocking") + (report.count("major") if fail_on == "major" else 0)
         if worst:
             sys.exit(EXIT_FINDINGS)
+
+
+def bar_total(nb) -> int:
+    """How many entries a scan's progress bar expects: as many as the last writing scan saw
+    (no walk), else a walk of the notebook that only counts them."""
+    from capture.fingerprint import read_basis
+
+    known = read_basis(nb.root)[2]
+    return known if known else sum(len(names) for _, names in nb.folders())
+
+
+class _Bar:
+    """A transient progress bar on the terminal; its total grows when the notebook has grown
+    since the last scan."""
+
+    def __init__(self, total: int) -> None:
+        from rich.progress import Progress
+
+        self.progress = Progress(transient=True)
+        self.task = self.progress.add_task("scanning", total=total)
+        self.progress.start()
+
+    def step(self, *_) -> None:
+        self.progress.advance(self.task)
+        task = self.progress.tasks[0]
+        if task.total is not None and task.completed >= task.total:
+            self.progress.update(self.task, total=task.completed + 1)
+
+
+def _progress_bar(nb) -> _Bar | None:
+    """A progress bar for a scan of more than 50 entries, else None."""
+    total = bar_total(nb)
+    return _Bar(total) if total > 50 else None
 
 
 def _print_json(nb, report) -> None:
