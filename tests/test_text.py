@@ -88,6 +88,29 @@ def _found(body: str):
                 ("ether", [(50.0, "mL", 1)], "purification"),
             ],
         ),
+        (  # a share written before a slash pair; names joined by a colon
+            "The column was eluted with 3% MeOH/CHCl3 (200 mL), then EtOAc:heptane 1:4 (250 mL).",
+            [
+                ("MeOH", [(6.0, "mL", 1)], "purification"),
+                ("CHCl3", [(194.0, "mL", 1)], "purification"),
+                ("EtOAc", [(50.0, "mL", 1)], "purification"),
+                ("heptane", [(200.0, "mL", 1)], "purification"),
+            ],
+        ),
+        (  # by mass, a share over a slash is a supported catalyst, not a mixture of liquids
+            "To the nitro ester was added 5% Pt/C (240 mg) and 2.0 g of 10% Pd/C.",
+            [
+                ("5% Pt/C", [(0.24, "g", 1)], "reaction"),
+                ("10% Pd/C", [(2.0, "g", 1)], "reaction"),
+            ],
+        ),
+        (  # a gradient is taken at its midpoint (the basis says so)
+            "The column was eluted with 0-20% EtOAc in heptane (300 mL).",
+            [
+                ("EtOAc", [(30.0, "mL", 1)], "purification"),
+                ("heptane", [(270.0, "mL", 1)], "purification"),
+            ],
+        ),
         (
             "The column was eluted with 120 mL of a 5:1 mixture of heptane and acetone.",
             [
@@ -450,3 +473,13 @@ def test_an_apparatus_provided_with_a_stirrer_and_a_solid_with_its_yield():
     assert (line.role, line.stated_yield) == ("product", 0.88)
     (line,) = extract("The residue (1.2 g) was dissolved in ether.")
     assert line.role == "intermediate"
+
+
+def test_a_gradient_says_it_is_taken_at_its_midpoint():
+    notes = [line.note for line in extract("Eluted with 5 to 15% acetone/hexane (400 mL).")]
+    assert notes == [
+        "10% by volume of 400 mL of '5 to 15% acetone/hexane' (a gradient, taken at its "
+        "midpoint; ideal mixing assumed)",
+        "90% by volume of 400 mL of '5 to 15% acetone/hexane' (a gradient, taken at its "
+        "midpoint; ideal mixing assumed)",
+    ]

@@ -47,14 +47,25 @@ _NAME_TOKEN = r"[A-Za-z0-9(\[][\w\-'·,()\[\]]*"
 _RATIO = r"\d+(?:\.\d+)?(?:\s*:\s*\d+(?:\.\d+)?)+"
 
 
+# the share of the first liquid, or a gradient's two ends ("0-20%", "5 to 10%"), whose
+# midpoint is taken (the mixture's written form, range included, is shown in each basis)
+_SHARE = (
+    r"(?<![-–.\d])(?<![-–]\s)(?:(?P<lo>\d+(?:\.\d+)?)\s*%?\s*(?:[-–]|to)\s*)?"
+    r"(?P<p>\d+(?:\.\d+)?)"
+)
 _MIX_PERCENT = re.compile(
-    rf"(?P<p>\d+(?:\.\d+)?)\s*%\s*(?:v/v\s+)?(?P<a>{_NAME_TOKEN}(?:\s+[a-z][\w\-]*)?)\s+in\s+"
+    rf"{_SHARE}\s*%\s*(?:v/v\s+)?(?P<a>{_NAME_TOKEN}(?:\s+[a-z][\w\-]*)?)\s+in\s+"
     rf"(?P<b>{_NAME_TOKEN}(?:\s+[a-z][\w\-]*)?)\s*$"
 )
 
 
+# "hexane/EtOAc 4:1", "EtOAc:hexane 1:3" (names joined by a slash or a colon)
 _MIX_SLASH_RATIO = re.compile(
-    rf"(?P<names>{_NAME_TOKEN}(?:\s*/\s*{_NAME_TOKEN})+)\s*\(?(?P<r>{_RATIO})\)?\s*(?:v/v)?\s*$"
+    rf"(?P<names>{_NAME_TOKEN}(?:\s*[/:]\s*{_NAME_TOKEN})+)\s*\(?(?P<r>{_RATIO})\)?\s*(?:v/v)?\s*$"
+)
+# "5% MeOH/DCM": the first named is that share, the second the rest
+_MIX_PERCENT_SLASH = re.compile(
+    rf"{_SHARE}\s*%\s*(?:v/v\s+)?(?P<a>{_NAME_TOKEN})\s*/\s*(?P<b>{_NAME_TOKEN})\s*$"
 )
 
 
@@ -67,16 +78,18 @@ _MIX_RATIO_SLASH = re.compile(  # "4:1 hexane/EtOAc", "a 1:1:1 mixture of THF/Me
 def mixture_before(text: str) -> tuple[str, list[tuple[str, float]]] | None:
     """A mixture named at the end of ``text``: (as written, [(component, volume fraction)])."""
     text = text[-120:]
-    if "%" not in text and "/" not in text:
+    if "%" not in text and "/" not in text and ":" not in text:
         return None
-    m = _MIX_PERCENT.search(text) if "%" in text else None
-    if m:
-        p = float(m.group("p")) / 100
+    for rx in (_MIX_PERCENT, _MIX_PERCENT_SLASH) if "%" in text else ():
+        m = rx.search(text)
+        p = float(m.group("p")) / 100 if m else 0
+        if m and m.group("lo"):  # a gradient: its midpoint
+            p = (p + float(m.group("lo")) / 100) / 2
         if 0 < p < 1:
             a, b = clean_name(m.group("a")), clean_name(m.group("b"))
             if a and b:
                 return m.group(0).strip(), [(a, p), (b, 1 - p)]
-    if "/" not in text:
+    if "/" not in text and ":" not in text:
         return None
     for rx in (_MIX_SLASH_RATIO, _MIX_RATIO_SLASH):
         m = rx.search(text)
@@ -88,8 +101,9 @@ def mixture_before(text: str) -> tuple[str, list[tuple[str, float]]] | None:
 
 
 def _mixture(names: str, ratio: str, written: str) -> tuple[str, list[tuple[str, float]]] | None:
-    """("A/B", "4:1") → (written, [(A, 0.8), (B, 0.2)]), or None when they do not pair up."""
-    split = [n.strip() for n in names.split("/")]
+    """("A/B" or "A:B", "4:1") → (written, [(A, 0.8), (B, 0.2)]), or None when they do not
+    pair up."""
+    split = [n.strip() for n in re.split(r"[/:]", names)]
     shares = [float(x) for x in ratio.replace(" ", "").split(":")]
     if len(split) != len(shares) or sum(shares) <= 0:
         return None
@@ -127,7 +141,7 @@ _RATIO_PART = re.compile(rf"^(?P<r>{_RATIO})\s*(?:v/v|by volume)?$")
 def mixture_in(name: str | None, content: str) -> tuple[str, list[tuple[str, float]]] | None:
     """A mixture named before a bracket that gives its ratio among its amounts:
     "hexane/EtOAc (4:1, 500 mL)", "MeOH/H2O (5 mL, 1:1)"."""
-    if not name or "/" not in name or ":" not in content:
+    if not name or not ("/" in name or ":" in name) or ":" not in content:
         return None
     for part, _ in parts(content, 0):
         m = _RATIO_PART.match(part)

@@ -99,6 +99,7 @@ _PERCENT_REMARK = re.compile(r"\d+(?:[.,]\d+)?\s*%\s+\w")  # "(35% calculated fr
 # "a SNAP 25 g column", "(330g column)": a prepacked column is sold by its silica's mass
 _COLUMN_AFTER = re.compile(r"\s*(?:[\w-]+\s+){0,2}?(?:column|cartridge)s?\b", re.I)
 # "each 600 mg scale", "a 2-g batch", "200mg trial purification": the size of a run, no material
+_GRADIENT = re.compile(r"\d\s*%?\s*(?:[-–]|to)\s*\d+(?:\.\d+)?\s*%")  # "0-10% MeOH/DCM"
 _SCALE_AFTER = re.compile(
     r"[\s-]*(?:trial\s+|test\s+)?(?:scale|batch|run|experiment|purification|"
     r"reaction(?!\s+(?:mixture|solution|solvent|medium|vessel|flask|vial|tube|reactor)))\b"
@@ -223,14 +224,12 @@ def _lines_for(group: Group, operation: str, stage: Stage, evidence: str) -> lis
     stated = ", ".join(group.texts)
     if group.solvent is None and _aqueous(group.name):
         group.solvent = "water"  # "3 M NaOH", "10% aq. K2CO3": aqueous by convention
-    if group.mixture is None:
+    volumes = [a for a in group.amounts if a.kind == "volume"]
+    if group.mixture is None or not volumes:  # by mass, "10% Pd/C (390 mg)" is one material
         return [MaterialLine(name=group.name, operation=operation, stage=stage, stated=stated,
                              amounts=group.amounts, origin="text", evidence=evidence,
                              solvent=group.solvent)]  # fmt: skip
     written, components = group.mixture
-    volumes = [a for a in group.amounts if a.kind == "volume"]
-    if not volumes:
-        return []
     out = []
     for comp, fraction in components:
         scaled = [a.model_copy(update={
@@ -241,8 +240,9 @@ def _lines_for(group: Group, operation: str, stage: Stage, evidence: str) -> lis
         out.append(MaterialLine(
             name=comp, operation=operation, stage=stage, stated=f"{written}, {stated}",
             amounts=scaled, origin="text", evidence=evidence,
-            note=f"{fraction:.0%} by volume of {volumes[0].text} of '{written}' (ideal mixing "
-            "assumed)",
+            note=f"{fraction:.0%} by volume of {volumes[0].text} of '{written}' ("
+            + ("a gradient, taken at its midpoint; " if _GRADIENT.search(written) else "")
+            + "ideal mixing assumed)",
         ))  # fmt: skip
     return out
 
@@ -421,8 +421,9 @@ class _Reading:
             taken = _TAKEN_OUT.match(self.head, end)
             role = "intermediate" if taken else self._role(q.start, what, end)
             mixed = self._mixture_after(pos, name, end) if role is None else None
-            if mixed is not None and self._add_mixture(mixed[0], amounts, q.start):
-                done = mixed[1]  # "500 mL of 4:1 hexane/EtOAc": each liquid its share
+            if mixed is not None:  # "500 mL of 4:1 hexane/EtOAc": each liquid its share
+                self._add_mixture(mixed[0], amounts, q.start)
+                done = mixed[1]
                 continue
             said = self.head[pos:end]
             self._add(name or what, amounts, role, q.start, note=_crude(role, name, said))
@@ -445,18 +446,16 @@ class _Reading:
         solution of CH2Cl2/MeOH", or a name that is one ("4:1 hexane/EtOAc")."""
         if (found := mixture_after(self.head, pos)) is not None:
             return found
-        mix = mixture_before(name) if name and "/" in name else None
+        mix = mixture_before(name) if name and ("/" in name or ":" in name) else None
         return (mix, end) if mix is not None and mix[0] == name.strip() else None
 
-    def _add_mixture(self, mixture: tuple, amounts: list[AmountMention], pos: int) -> bool:
-        """Add a mixture's liquids, each its share of the volume; False when no volume is
-        stated (a mixture by mass is one line, as written)."""
+    def _add_mixture(self, mixture: tuple, amounts: list[AmountMention], pos: int) -> None:
+        """Add a mixture's liquids, each its share of the volume (a mixture stated by mass is
+        one line, as written: "5 g of 10% Pd/C")."""
         group = Group(mixture[0], mixture)
         group.amounts, group.texts = amounts, [a.text for a in amounts]
         op, stage = self.s.operation(pos)
-        lines = _lines_for(group, op, stage, self.s.evidence)
-        self.lines += lines
-        return bool(lines)
+        self.lines += _lines_for(group, op, stage, self.s.evidence)
 
     # ---------------------------------------------------------------- brackets
     def _bracket(self, gs: int) -> None:
