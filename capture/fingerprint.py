@@ -16,15 +16,22 @@ import json
 import os
 import time
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, NamedTuple
 
 import pluggy
 
 from capture import __version__
 from capture.config import LabConfig
 from capture.paths import STATE_DIR, sidecar_name
-from capture.safeio import InputError, atomic_write, read_bounded
-from capture.standing import BASIS_FILE, RACY_NS, fingerprint, log_digests, read_record
+from capture.safeio import InputError, atomic_write
+from capture.standing import (
+    BASIS_FILE,
+    RACY_NS,
+    file_sha,
+    fingerprint,
+    log_digests,
+    read_record,
+)
 
 if TYPE_CHECKING:
     from capture.models import EntrySummary
@@ -96,8 +103,7 @@ class Fingerprints:
         key = (st.st_mtime_ns, st.st_size)
         known = self._log_shas.get(path)
         if known is None or known[0] != key:
-            known = (key, hashlib.sha256(read_bounded(path, self.config.scan.max_entry_bytes)
-                                         ).hexdigest())  # fmt: skip
+            known = (key, file_sha(path, self.config.scan.max_entry_bytes))
             self._log_shas[path] = known
         return known[1]
 
@@ -130,7 +136,7 @@ class Fingerprints:
                 sha = before.sha256
             else:
                 limit = self.config.scan.max_entry_bytes
-                sha = hashlib.sha256(read_bounded(path, limit)).hexdigest()
+                sha = file_sha(path, limit)
         except (OSError, InputError):
             return False
         digests = ""
@@ -145,17 +151,23 @@ class Fingerprints:
         return before.inputs_sha256 == self.of(sha, digests)
 
 
-def read_basis(root: Path) -> tuple[dict[str, str] | None, dict | None, int | None]:
-    """What the last writing scan recorded: its :attr:`Fingerprints.parts` (None when there
-    is no record or it is damaged: then the scan cannot name what changed, and says nothing
-    of it), its standing (:func:`capture.standing.standing`, or None) and how many entries
-    it saw (the progress bar's total next time, or None)."""
+class Basis(NamedTuple):
+    """What the last writing scan recorded in ``basis.json``."""
+
+    parts: dict[str, str] | None  # Fingerprints.parts; None: no record, or a damaged one
+    standing: dict | None  # capture.standing.standing, for ``masstrail show``
+    entries: int | None  # how many entries it saw: the next progress bar's total
+
+
+def read_basis(root: Path) -> Basis:
+    """What the last writing scan recorded (with no record or a damaged one, the scan cannot
+    name what changed, and says nothing of it)."""
     data = read_record(root) or {}
     parts, standing, entries = data.get("parts"), data.get("standing"), data.get("entries")
     if not isinstance(parts, dict) or not all(isinstance(v, str) for v in parts.values()):
         parts = None
-    return (parts, standing if isinstance(standing, dict) else None,
-            entries if isinstance(entries, int) else None)  # fmt: skip
+    return Basis(parts, standing if isinstance(standing, dict) else None,
+                 entries if isinstance(entries, int) else None)  # fmt: skip
 
 
 def write_basis(

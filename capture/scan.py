@@ -19,7 +19,7 @@ from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from capture.fingerprint import basis_changes, read_basis, write_basis
+from capture.fingerprint import Basis, basis_changes, read_basis, write_basis
 from capture.models import SEVERITIES, EntrySummary, Result
 from capture.notebook import Notebook
 from capture.paths import entry_stem, sidecar_path
@@ -115,8 +115,8 @@ def scan(
     one. ``progress(path, summary)`` is called for each entry file, in order.
     """
     basis = notebook.fingerprints.parts if write else None
-    last = read_basis(notebook.root) if write else (None, None, None)
-    last_basis = last[0]
+    last = read_basis(notebook.root) if write else Basis(None, None, None)
+    last_basis = last.parts
     changes = basis_changes(last_basis, basis) if last_basis is not None and basis else []
     ask = write and (reuse or changes) and previous is None  # the writers, a chunk at a time
     report = ScanReport(notebook.root, basis_changes=changes)
@@ -133,7 +133,7 @@ def scan(
                                              present=report.summaries.view(_path),
                                              written=report.written,
                                              orphans=notebook.orphans)  # fmt: skip
-        now = (basis, notebook.standing(), len(report.summaries))
+        now = Basis(basis, notebook.standing(), len(report.summaries))
         if now != last:
             write_basis(notebook.root, *now)
     return report

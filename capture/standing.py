@@ -46,6 +46,11 @@ RACY_NS = 2_000_000_000  # coarser than any file system's time stamps (FAT's are
 SIDECAR_LIMIT = 64 * 2**20
 
 
+def file_sha(path: Path, limit: int) -> str:
+    """sha256 of a file's bytes, read within ``limit`` (:func:`capture.safeio.read_bounded`)."""
+    return hashlib.sha256(read_bounded(path, limit)).hexdigest()
+
+
 def fingerprint(base: str, entry_sha: str, log_digests: str) -> str:
     """A result's fingerprint: its base, the entry's hash and :func:`log_digests`."""
     return hashlib.sha256(f"{base}\n{entry_sha}{log_digests}".encode()).hexdigest()
@@ -148,10 +153,7 @@ def current_sidecar(entry: Path, root: Path) -> tuple[str, dict] | None:
     if not isinstance(logs, list) or not all(isinstance(x, str) for x in logs):
         return None
 
-    def sha_of(path: Path) -> str:
-        return hashlib.sha256(read_bounded(path, limit)).hexdigest()
-
-    digests = log_digests(root, entry.parent, logs, sha_of)
+    digests = log_digests(root, entry.parent, logs, lambda path: file_sha(path, limit))
     if ref.get("inputs_sha256") != fingerprint(base, hashlib.sha256(data).hexdigest(), digests):
         return None
     return text, result

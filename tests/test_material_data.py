@@ -82,6 +82,7 @@ def test_conc_is_concentrated_and_a_short_form_in_brackets_is_passed_over():
         == resolve_builtin("conc. HCl", LabConfig()).name
     )
     info = resolve_builtin("N,N-diisopropylethylamine (DIPEA)", LabConfig())
+    # 0.742 g/mL at 25 °C: the curated supplier value in materials.toml (from memory, to verify)
     assert info.name == "N,N-diisopropylethylamine" and info.density_g_ml == 0.742
     assert resolve_builtin("Kestrel reagent (TMSI)", LabConfig()) is None
 

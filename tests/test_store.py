@@ -368,6 +368,7 @@ def test_held_results_reach_the_store_at_masstrail_flush_results(notebook):
 def test_an_entry_whose_stat_is_unchanged_is_not_read_again(notebook, monkeypatch):
     import capture.fingerprint as fingerprint
     import capture.run as run
+    import capture.standing as standing
 
     monkeypatch.setattr(fingerprint, "RACY_NS", 0)  # these files were written just now
     a = notebook.write("a.md", ENTRY)
@@ -378,7 +379,7 @@ def test_an_entry_whose_stat_is_unchanged_is_not_read_again(notebook, monkeypatc
     assert stats["a.md"] == f"{st.st_mtime_ns}:{st.st_ctime_ns}:{st.st_ino}:{st.st_size}"
     reads = []
     real = run.read_bounded
-    for module in (run, fingerprint):  # neither computed nor hashed
+    for module in (run, standing):  # neither computed nor hashed (standing.file_sha)
         monkeypatch.setattr(module, "read_bounded", lambda p, *k: reads.append(p) or real(p, *k))
     assert _reuse(notebook).recomputed == 0 and reads == []
     a.write_text(ENTRY.replace("3.00 g", "3.50 g"))  # same size, a new stat

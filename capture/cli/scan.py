@@ -56,7 +56,7 @@ def scan(path: Path, as_json: bool, fail_on: str | None, recompute: bool, jobs: 
                           keep=False, jobs=jobs or default_jobs())  # fmt: skip
     finally:
         if bar is not None:
-            bar.progress.stop()
+            bar.stop()
     if report.unnamed:
         from capture.notebook import unnamed_message
 
@@ -78,7 +78,7 @@ def bar_total(nb) -> int:
     (no walk), else a walk of the notebook that only counts them."""
     from capture.fingerprint import read_basis
 
-    known = read_basis(nb.root)[2]
+    known = read_basis(nb.root).entries
     return known if known else sum(len(names) for _, names in nb.folders())
 
 
@@ -92,6 +92,9 @@ class _Bar:
         self.progress = Progress(transient=True)
         self.task = self.progress.add_task("scanning", total=total)
         self.progress.start()
+
+    def stop(self) -> None:
+        self.progress.stop()
 
     def step(self, *_) -> None:
         self.progress.advance(self.task)

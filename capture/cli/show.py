@@ -39,7 +39,7 @@ def show(entry: Path, as_json: bool, recompute: bool) -> None:
         text, r = found
         source = f"As written in {sidecar_path(entry).name}, which is current."
     else:
-        text, r = _computed(entry)
+        text, r = _computed(entry, root)
         unsure = not recompute and sidecar_path(entry).exists()
         why = " (its sidecar could not be confirmed current)" if unsure else ""
         source = f"Computed now{why}; nothing written."
@@ -62,13 +62,13 @@ def show(entry: Path, as_json: bool, recompute: bool) -> None:
     out.print(f"[dim]{source}[/dim]")
 
 
-def _computed(entry: Path) -> tuple[str, dict]:
+def _computed(entry: Path, root: Path) -> tuple[str, dict]:
     """The entry's result computed now, as its sidecar text and that text's content."""
     import json
 
-    from capture.cli.common import notebook_of
+    from capture.cli.common import open_notebook
 
-    text = notebook_of(entry).process(entry.resolve(), write=False).sidecar_json()
+    text = open_notebook(root).process(entry.resolve(), write=False).sidecar_json()
     return text, json.loads(text)
 
 

@@ -446,7 +446,7 @@ class _Reading:
         solution of CH2Cl2/MeOH", or a name that is one ("4:1 hexane/EtOAc")."""
         if (found := mixture_after(self.head, pos)) is not None:
             return found
-        mix = mixture_before(name) if name and ("/" in name or ":" in name) else None
+        mix = mixture_before(name) if name else None
         return (mix, end) if mix is not None and mix[0] == name.strip() else None
 
     def _add_mixture(self, mixture: tuple, amounts: list[AmountMention], pos: int) -> None:
