@@ -199,14 +199,32 @@ def led(first: str, pattern: re.Pattern) -> re.Pattern:
     return re.compile(f"(?=[{first}])(?:{pattern.pattern})", pattern.flags)
 
 
-_CHARACTERISATION_LED = led(r"13NδmHLEIcRb\[\s", CHARACTERISATION)  # 2.5 × faster on sentences
+def by_first_letter(words) -> str:
+    """An alternation of ``words`` (longest first) grouped by their first letter, as a
+    pattern: "c(?:olumn|elite)|e(?:lut)". The same matches as the flat alternation (only
+    words of one first letter can match at a place, and their order is kept), tried in a few
+    steps instead of one per word."""
+    groups: dict[str, list[str]] = {}
+    for w in sorted(words, key=len, reverse=True):
+        groups.setdefault(w[0], []).append(re.escape(w[1:]))
+    return "|".join(f"{re.escape(c)}(?:{'|'.join(rest)})" for c, rest in groups.items())
+
+
+# "IR" opening the text, and the rest of the markers led by letters only (a look-ahead that
+# admits white space, for "^\s*IR", tried every alternative at every space: 2.3 × slower)
+_IR_OPENING = re.compile(r"\s*IR\b")
+_CHARACTERISATION_INSIDE = re.compile(CHARACTERISATION.pattern.replace(r"^\s*IR\b|", "", 1))
+_CHARACTERISATION_LED = led(r"13NδmHLEIcRb\[", _CHARACTERISATION_INSIDE)
 
 
 def characterisation(text: str) -> re.Match | None:
     """The first characterisation marker of ``text`` (``1H NMR``, ``m/z``, ``mp 112``…), or
     None. Every marker holds one of CHAR_HINTS, which are looked for first: the full pattern
-    costs many times more per sentence, and most sentences have no marker."""
-    return _CHARACTERISATION_LED.search(text) if CHAR_HINT.search(text) else None
+    costs many times more per sentence, and most sentences have no marker. "IR" opening the
+    text is the leftmost marker there can be; else the rest of the pattern is searched."""
+    if not CHAR_HINT.search(text):
+        return None
+    return _IR_OPENING.match(text) or _CHARACTERISATION_LED.search(text)
 
 
 def characterisation_start(text: str) -> int:

@@ -309,7 +309,7 @@ def _all_sentences() -> list[str]:
 
 @pytest.mark.parametrize("module, original, fast", [
     ("extract.text", "_QUANTITY", "_QUANTITY_LED"),
-    ("prose", "CHARACTERISATION", "_CHARACTERISATION_LED"),
+    ("prose", "_CHARACTERISATION_INSIDE", "_CHARACTERISATION_LED"),
     ("gaps.reading", "_ELSEWHERE", "_ELSEWHERE_LED"),
 ])  # fmt: skip
 def test_a_led_pattern_matches_where_its_original_does(module, original, fast):
@@ -326,6 +326,31 @@ def test_a_led_pattern_matches_where_its_original_does(module, original, fast):
         assert [m.span() for m in b.finditer(s)] == spans, s[:200]
         found += len(spans)
     assert found >= 10
+
+
+def test_the_operation_and_product_words_are_found_as_by_their_flat_alternation():
+    """The keyword pattern grouped by first letter (prose.by_first_letter) finds the same
+    words, as operation or product, as one flat alternation of them longest first, on every
+    corpus and example sentence and on the sentences run together."""
+    import re
+
+    from masstrail_plugins.extract.clauses import _KEYWORDS, _PRODUCT_WORDS
+    from masstrail_plugins.prose import OPERATION_STEMS
+
+    def flat(words):
+        return "|".join(map(re.escape, sorted(words, key=len, reverse=True)))
+
+    original = re.compile(rf"(?<![\w-])(?:(?P<op>{flat(OPERATION_STEMS)})"
+                          rf"|(?P<product>{flat(_PRODUCT_WORDS)})(?!\w))")  # fmt: skip
+    texts = _all_sentences()
+    found = 0
+    for s in [*texts, " ".join(texts)]:
+        low = s.lower()
+        want = [(m.span(), m.group("op"), m.group("product")) for m in original.finditer(low)]
+        got = [(m.span(), m.group("op"), m.group("product")) for m in _KEYWORDS.finditer(low)]
+        assert got == want, s[:200]
+        found += len(want)
+    assert found >= 1000
 
 
 def test_the_led_quantity_pattern_finds_what_the_quantity_pattern_finds():

@@ -7,7 +7,7 @@ from __future__ import annotations
 import re
 
 from capture.models import Stage
-from masstrail_plugins.prose import OPERATION_STAGE, OPERATION_STEMS
+from masstrail_plugins.prose import OPERATION_STAGE, OPERATION_STEMS, by_first_letter
 
 # words that introduce the product: the mention after them is an output, not an input
 _PRODUCT_WORDS = {"give", "gave", "giving", "gives", "afford", "afforded", "affording", "affords",
@@ -33,9 +33,11 @@ _NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
 _GLASSWARE_DRIED = re.compile(r"\b(?:oven|flame|heat)[- ]$", re.I)
 
 # one regular expression over the lower-cased sentence finds the operation and product words
+# (tests hold it to the flat alternation it was first written as)
+_KEYWORD_FIRSTS = "".join(sorted({w[0] for w in [*OPERATION_STEMS, *_PRODUCT_WORDS]}))
 _KEYWORDS = re.compile(
-    r"(?<![\w-])(?:(?P<op>" + "|".join(sorted(OPERATION_STEMS, key=len, reverse=True)) + r")"
-    r"|(?P<product>" + "|".join(sorted(_PRODUCT_WORDS, key=len, reverse=True)) + r")(?!\w))"
+    rf"(?=[{_KEYWORD_FIRSTS}])(?<![\w-])(?:(?P<op>{by_first_letter(OPERATION_STEMS)})"
+    rf"|(?P<product>{by_first_letter(_PRODUCT_WORDS)})(?!\w))"
 )
 
 
