@@ -6,6 +6,8 @@ import pytest
 
 from masstrail_plugins.extract.text import extract
 
+from helpers import all_sentences
+
 
 def _found(body: str):
     return [
@@ -293,20 +295,6 @@ def test_a_name_stops_where_the_next_amount_starts():
         ("water", "15 ml"), ("dichloride", "2.60 g, 0.01 mole")]  # fmt: skip
 
 
-def _all_sentences() -> list[str]:
-    from pathlib import Path
-
-    from masstrail_plugins.prose import sentences
-
-    here = Path(__file__).parent
-    texts = [p.read_text(encoding="utf-8") for p in (here / "corpus").glob("*.txt")]
-    texts += [p.read_text(encoding="utf-8") for p in (here / "corpus" / "real").rglob("*.md")]
-    root = here.parent / "example_entries"
-    texts += [p.read_text(encoding="utf-8") for p in root.rglob("*") if p.suffix in {".md",
-              ".yaml", ".json"} and ".waste." not in p.name]  # fmt: skip
-    return [s for t in texts for _, s in sentences(t)]
-
-
 @pytest.mark.parametrize("module, original, fast", [
     ("extract.text", "_QUANTITY", "_QUANTITY_LED"),
     ("prose", "_CHARACTERISATION_INSIDE", "_CHARACTERISATION_LED"),
@@ -319,38 +307,13 @@ def test_a_led_pattern_matches_where_its_original_does(module, original, fast):
 
     mod = importlib.import_module(f"masstrail_plugins.{module}")
     a, b = getattr(mod, original), getattr(mod, fast)
-    texts = _all_sentences()
+    texts = all_sentences()
     found = 0
     for s in [*texts, " ".join(texts)]:
         spans = [m.span() for m in a.finditer(s)]
         assert [m.span() for m in b.finditer(s)] == spans, s[:200]
         found += len(spans)
     assert found >= 10
-
-
-def test_the_operation_and_product_words_are_found_as_by_their_flat_alternation():
-    """The keyword pattern grouped by first letter (prose.by_first_letter) finds the same
-    words, as operation or product, as one flat alternation of them longest first, on every
-    corpus and example sentence and on the sentences run together."""
-    import re
-
-    from masstrail_plugins.extract.clauses import _KEYWORDS, _PRODUCT_WORDS
-    from masstrail_plugins.prose import OPERATION_STEMS
-
-    def flat(words):
-        return "|".join(map(re.escape, sorted(words, key=len, reverse=True)))
-
-    original = re.compile(rf"(?<![\w-])(?:(?P<op>{flat(OPERATION_STEMS)})"
-                          rf"|(?P<product>{flat(_PRODUCT_WORDS)})(?!\w))")  # fmt: skip
-    texts = _all_sentences()
-    found = 0
-    for s in [*texts, " ".join(texts)]:
-        low = s.lower()
-        want = [(m.span(), m.group("op"), m.group("product")) for m in original.finditer(low)]
-        got = [(m.span(), m.group("op"), m.group("product")) for m in _KEYWORDS.finditer(low)]
-        assert got == want, s[:200]
-        found += len(want)
-    assert found >= 1000
 
 
 def test_the_led_quantity_pattern_finds_what_the_quantity_pattern_finds():
@@ -389,7 +352,7 @@ def test_the_characterisation_shortcut_finds_what_the_full_pattern_finds():
     from masstrail_plugins.prose import CHARACTERISATION, characterisation
 
     found = 0
-    for s in _all_sentences():
+    for s in all_sentences():
         full = CHARACTERISATION.search(s)
         assert _span(characterisation(s)) == _span(full), s  # the same first marker
         found += full is not None

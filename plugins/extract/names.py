@@ -102,6 +102,17 @@ def _resolve(phrase: str, reference: str = "") -> tuple[str | None, str | None]:
     return name, what
 
 
+def _aside_or_reference_tail(text: str, near: int) -> re.Match | None:
+    """An aside or a reference that ends ``text``, looked for from ``near``. Each pattern is
+    tried at every place, so each is run only where it can match: an aside ends in a closing
+    bracket, a reference holds one of its verbs."""
+    if text.rstrip()[-1:] in (")", "]") and (m := _ASIDE_TAIL.search(text, near)):
+        return m
+    if any(verb in text[near:] for verb in _REFERENCE_VERBS):
+        return _REFERENCE_TAIL.search(text, near)
+    return None
+
+
 def name_before(text: str) -> tuple[str | None, str | None]:
     """The material name that ends where ``text`` ends, and what it is (see module doc)."""
     reference = ""
@@ -110,7 +121,7 @@ def name_before(text: str) -> tuple[str | None, str | None]:
         if not any(hint in tail for hint in _REFERENCE_HINTS):
             break
         near = max(0, len(text) - 300)
-        m = _ASIDE_TAIL.search(text, near) or _REFERENCE_TAIL.search(text, near)
+        m = _aside_or_reference_tail(text, near)
         if not m:
             break
         reference, text = text[m.start() :].strip(" ,"), text[: m.start()]
