@@ -467,7 +467,8 @@ def test_a_known_commercial_solution_uses_its_own_density(notebook):
 
 def test_each_gap_of_a_card_is_its_own_line(notebook):
     """The card (NAME.waste.md) lists one gap per Markdown list item, whether or not the gap
-    has an allowance; an error card ends its message before the caution."""
+    has an allowance; a material without an amount says so in its basis cell; an error card
+    ends its message before the caution."""
     notebook.write("masstrail.toml", "[output]\ncard = true\n")
     notebook.write(
         "e.md",
@@ -486,6 +487,7 @@ def test_each_gap_of_a_card_is_its_own_line(notebook):
     items = [line for line in card.splitlines() if line.startswith("- **")]
     assert len(items) == len(notebook.sidecar("e.md")["gaps"]) >= 2
     assert all(line.count("- **") == 1 for line in items)
+    assert "| B | — | — | no amount recorded |" in card.splitlines()  # not an empty cell
     bad = (notebook.root / "bad.waste.md").read_text()
     assert "**This entry could not be read:**" in bad
     message_line = next(line for line in bad.splitlines() if "could not be read" in line)
