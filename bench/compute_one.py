@@ -12,8 +12,13 @@ round (imports, tables, caches):
   one pass of an amount pattern over the body, and serialise a result of the same size
   (``json.dumps`` of the computed result's dict).
 
+- the rest: compute again with the text reader's lines read beforehand (the reader's
+  ``extract`` answers with them), i.e. every stage but reading the procedure text;
+- the reader: ``extract`` of the entry's body alone.
+
 Printed per set: the medians over entries of compute, floor and their ratio, and the
-slowest entries' ratios.
+slowest entries' ratios; then the rest and the reader, each as a ratio to the same floor
+(what a target on compute leaves the reader: ratio minus the rest's).
 """
 
 from __future__ import annotations
@@ -58,8 +63,7 @@ def measure(folder: Path, rounds: int) -> dict:
     for f in files:  # warm-up, and the result each floor serialises
         entry = read_entry(nb, f, read_bounded(f, 2**24), nb.relpath(f))
         results[f] = json.loads(compute(nb, entry).model_dump_json(by_alias=True))
-    work = {f: [] for f in files}
-    floor = {f: [] for f in files}
+    work, floor, rest, reader = ({f: [] for f in files} for _ in range(4))
     for _ in range(rounds):
         for f in files:
             t = time.perf_counter()
@@ -67,6 +71,7 @@ def measure(folder: Path, rounds: int) -> dict:
             compute(nb, entry)
             work[f].append(time.perf_counter() - t)
             floor[f].append(_floor(f, results[f]))
+            rest[f].append(_without_reader(nb, f, reader[f]))
     per = {f: (statistics.median(work[f]), statistics.median(floor[f])) for f in files}
     ratios = sorted((w / fl, nb.relpath(f)) for f, (w, fl) in per.items())
     return {
@@ -75,7 +80,30 @@ def measure(folder: Path, rounds: int) -> dict:
         "floor_ms": 1e3 * statistics.median(fl for _, fl in per.values()),
         "ratio": statistics.median(r for r, _ in ratios),
         "slowest": ratios[-3:],
+        "rest": statistics.median(statistics.median(rest[f]) / per[f][1] for f in files),
+        "reader": statistics.median(statistics.median(reader[f]) / per[f][1] for f in files),
     }
+
+
+def _without_reader(nb, path: Path, reader_times: list[float]) -> float:
+    """Compute ``path`` with the text reader's lines read beforehand: the time of every stage
+    but the reader; the reader's own time is appended to ``reader_times``."""
+    import masstrail_plugins.extract.text as text
+    from capture.run import compute, read_entry
+    from capture.safeio import read_bounded
+
+    read = text.extract
+    entry = read_entry(nb, path, read_bounded(path, 2**24), nb.relpath(path))
+    t = time.perf_counter()
+    lines = read(entry.body)
+    reader_times.append(time.perf_counter() - t)
+    text.extract = lambda body: lines  # the reader's hook answers with what it read
+    try:
+        t = time.perf_counter()
+        compute(nb, read_entry(nb, path, read_bounded(path, 2**24), nb.relpath(path)))
+        return time.perf_counter() - t
+    finally:
+        text.extract = read
 
 
 def main() -> None:
@@ -101,6 +129,8 @@ def main() -> None:
             print(f"{name} ({fig['entries']}): compute {fig['compute_ms']:.2f} ms, floor "
                   f"{fig['floor_ms']:.3f} ms: {fig['ratio']:.1f} × (median of the per-entry "
                   f"ratios); slowest: {slow}")  # fmt: skip
+            print(f"    every stage but the text reader {fig['rest']:.1f} × the floor; the "
+                  f"reader alone {fig['reader']:.1f} ×")  # fmt: skip
 
 
 if __name__ == "__main__":
