@@ -49,6 +49,9 @@ _add("umol μmol μmole μmoles micromol micromole micromoles", "micromole", "am
 _add("mmol mMol mmole mmoles mmols millimol millimole millimoles", "millimole", "amount")
 _add("mol mole moles mols", "mole", "amount")
 _add("equiv equiv. eq eq. equivalent equivalents equivs", "equivalent", "equivalents")
+# a loading against the limiting reagent ("CuI (10 mol%)"): 10 mol% is 0.10 equiv, not 10 mol
+_add("mol% mol-% mole% mol.%", "mol_percent", "equivalents")
+_UNITS["mol %"] = _UNITS["mole %"] = ("mol_percent", "equivalents")
 _add("M mol/L mol/l", "molar", "concentration")
 _add("mM mmol/L mmol/l", "millimolar", "concentration")
 
@@ -98,6 +101,7 @@ def registry():
 
                 reg = pint.UnitRegistry()
                 reg.define("equivalent = [stoichiometry] = equiv")
+                reg.define("mol_percent = 0.01 * equivalent")
                 _registry = reg
     return _registry
 
@@ -110,7 +114,7 @@ FACTORS: dict[str, float] = {
     "microgram": 1e-6, "milligram": 1e-3, "gram": 1.0, "kilogram": 1e3,
     "microliter": 1e-3, "milliliter": 1.0, "centiliter": 10.0, "deciliter": 100.0,
     "liter": 1e3, "micromole": 1e-3, "millimole": 1.0, "mole": 1e3, "equivalent": 1.0,
-    "molar": 1.0, "millimolar": 1e-3,
+    "mol_percent": 0.01, "molar": 1.0, "millimolar": 1e-3,
 }  # fmt: skip
 
 
@@ -161,6 +165,10 @@ _BODY = re.compile(
 )
 
 
+# a power of ten written after a number: "1.84×10-3", "5.2 x 10^-3", "3·10⁻⁴" (with a hyphen,
+# one digit only: "2 x 10-15 mL" is two portions of 10-15 mL, "2 x 10-3" no range)
+TIMES_TEN = r"\s*[×xX·*]\s*10\s*(?:\^\s*[-−+]?\d{1,3}|⁻?[⁰¹²³⁴⁵⁶⁷⁸⁹]{1,3}|[-−–]\s*\d(?![\d.,]))"
+_SCIENTIFIC = re.compile(r"\d" + TIMES_TEN)
 _SUPERSCRIPT = re.compile(r"[⁰¹²³⁴⁵⁶⁷⁸⁹₀₁₂₃₄₅₆₇₈₉]")
 _FRACTION = re.compile(r"[½⅓⅔¼¾⅕⅖⅗⅘⅙⅚⅛⅜⅝⅞⁄]")
 _EXPONENT = re.compile(r"\d(?:[.,]\d+)?\s*[eE][-+−]?\d")
@@ -168,7 +176,12 @@ _EXPONENT = re.compile(r"\d(?:[.,]\d+)?\s*[eE][-+−]?\d")
 
 def _refuse_odd_numbers(text: str) -> None:
     """Numbers that NFKC would turn into other numbers ('10²' into 102, '½' into '1⁄2') or
-    that a unit reader would misread ('1e3 g') are refused, saying what is wrong."""
+    that a unit reader would misread ('1e3 g'), and powers of ten ('1.84×10-3 mol'), are
+    refused, saying what is wrong."""
+    if _SCIENTIFIC.search(text):
+        raise AmountError(f"{text!r}: the number is written with a power of ten; write it "
+                          "out as a decimal in a suitable unit, e.g. '1.84 mmol' for "
+                          "1.84×10-3 mol")  # fmt: skip
     if m := _SUPERSCRIPT.search(text):
         raise AmountError(f"{text!r}: the number has a superscript or subscript digit "
                           f"({m.group(0)}); write it out in plain digits, e.g. '100 mL' for "
@@ -264,7 +277,7 @@ def parse_amount(text: str, span: tuple[int, int] | None = None) -> AmountMentio
     if unit not in _UNITS:
         raise AmountError(
             f"{original!r}: unknown unit {unit!r} (masstrail reads g, mg, kg, μg, mL, L, μL, "
-            "mol, mmol, μmol, equiv and M)"
+            "mol, mmol, μmol, equiv, mol% and M)"
         )
     pint_unit, kind = _UNITS[unit]
     factor = _factor(pint_unit, kind)

@@ -57,6 +57,15 @@ def test_equivalents_need_the_limiting_reagent():
     assert "(amine, limiting)" in got.basis
 
 
+def test_a_loading_in_mol_percent_is_weighed_against_the_limiting_reagent():
+    """'3 mol%' of Pd(PPh3)4 on 10 mmol of limiting reagent: 0.30 mmol × 1155.59 g/mol
+    (C72H60P4Pd from the IUPAC 2021 standard atomic weights: C 12.011, H 1.008, P 30.974,
+    Pd 106.42) = 0.3467 g; the basis says the loading as written."""
+    got = _weigh("Pd(PPh3)4", "3 mol%", MassContext(limiting_name="ArBr", limiting_mmol=10.0))
+    assert got.mass_g == pytest.approx(0.03 * 10 * 1155.59 / 1000, rel=1e-4)
+    assert got.basis.startswith("3 mol% × 10 mmol (ArBr, limiting)")
+
+
 def test_volume_without_density_or_material_is_a_problem_not_a_guess():
     assert _weigh("MgSO4", "20 mL").problem_kind == "no_density"
     got = _weigh("Kestrel wash blend", "25 mL")

@@ -35,6 +35,11 @@ GOLDEN = [
     ("1.2 equiv", 1.2, "equiv", 1, False, None, None),
     ("1.2 eq.", 1.2, "equiv", 1, False, None, None),
     ("2.5 M", 2.5, "M", 1, False, None, None),
+    # a loading in mol% is a share of the limiting reagent's moles (IUPAC Green Book: the
+    # percent is 0.01), not moles: "5 mol%" is 0.05 equiv, never 5 mol
+    ("5 mol%", 0.05, "equiv", 1, False, None, None),
+    ("10 mol %", 0.1, "equiv", 1, False, None, None),
+    ("2.5 mole%", 0.025, "equiv", 1, False, None, None),
     ("3 × 40 mL", 40.0, "mL", 3, False, None, None),
     ("3x40 mL", 40.0, "mL", 3, False, None, None),
     ("3 X 40 mL", 40.0, "mL", 3, False, None, None),
@@ -139,7 +144,9 @@ def test_normalise_is_idempotent(text):
     ("text", "says"),
     [("10² mL", "superscript or subscript digit (²)"), ("½ g", "fraction sign (½)"),
      ("2 ½ g", "fraction sign (½)"), ("1e308 g", "exponent notation"),
-     ("1.5e-3 g", "exponent notation")],
+     ("1.5e-3 g", "exponent notation"), ("1.84×10-3 mol", "power of ten"),
+     ("5.2 x 10^-3 mol", "power of ten"), ("3·10⁻⁴ mol", "power of ten"),
+     ("2 × 10-3 g", "power of ten")],
 )  # fmt: skip
 def test_numbers_unicode_would_change_are_refused_saying_why(text, says):
     """NFKC would read '10²' as 102 and '½' as '1⁄2': never a silent wrong number."""

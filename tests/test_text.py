@@ -249,8 +249,8 @@ def _bodies():
 
 
 def test_each_quantity_of_the_text_ends_in_exactly_one_place():
-    """Every mass, volume and amount of substance the ledger finds (outside table rows) is
-    one amount of one line (an input, the product, or set aside with its role), or one
+    """Every mass, volume, amount of substance and equivalents the ledger finds (outside table
+    rows) is one amount of one line (an input, the product, or set aside with its role), or one
     unread line: none is lost and none is counted twice."""
     from masstrail_plugins.extract.text import _quantities
     from masstrail_plugins.prose import sentences
@@ -258,7 +258,7 @@ def test_each_quantity_of_the_text_ends_in_exactly_one_place():
     for body in _bodies():
         lines = extract(body)
         ledger = {a.span[0] for m in lines for a in m.amounts
-                  if a.span and a.kind in {"mass", "volume", "amount"}}  # fmt: skip
+                  if a.span and a.kind in {"mass", "volume", "amount", "equivalents"}}  # fmt: skip
         unreadable = [m for m in lines if m.role == "unread" and not m.amounts]
         starts = [start + m.start for start, text in sentences(body)
                   if not text.lstrip().startswith("|") for m in _quantities(text, 0)]  # fmt: skip
@@ -379,6 +379,36 @@ def test_an_amount_in_a_unit_masstrail_does_not_read_is_unread_with_the_reason()
     assert set(unread) == {"4.0 gallons", "2 oz"}
     assert "unknown unit 'gallons'" in unread["4.0 gallons"]
     assert "masstrail reads g, mg" in unread["2 oz"]
+
+
+def test_an_amount_with_a_power_of_ten_is_one_unread_quantity_saying_so():
+    """'1.84×10-3 mol' was read as the range '10-3 mol' running backwards, and '5.2 x 10^-3
+    mol' not at all (a silent loss): each is now one unread quantity whose problem asks for a
+    decimal. Portions stay portions: '2 x 10-15 mL' is two of 10-15 mL, '3 x 10 mL' three of
+    10 mL."""
+    lines = extract("NaH (60 mg, 1.5×10-3 mol) was added to the ester (2.0 g, 5.2 x 10^-3 mol) "
+                    "and 3·10⁻⁴ mol of the amine. The solid was washed with 2 x 10-15 mL of "
+                    "ether and 3 x 10 mL water.")  # fmt: skip
+    unread = {line.stated: line.problem for line in lines if line.role == "unread"}
+    assert set(unread) == {"1.5×10-3 mol", "5.2 x 10^-3 mol", "3·10⁻⁴ mol"}
+    assert all("power of ten" in problem for problem in unread.values())
+    inputs = {line.name: line.amounts[0] for line in lines if line.role is None}
+    assert inputs["NaH"].value == 0.06 and inputs["ester"].value == 2.0  # g
+    ether, water = inputs["ether"], inputs["water"]
+    assert (ether.multiplier, ether.low, ether.high) == (2, 10, 15)
+    assert (water.multiplier, water.value) == (3, 10)
+
+
+def test_a_loading_in_mol_percent_and_equivalents_before_a_name_are_inputs():
+    """'5 mol%' was read as the quantity '5 mol' (an unread gap sized as five moles) and
+    '2.0 equiv of NaH' was passed over, NaH missing from the inputs with no gap; both are
+    now equivalents of the input they name."""
+    lines = extract("Pd(OAc)2 (11 mg, 5 mol%), CuI (10 mol %) and 2.0 equiv of NaH were "
+                    "added, then 10 mol% of L-proline.")  # fmt: skip
+    assert not [line for line in lines if line.role == "unread"]
+    got = {line.name: [(a.value, a.unit) for a in line.amounts] for line in lines}
+    assert got == {"Pd(OAc)2": [(0.011, "g"), (0.05, "equiv")], "CuI": [(0.1, "equiv")],
+                   "NaH": [(2.0, "equiv")], "L-proline": [(0.1, "equiv")]}  # fmt: skip
 
 
 def test_every_unit_masstrail_does_not_read_holds_one_of_the_hints_looked_for_first():

@@ -6,8 +6,9 @@ Plugin ``text`` (``masstrail_extract_amounts``). The reader works sentence by se
    or ``ca.``); table rows are left to the readers.
 2. **Characterisation** (``; mp 71–72 °C``, ``, Rf 0.4``, ``: 1H NMR (…)``, HRMS, IR) is the
    tail of a sentence: it is cut off there, and what comes before is read.
-3. **The ledger**: every quantity with a mass, volume or amount-of-substance unit
-   (``4.36 g``, ``3 × 40 mL``, ``50 ml×2``, ``6–8 mL``, ``0.044 mMol``, ``52.4 g.``) is listed,
+3. **The ledger**: every quantity with a mass, volume, amount-of-substance or equivalents
+   unit (``4.36 g``, ``3 × 40 mL``, ``50 ml×2``, ``6–8 mL``, ``0.044 mMol``, ``52.4 g.``,
+   ``2.0 equiv``, ``5 mol%``) is listed,
    and each must end in exactly one class: an input, the product, an intermediate or crude
    mass, a sample, equipment, a condition, characterisation, or **unread**.
 4. **Quantities before their name** (``0.8 g (3.93 mmol) of X``, ``in 10 mL EtOH``,
@@ -39,7 +40,7 @@ from dataclasses import dataclass
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import AmountMention, Entry, MaterialLine, Stage
-from capture.quantities import UNITS, AmountError, parse_amount, plain_amount
+from capture.quantities import TIMES_TEN, UNITS, AmountError, parse_amount, plain_amount
 from masstrail_plugins.extract.brackets import (
     MAYBE_AMOUNT,
     PERCENT_ONLY,
@@ -118,13 +119,14 @@ _AQUEOUS_SOLUTION = re.compile(
     r"(?:sat\.?|saturated)\s+(?:aq\.?|aqueous)\s+\S|(?:aq\.?|aqueous)\s+\S|"
     r"(?:sat\.?|saturated|dilute|dil\.)\s+\S.*|\S.*\s+(?:aqueous|aq\.?)(?:\s+solution)?$)"
 )
-# the ledger's units: mass, volume, amount of substance (as written, longest first)
+# the ledger's units: mass, volume, amount of substance and equivalents ("2.0 equiv of NaH",
+# "10 mol% of CuI": an input weighed against the limiting reagent), as written, longest first
 _LEDGER_UNITS = "|".join(
     sorted(
         {
             re.escape(v)
             for u, (_, kind) in UNITS.items()
-            if kind in {"mass", "volume", "amount"}
+            if kind in {"mass", "volume", "amount", "equivalents"}
             for v in (u, u.replace("μ", "µ"))
         },
         key=len,
@@ -132,8 +134,10 @@ _LEDGER_UNITS = "|".join(
     )
 )  # fmt: skip (the micro sign U+00B5 is written as often as the Greek mu)
 _QUANTITY = re.compile(
-    r"(?<![\w.,/-])(?P<q>(?P<more>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?(?:\d+\s*[×xX*]\s*)?)"
-    r"(?P<num>\d+(?:[.,]\d+)?(?:[eE][-+]?\d+|[⁰¹²³⁴⁵⁶⁷⁸⁹]+)?|[.,]\d+|(?:\d+\s?)?[½⅓⅔¼¾⅛⅜⅝⅞])"
+    r"(?<![\w.,/-])(?P<q>(?P<more>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?"
+    rf"(?:\d+(?!{TIMES_TEN})\s*[×xX*]\s*)?)"  # "3 × 40 mL", but not "2 x 10-3 mol"
+    rf"(?P<num>\d+(?:[.,]\d+)?{TIMES_TEN}|"  # a power of ten: unread, saying why
+    r"\d+(?:[.,]\d+)?(?:[eE][-+]?\d+|[⁰¹²³⁴⁵⁶⁷⁸⁹]+)?|[.,]\d+|(?:\d+\s?)?[½⅓⅔¼¾⅛⅜⅝⅞])"
     r"(?P<range>\s*(?:-|–|—|to)\s*\d+(?:[.,]\d+)?)?"
     rf"\s*(?P<unit>{_LEDGER_UNITS}))(?![\w/])(?P<dot>\.(?!\d))?"
     r"(?:\s*[×x]\s*(?P<times>\d)(?![\d.]))?"
@@ -175,7 +179,7 @@ class _Quantity:
 
 
 def _quantities(text: str, offset: int) -> list[_Quantity]:
-    """Every mass, volume and amount of substance in ``text`` (at ``offset`` in the body)."""
+    """Every mass, volume, amount of substance and equivalents in ``text`` (at ``offset``)."""
     out = []
     for m in _QUANTITY_LED.finditer(text):
         if m.group("range") and _NUMBER_OF_A_REFERENCE.search(text, max(0, m.start() - 40),
