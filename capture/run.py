@@ -314,8 +314,9 @@ def weigh_materials(
     nb: Notebook, materials: list[MaterialLine], infos: dict[int, MaterialInfo | None]
 ) -> tuple[MaterialLine | None, MassContext]:
     """Weigh every line: first those that do not need the limiting reagent, then
-    (``masstrail_choose_limiting``) those stated in equivalents only."""
-    later = {id(m) for m in materials if _equivalents_only(m)}
+    (``masstrail_choose_limiting``) those stated relative to it only (equivalents, a
+    solvent's concentration)."""
+    later = {id(m) for m in materials if _relative_only(m)}
     for line in materials:
         if id(line) not in later:
             weigh(nb, line, infos.get(id(line)), MassContext())
@@ -360,9 +361,12 @@ def error_result(
     )
 
 
-def _equivalents_only(line: MaterialLine) -> bool:
+def _relative_only(line: MaterialLine) -> bool:
+    """A line stated only relative to the limiting reagent: in equivalents ("1.5 equiv"), or
+    a solvent by the concentration it makes ("THF (0.2 M)")."""
     kinds = {a.kind for a in line.amounts}
-    return "equivalents" in kinds and not kinds & {"mass", "volume", "amount"}
+    return bool(kinds & {"equivalents", "concentration"}) and not kinds & {"mass", "volume",
+                                                                           "amount"}  # fmt: skip
 
 
 def _round(x: float | None) -> float | None:

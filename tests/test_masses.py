@@ -66,6 +66,20 @@ def test_a_loading_in_mol_percent_is_weighed_against_the_limiting_reagent():
     assert got.basis.startswith("3 mol% × 10 mmol (ArBr, limiting)")
 
 
+def test_a_solvent_stated_by_its_concentration_is_the_limiting_reagent_s_volume():
+    """'THF (0.2 M)' on 2.5 mmol of limiting reagent: 12.5 mL (common practice: the stated
+    molarity is the limiting reagent's) × 0.889 g/mL (THF, 20 °C, CRC Handbook, from memory);
+    without the limiting reagent, or for a reagent solution ('HCl (2 M)'), it is a problem."""
+    ctx = MassContext(limiting_name="ketone", limiting_mmol=2.5)
+    got = _weigh("THF", "0.2 M", ctx)
+    assert got.mass_g == pytest.approx(12.5 * 0.889)
+    assert got.basis.startswith("12.5 mL = 2.5 mmol (ketone, limiting) ÷ 0.2 M")
+    got = _weigh("THF", "0.2 M")
+    assert got.mass_g is None and "limiting reagent's mmol" in got.problem
+    got = _weigh("HCl", "2 M", ctx)
+    assert got.mass_g is None and got.problem_kind == "no_amount"
+
+
 def test_volume_without_density_or_material_is_a_problem_not_a_guess():
     assert _weigh("MgSO4", "20 mL").problem_kind == "no_density"
     got = _weigh("Kestrel wash blend", "25 mL")

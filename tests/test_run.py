@@ -654,3 +654,32 @@ def test_the_figures_count_every_gap_though_the_sidecar_lists_only_max_gaps(note
               in_estimate=False)  # fmt: skip
     drying = Gap(kind="d", item="MgSO4", severity="minor", message="m", allowance_g=1.0)
     assert _bound_gaps([drying, drying, gas, drying], 2)[-1].allowance_g == 2.0
+
+
+def test_an_academic_style_entry_is_weighed_whole(notebook):
+    """A write-up as academic supporting information words it: the solvent by its
+    concentration, a reagent in equivalents, a catalyst in mol%, the product as 'Yield: …'.
+    Each is weighed (none was: no PMI, a catalyst missing, an unread '5 mol'), the PMI is
+    the inputs over the product, and no quantity is left unread."""
+    notebook.write(
+        "e.md",
+        """
+        ---
+        title: reduction, as a paper writes it
+        product: {name: alcohol}
+        ---
+        The ketone (500 mg, 2.50 mmol) was dissolved in dry THF (0.2 M); NaBH4 (1.5 equiv)
+        and CeCl3 (10 mol%) were added at 0 °C. Yield: 82% (415 mg).
+        """,
+    )
+    notebook.scan()
+    car = notebook.sidecar("e.md")
+    got = {m["name"]: m["mass_g"] for m in car["materials"]}
+    # 12.5 mL THF × 0.889 g/mL; 3.75 mmol NaBH4 × 37.83 g/mol; 0.25 mmol CeCl3 × 246.47
+    # g/mol (IUPAC 2021 weights: Ce 140.116, Cl 35.45; B 10.81, Na 22.990, H 1.008)
+    assert got["THF"] == pytest.approx(12.5 * 0.889, rel=1e-4)
+    assert got["NaBH4"] == pytest.approx(3.75 * 37.83 / 1000, rel=1e-3)
+    assert got["CeCl3"] == pytest.approx(0.25 * 246.47 / 1000, rel=1e-3)
+    assert car["product"]["mass_g"] == 0.415
+    assert car["metrics"]["pmi"] == pytest.approx(sum(got.values()) / 0.415, rel=1e-3)
+    assert not [g for g in car["gaps"] if g["kind"] == "unread_amount"]

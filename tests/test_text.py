@@ -252,7 +252,7 @@ def test_each_quantity_of_the_text_ends_in_exactly_one_place():
     """Every mass, volume, amount of substance and equivalents the ledger finds (outside table
     rows) is one amount of one line (an input, the product, or set aside with its role), or one
     unread line: none is lost and none is counted twice."""
-    from masstrail_plugins.extract.text import _quantities
+    from masstrail_plugins.extract.ledger import quantities
     from masstrail_plugins.prose import sentences
 
     for body in _bodies():
@@ -261,7 +261,7 @@ def test_each_quantity_of_the_text_ends_in_exactly_one_place():
                   if a.span and a.kind in {"mass", "volume", "amount", "equivalents"}}  # fmt: skip
         unreadable = [m for m in lines if m.role == "unread" and not m.amounts]
         starts = [start + m.start for start, text in sentences(body)
-                  if not text.lstrip().startswith("|") for m in _quantities(text, 0)]  # fmt: skip
+                  if not text.lstrip().startswith("|") for m in quantities(text, 0)]  # fmt: skip
         assert len(starts) == len(ledger) + len(unreadable), body[:200]
         assert set(starts) >= ledger, body[:200]
 
@@ -296,7 +296,7 @@ def test_a_name_stops_where_the_next_amount_starts():
 
 
 @pytest.mark.parametrize("module, original, fast", [
-    ("extract.text", "_QUANTITY", "_QUANTITY_LED"),
+    ("extract.ledger", "QUANTITY", "QUANTITY_LED"),
     ("prose", "_CHARACTERISATION_INSIDE", "_CHARACTERISATION_LED"),
     ("gaps.reading", "_ELSEWHERE", "_ELSEWHERE_LED"),
 ])  # fmt: skip
@@ -322,7 +322,7 @@ def test_the_led_quantity_pattern_finds_what_the_quantity_pattern_finds():
     from hypothesis import given
     from hypothesis import strategies as st
 
-    from masstrail_plugins.extract.text import _QUANTITY, _QUANTITY_LED
+    from masstrail_plugins.extract.ledger import QUANTITY, QUANTITY_LED
 
     def spans(p, s):
         return [m.span() for m in p.finditer(s)]
@@ -333,7 +333,7 @@ def test_the_led_quantity_pattern_finds_what_the_quantity_pattern_finds():
 
     @given(st.lists(pieces, max_size=10).map("".join))
     def same(text):
-        assert spans(_QUANTITY_LED, text) == spans(_QUANTITY, text)
+        assert spans(QUANTITY_LED, text) == spans(QUANTITY, text)
 
     same()
 
@@ -409,6 +409,18 @@ def test_a_loading_in_mol_percent_and_equivalents_before_a_name_are_inputs():
     got = {line.name: [(a.value, a.unit) for a in line.amounts] for line in lines}
     assert got == {"Pd(OAc)2": [(0.011, "g"), (0.05, "equiv")], "CuI": [(0.1, "equiv")],
                    "NaH": [(2.0, "equiv")], "L-proline": [(0.1, "equiv")]}  # fmt: skip
+
+
+def test_a_mass_after_a_yield_is_the_product_s():
+    """'Yield: 82% (415 mg)', '82% yield (415 mg)', 'Yield: 415 mg (82%)' and 'Yield = 1.2 g'
+    give the product's mass (each was an unread quantity, and the entry had no PMI); 'the
+    yield (15 mg)' says no yield and stays unread."""
+    for text, grams in [("Yield: 82% (415 mg).", 0.415), ("82% yield (415 mg).", 0.415),
+                        ("Yield: 415 mg (82%).", 0.415), ("Yield = 1.2 g.", 1.2)]:  # fmt: skip
+        (line,) = extract(text)
+        assert line.role == "product" and line.amounts[0].value == pytest.approx(grams), text
+    (line,) = extract("The yield (15 mg) was low.")
+    assert line.role == "unread"
 
 
 def test_every_unit_masstrail_does_not_read_holds_one_of_the_hints_looked_for_first():

@@ -8,9 +8,9 @@ Plugin ``text`` (``masstrail_extract_amounts``). The reader works sentence by se
    tail of a sentence: it is cut off there, and what comes before is read.
 3. **The ledger**: every quantity with a mass, volume, amount-of-substance or equivalents
    unit (``4.36 g``, ``3 × 40 mL``, ``50 ml×2``, ``6–8 mL``, ``0.044 mMol``, ``52.4 g.``,
-   ``2.0 equiv``, ``5 mol%``) is listed,
-   and each must end in exactly one class: an input, the product, an intermediate or crude
-   mass, a sample, equipment, a condition, characterisation, or **unread**.
+   ``2.0 equiv``, ``5 mol%``) is listed (``ledger.py``), and each must end in exactly one
+   class: an input, the product, an intermediate or crude mass, a sample, equipment, a
+   condition, characterisation, or **unread**.
 4. **Quantities before their name** (``0.8 g (3.93 mmol) of X``, ``in 10 mL EtOH``,
    ``8.16 g ammonium acetate (106 mmol)``) are read with the name after them
    (:func:`masstrail_plugins.extract.names.name_after`); a bracket of amounts right after
@@ -35,12 +35,11 @@ from __future__ import annotations
 import contextlib
 import functools
 import re
-from dataclasses import dataclass
 
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import AmountMention, Entry, MaterialLine, Stage
-from capture.quantities import TIMES_TEN, UNITS, AmountError, parse_amount, plain_amount
+from capture.quantities import AmountError, parse_amount
 from masstrail_plugins.extract.brackets import (
     MAYBE_AMOUNT,
     PERCENT_ONLY,
@@ -52,8 +51,9 @@ from masstrail_plugins.extract.brackets import (
     read_group,
 )
 from masstrail_plugins.extract.clauses import Sentence
+from masstrail_plugins.extract.ledger import quantities, quantity_end, why_not
 from masstrail_plugins.extract.names import name_after, name_before
-from masstrail_plugins.prose import characterisation_start, led, sentences
+from masstrail_plugins.prose import characterisation_start, sentences
 
 # "(ca. 30 mL remained)", "(24 L collected for reuse)", "30 mL of solvent were distilled off":
 # what left the flask, not an input
@@ -80,6 +80,13 @@ _UNIT_ASIDE = re.compile(r"\s*(\()\s*\d+(?:[.,]\d+)?\s*[A-Za-z]{1,3}\.?\s*\)")
 _PASSIVE_PRODUCT = re.compile(
     r"\s*(?:\([^()]*\)\s*)?(?:was|were|is|are)\s+(?:then\s+|thereby\s+|thus\s+)?"
     r"(?:obtained|isolated|collected|afforded|produced|formed)\b"
+)
+# "Yield: 82% (415 mg)", "82% yield (415 mg)", "Yield: 415 mg": the mass after a yield is the
+# product's (a bare "the yield (…)" is not enough: a colon, or a percentage, says so)
+_YIELD_BEFORE = re.compile(
+    r"\byield\s*[:=]\s*(?:\d+(?:[.,]\d+)?\s*%\s*)?$|\byield\s*[:=]?\s*\d+(?:[.,]\d+)?\s*%\s*$|"
+    r"\d+(?:[.,]\d+)?\s*%\s*(?:isolated\s+|overall\s+)?yield\s*[:=]?\s*$",
+    re.I,
 )
 # a bracket group, allowing one level of nested brackets inside
 _GROUP = re.compile(r"\(((?:[^()]++|\([^()]*+\))*+)\)")  # possessive: no backtracking
@@ -119,34 +126,6 @@ _AQUEOUS_SOLUTION = re.compile(
     r"(?:sat\.?|saturated)\s+(?:aq\.?|aqueous)\s+\S|(?:aq\.?|aqueous)\s+\S|"
     r"(?:sat\.?|saturated|dilute|dil\.)\s+\S.*|\S.*\s+(?:aqueous|aq\.?)(?:\s+solution)?$)"
 )
-# the ledger's units: mass, volume, amount of substance and equivalents ("2.0 equiv of NaH",
-# "10 mol% of CuI": an input weighed against the limiting reagent), as written, longest first
-_LEDGER_UNITS = "|".join(
-    sorted(
-        {
-            re.escape(v)
-            for u, (_, kind) in UNITS.items()
-            if kind in {"mass", "volume", "amount", "equivalents"}
-            for v in (u, u.replace("μ", "µ"))
-        },
-        key=len,
-        reverse=True,
-    )
-)  # fmt: skip (the micro sign U+00B5 is written as often as the Greek mu)
-_QUANTITY = re.compile(
-    r"(?<![\w.,/-])(?P<q>(?P<more>(?:(?:ca\.?|approx\.?|about|~|≈)\s*)?"
-    rf"(?:\d+(?!{TIMES_TEN})\s*[×xX*]\s*)?)"  # "3 × 40 mL", but not "2 x 10-3 mol"
-    rf"(?P<num>\d+(?:[.,]\d+)?{TIMES_TEN}|"  # a power of ten: unread, saying why
-    r"\d+(?:[.,]\d+)?(?:[eE][-+]?\d+|[⁰¹²³⁴⁵⁶⁷⁸⁹]+)?|[.,]\d+|(?:\d+\s?)?[½⅓⅔¼¾⅛⅜⅝⅞])"
-    r"(?P<range>\s*(?:-|–|—|to)\s*\d+(?:[.,]\d+)?)?"
-    rf"\s*(?P<unit>{_LEDGER_UNITS}))(?![\w/])(?P<dot>\.(?!\d))?"
-    r"(?:\s*[×x]\s*(?P<times>\d)(?![\d.]))?"
-)
-_QUANTITY_LED = led(r"\dca~≈½⅓⅔¼¾⅛⅜⅝⅞.,", _QUANTITY)  # a fifth faster over sentences
-_NUMBER_OF_A_REFERENCE = re.compile(
-    r"\b(?:[Ee]xamples?|[Ss]teps?|[Pp]reparations?|[Ii]ntermediates?|[Cc]ompounds?|[Tt]able|"
-    r"[Ss]cheme|[Ff]ormula|No\.)\s*$"
-)
 # "concentrated to 50 mL", "to a volume of 10 mL", "diluted to ca. 100 mL": a condition
 _CONDITION_BEFORE = re.compile(
     r"\b(?:concentrated|reduced|evaporated|diluted|distilled|made\s+up|adjusted|brought|removed|"
@@ -156,59 +135,6 @@ _CONDITION_BEFORE = re.compile(
     r"|\bvolume\s+of\s+(?:about\s+|ca\.?\s+)?$",
     re.I,
 )
-
-
-@dataclass(slots=True)
-class _Quantity:
-    start: int  # in the sentence
-    end: int
-    match: re.Match
-    offset: int  # of the sentence in the body
-    _amount: AmountMention | bool | None = False  # read when first asked for
-
-    @property
-    def text(self) -> str:
-        return self.match.group(0).rstrip(".")
-
-    @property
-    def amount(self) -> AmountMention | None:
-        """The quantity read (None when it cannot be; its text is kept)."""
-        if self._amount is False:
-            self._amount = _read_quantity(self.match, self.offset)
-        return self._amount
-
-
-def _quantities(text: str, offset: int) -> list[_Quantity]:
-    """Every mass, volume, amount of substance and equivalents in ``text`` (at ``offset``)."""
-    out = []
-    for m in _QUANTITY_LED.finditer(text):
-        if m.group("range") and _NUMBER_OF_A_REFERENCE.search(text, max(0, m.start() - 40),
-                                                               m.start()):  # fmt: skip
-            # "obtained in Example 8 to 60 ml of toluene": 8 numbers the example
-            high = m.start("range") + re.search(r"\d", m.group("range")).start()
-            m = _QUANTITY.match(text, high) or m
-        out.append(_Quantity(m.start(), m.end() if m.group("times") else m.end("q"), m, offset))
-    return out
-
-
-def _read_quantity(m: re.Match, offset: int) -> AmountMention | None:
-    written = m.group(0).rstrip(".")
-    span = (offset + m.start(), offset + m.start() + len(written))
-    num = m.group("num")
-    amount = None
-    if not (m.group("more") or m.group("range") or "," in num) and num.isascii() and \
-            num.replace(".", "").isdigit():  # "2.76 g": the fast path  # fmt: skip
-        amount = plain_amount(num, m.group("unit"), m.group("q"), span)
-    if amount is None:
-        try:
-            amount = parse_amount(m.group("q"), span)
-        except AmountError:
-            return None
-    if amount is not None and (m.group("times") or m.group("dot")):
-        times = int(m.group("times") or 1)
-        amount = amount.model_copy(update={"multiplier": amount.multiplier * times,
-                                           "text": written})  # fmt: skip
-    return amount
 
 
 def _line(name: str, amounts: list[AmountMention], role: str | None, op: tuple[str, Stage],
@@ -276,11 +202,6 @@ def _yield_of(content: str) -> float | None:
     return None
 
 
-def _quantity_end(content: str) -> int:
-    m = _QUANTITY.match(content.lstrip())
-    return (len(content) - len(content.lstrip()) + m.end()) if m else len(content)
-
-
 def _crude(role: str | None, name: str | None, said: str = "") -> str | None:
     """ "crude" for a product's mention that is a crude mass ("the crude aldehyde (1.9 g)"):
     by its name, or by the words as written (``said``: the name reader drops "crude")."""
@@ -319,8 +240,8 @@ class _Reading:
         self.start = start
         cut = characterisation_start(text)
         self.head = text[:cut]
-        self.quantities = _quantities(self.head, start)
-        self.tail = _quantities(text[cut:], start + cut)
+        self.quantities = quantities(self.head, start)
+        self.tail = quantities(text[cut:], start + cut)
         self._s: Sentence | None = None
         self.groups = {m.start(): (m.end(), m.group(1)) for m in _GROUP.finditer(self.head)
                        if _DIGIT.search(m.group(1))
@@ -395,6 +316,10 @@ class _Reading:
                 pos = aside.end()
             if _CONDITION_BEFORE.search(self.head[max(0, q.start - 50) : q.start]):
                 self._add("", amounts, "condition", q.start)
+                done = pos
+                continue
+            if self._after_a_yield(q.start):  # "Yield: 415 mg (82%)": the product's mass
+                self._add("", amounts, "product", q.start)
                 done = pos
                 continue
             taken = _TAKEN_OUT.match(self.head, pos)
@@ -474,11 +399,11 @@ class _Reading:
             return
         role = self._role(gs, what, ge, content)
         inside = _OUT_WORDS.search(content) and _TAKEN_OUT_INSIDE.match(
-            content[_quantity_end(content) :])  # fmt: skip
+            content[quantity_end(content) :])  # fmt: skip
         if inside or _TAKEN_OUT.match(self.head, ge):
             role = "intermediate"
             if inside:  # "(4.8 L collected for the next run)": named by what it says
-                name = " ".join(content[_quantity_end(content) :].split())
+                name = " ".join(content[quantity_end(content) :].split())
         if role is None and (name is not None or mixture is not None or what is None):
             op, stage = self.s.operation(gs)
             for group in read_group(content, offset, name, mixture):
@@ -521,12 +446,18 @@ class _Reading:
             return what
         product = (what in {"product", "intermediate"} or clause is not None
                    or (end is not None and (_PASSIVE_PRODUCT.match(self.head, end)
-                                            or stated_yield)))  # fmt: skip
+                                            or stated_yield))
+                   or self._after_a_yield(pos))  # fmt: skip
         if not product:
             return None
         if taken and what != "product":
             return "intermediate"  # a second output of the same clause: not the product
         return "product"
+
+    def _after_a_yield(self, pos: int) -> bool:
+        """The mention at ``pos`` follows a yield ("Yield: 82% (415 mg)"): the product's."""
+        near = max(0, pos - 40)
+        return "ield" in self.head[near:pos] and bool(_YIELD_BEFORE.search(self.head, near, pos))
 
     # ---------------------------------------------------------------- the rest
     def _add(self, name: str, amounts: list[AmountMention], role: str | None, pos: int,
@@ -547,7 +478,7 @@ class _Reading:
             if any(x < b and a < y for x, y in taken):
                 continue
             amounts = [q.amount] if q.amount else []
-            problem = None if q.amount else _why_not(q.text)
+            problem = None if q.amount else why_not(q.text)
             self._add(q.text, amounts, "unread", q.start, problem=problem, stated=q.text)
         for q in self.tail:
             self._add(q.text, [q.amount] if q.amount else [], "characterisation", q.start)
@@ -559,17 +490,8 @@ class _Reading:
         if not any(hint in low for hint in _FOREIGN_HINTS):
             return
         for m in _FOREIGN_UNIT.finditer(self.head):
-            self._add(m.group(0), [], "unread", m.start(), problem=_why_not(m.group(0)),
+            self._add(m.group(0), [], "unread", m.start(), problem=why_not(m.group(0)),
                       stated=m.group(0))  # fmt: skip
-
-
-def _why_not(text: str) -> str:
-    """Why a quantity of the text could not be read (the amount reader's words)."""
-    try:
-        parse_amount(text)
-    except AmountError as exc:
-        return str(exc)
-    return f"{text!r} could not be read as an amount"
 
 
 def _first_position(line: MaterialLine) -> int:

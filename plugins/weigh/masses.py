@@ -5,7 +5,9 @@ For one material line the first of these that applies gives the mass:
 1. a stated mass (``4.36 g``);
 2. a volume and a density (``25 mL × 0.9487 g/mL``);
 3. an amount of substance and a molar mass (``20 mmol × 218.04 g/mol``);
-4. equivalents, the limiting reagent's amount and a molar mass.
+4. equivalents, the limiting reagent's amount and a molar mass;
+5. a solvent stated by the concentration it makes (``THF (0.2 M)``): the limiting reagent's
+   amount ÷ that molarity, × the density.
 
 The amount of substance is worked out too, where the data allow, so that the
 limiting reagent can be found. Ranges are weighed at their midpoint and say so;
@@ -199,9 +201,25 @@ def _weigh(
             f"({context.limiting_name}, limiting) × {fmt(info.molar_mass)} g/mol ({info.formula})"
         )
         return MassAssignment(mass_g=grams, moles_mmol=mmol, basis=basis)
-    if _first(line, "concentration") is not None:
-        return MassAssignment(
-            problem=f"{line.stated} gives a concentration but no volume; record the volume used",
-            problem_kind="no_amount",
-        )
+    conc = _first(line, "concentration")
+    if conc is not None:
+        return _solvent_by_concentration(line, info, conc, context)
     return None
+
+
+def _solvent_by_concentration(
+    line: MaterialLine, info: MaterialInfo | None, conc: AmountMention, context: MassContext
+) -> MassAssignment:
+    """A solvent stated by the concentration it makes ("dissolved in THF (0.2 M)"): by common
+    practice the limiting reagent's, so its volume is that reagent's mmol ÷ the molarity;
+    anything else stated by a concentration alone has no volume to weigh."""
+    solvent = info is not None and info.category == "solvent" and info.density_g_ml
+    if not solvent or context.limiting_mmol is None or conc.value <= 0:
+        why = "" if not solvent else " (its volume would follow from the limiting reagent's mmol)"
+        return MassAssignment(problem=f"{line.stated} gives a concentration but no volume{why}; "
+                              "record the volume used", problem_kind="no_amount")  # fmt: skip
+    ml = context.limiting_mmol / conc.value  # mmol ÷ mol/L = mL
+    basis = (f"{fmt(ml)} mL = {fmt(context.limiting_mmol)} mmol ({context.limiting_name}, "
+             f"limiting) ÷ {_amount_words(conc)}, the concentration stated, taken as the "
+             f"limiting reagent's (common practice) × {_density_words(info)}")  # fmt: skip
+    return MassAssignment(mass_g=ml * info.density_g_ml, basis=basis)
