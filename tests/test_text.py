@@ -423,6 +423,20 @@ def test_a_mass_after_a_yield_is_the_product_s():
     assert line.role == "unread"
 
 
+def test_what_is_done_to_an_output_is_an_input_and_the_next_output_is_the_product():
+    """'… to give a residue which was triturated with Et2O (2 × 5 mL) to give the amine
+    (0.93 g, 76% yield)': the ether was the product's mention and the amine a second output
+    of the same clause (confidently wrong: 10 mL of ether as the product, the amine set
+    aside). A relative clause that works on the output ends the product clause, and each
+    product word starts its own; 'which was obtained as' does not end it."""
+    lines = extract("The solvent was removed to give a residue which was triturated with Et2O "
+                    "(2 × 5 mL) to give the amine as a white powder (0.93 g, 76% yield).")  # fmt: skip
+    got = {line.name: (line.role, line.operation) for line in lines}
+    assert got == {"Et2O": (None, "trituration"), "white powder": ("product", "product")}
+    (line,) = extract("Workup gave the title compound which was obtained as a white solid (1.2 g).")
+    assert line.role == "product"
+
+
 def test_every_unit_masstrail_does_not_read_holds_one_of_the_hints_looked_for_first():
     """A sentence is searched for unread units only if it holds a hint; every unit the pattern
     names, in any case, singular or plural, holds one, so none is passed over. (A unit added

@@ -24,7 +24,12 @@ _NOT_PRODUCT_AFTER = re.compile(
 # "the solution thus obtained was added to …": what was made before, not this clause's product
 _ADJECTIVAL = re.compile(r"\b(?:thus|so|just|previously)\s+$", re.I)
 # a product word's reach ends with its clause
-_CLAUSE_END = re.compile(r",\s*which\b|;|\band\s+then\b|\bthen\b|,\s*and\s+(?=\w+\s+(?:was|were))")
+_CLAUSE_END = re.compile(
+    r",\s*which\b|;|\band\s+then\b|\bthen\b|,\s*and\s+(?=\w+\s+(?:was|were))"
+    # "to give a residue which was triturated with Et2O (2 × 5 mL)": what was done to it next
+    r"|\b(?:which|that)\s+(?:was|were)\s+(?!(?:then\s+)?(?:obtained|isolated|collected|"
+    r"produced|formed)\b)"
+)
 
 # "… and the product was recrystallised": an operation after this belongs to another clause
 _NEW_CLAUSE = re.compile(r"\band (?:the|then|a|an|this|it)\b|;")
@@ -65,8 +70,10 @@ class Sentence:
         return self.product_clause(pos) is not None
 
     def product_clause(self, pos: int) -> int | None:
-        """Which product clause ``pos`` lies in (its product word's end), if any."""
-        return next((a for a, b in self.products if a <= pos < b), None)
+        """Which product clause ``pos`` lies in (its product word's end), if any: the nearest
+        product word before it ("… to give a solid, recrystallised to give X (1.2 g)": X is
+        the second clause's product, not a second output of the first)."""
+        return max((a for a, b in self.products if a <= pos < b), default=None)
 
     @property
     def evidence(self) -> str:
