@@ -412,15 +412,31 @@ def test_a_loading_in_mol_percent_and_equivalents_before_a_name_are_inputs():
 
 
 def test_a_mass_after_a_yield_is_the_product_s():
-    """'Yield: 82% (415 mg)', '82% yield (415 mg)', 'Yield: 415 mg (82%)' and 'Yield = 1.2 g'
-    give the product's mass (each was an unread quantity, and the entry had no PMI); 'the
-    yield (15 mg)' says no yield and stays unread."""
+    """'Yield: 82% (415 mg)', '82% yield (415 mg)', 'Yield: 415 mg (82%)', 'Yield = 1.2 g'
+    and 'Mass of product: 1.20 g' give the product's mass (each was an unread quantity, and
+    the entry had no PMI); 'Crude yield: 1.2 g' is a crude mass; 'the yield (15 mg)' says no
+    yield and stays unread."""
     for text, grams in [("Yield: 82% (415 mg).", 0.415), ("82% yield (415 mg).", 0.415),
-                        ("Yield: 415 mg (82%).", 0.415), ("Yield = 1.2 g.", 1.2)]:  # fmt: skip
+                        ("Yield: 415 mg (82%).", 0.415), ("Yield = 1.2 g.", 1.2),
+                        ("Mass of product: 1.20 g.", 1.2), ("Product mass: 1.20 g", 1.2),
+                        ("Mass of the dry product = 1.20 g.", 1.2)]:  # fmt: skip
         (line,) = extract(text)
         assert line.role == "product" and line.amounts[0].value == pytest.approx(grams), text
+    (line,) = extract("Crude yield: 1.2 g.")
+    assert (line.role, line.note) == ("product", "crude")
     (line,) = extract("The yield (15 mg) was low.")
     assert line.role == "unread"
+
+
+def test_a_product_mass_that_is_worked_on_further_is_a_crude_mass():
+    """'The product (1.05 g) was recrystallised … to give pale needles (0.91 g)': the first
+    mass is crude, so the entry is not flagged as isolating its product twice (a false major
+    gap before) and the needles give the product mass."""
+    for text in ("The product (1.05 g) was recrystallised from hot ethanol (ca. 8 mL) to give "
+                 "pale needles (0.91 g).", "1.05 g of the product was recrystallised from hot "
+                 "ethanol (ca. 8 mL) to give pale needles (0.91 g)."):  # fmt: skip
+        got = [(line.role, line.note, line.amounts[0].value) for line in extract(text)]
+        assert got == [("product", "crude", 1.05), (None, None, 8.0), ("product", None, 0.91)]
 
 
 def test_what_is_done_to_an_output_is_an_input_and_the_next_output_is_the_product():

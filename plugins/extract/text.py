@@ -81,11 +81,14 @@ _PASSIVE_PRODUCT = re.compile(
     r"\s*(?:\([^()]*\)\s*)?(?:was|were|is|are)\s+(?:then\s+|thereby\s+|thus\s+)?"
     r"(?:obtained|isolated|collected|afforded|produced|formed)\b"
 )
-# "Yield: 82% (415 mg)", "82% yield (415 mg)", "Yield: 415 mg": the mass after a yield is the
-# product's (a bare "the yield (…)" is not enough: a colon, or a percentage, says so)
+# "Yield: 82% (415 mg)", "82% yield (415 mg)", "Yield: 415 mg", "Mass of product: 1.20 g": the
+# mass after a yield or a product's mass is the product's (a bare "the yield (…)" is not
+# enough: a colon, or a percentage, says so)
 _YIELD_BEFORE = re.compile(
     r"\byield\s*[:=]\s*(?:\d+(?:[.,]\d+)?\s*%\s*)?$|\byield\s*[:=]?\s*\d+(?:[.,]\d+)?\s*%\s*$|"
-    r"\d+(?:[.,]\d+)?\s*%\s*(?:isolated\s+|overall\s+)?yield\s*[:=]?\s*$",
+    r"\d+(?:[.,]\d+)?\s*%\s*(?:isolated\s+|overall\s+)?yield\s*[:=]?\s*$|"
+    r"\b(?:(?:mass|weight)\s+of\s+(?:the\s+)?(?:\w+\s+)?product|product\s+(?:mass|weight))"
+    r"\s*(?:\(\w+\)\s*)?[:=]\s*$",
     re.I,
 )
 # a bracket group, allowing one level of nested brackets inside
@@ -202,13 +205,24 @@ def _yield_of(content: str) -> float | None:
     return None
 
 
-def _crude(role: str | None, name: str | None, said: str = "") -> str | None:
+# "The product (1.05 g) was recrystallised …": a mass that was worked on further, not the end
+_WORKED_ON = re.compile(
+    r"\s*(?:was|were)\s+(?:then\s+|further\s+|subsequently\s+)?(?:re-?crystalli[sz]ed|purified|"
+    r"chromatographed|triturated|dissolved|suspended|taken\s+up|distilled|sublimed|subjected|"
+    r"redissolved|slurried|used|carried\s+(?:on|forward|through))\b",
+    re.I,
+)
+
+
+def _crude(role: str | None, name: str | None, said: str = "", after: str = "") -> str | None:
     """ "crude" for a product's mention that is a crude mass ("the crude aldehyde (1.9 g)"):
-    by its name, or by the words as written (``said``: the name reader drops "crude")."""
+    by its name, by the words as written (``said``: the name reader drops "crude"), or by
+    what was done to it next (``after``: "… (1.05 g) was recrystallised")."""
     if role != "product":
         return None
     words = set(re.split(r"[\s-]+", f"{name or ''} {said}".lower()))
-    return "crude" if words & {"crude", "residue", "concentrate"} else None
+    crude = words & {"crude", "residue", "concentrate"} or _WORKED_ON.match(after)
+    return "crude" if crude else None
 
 
 def _inside_a_word(text: str, m: re.Match) -> bool:
@@ -319,7 +333,8 @@ class _Reading:
                 done = pos
                 continue
             if self._after_a_yield(q.start):  # "Yield: 415 mg (82%)": the product's mass
-                self._add("", amounts, "product", q.start)
+                said = self.head[max(0, q.start - 40) : q.start]  # "Crude yield: 1.2 g"
+                self._add("", amounts, "product", q.start, note=_crude("product", None, said))
                 done = pos
                 continue
             taken = _TAKEN_OUT.match(self.head, pos)
@@ -355,7 +370,8 @@ class _Reading:
                 done = mixed[1]
                 continue
             said = self.head[pos:end]
-            self._add(name or what, amounts, role, q.start, note=_crude(role, name, said))
+            self._add(name or what, amounts, role, q.start,
+                      note=_crude(role, name, said, self.head[end : end + 80]))  # fmt: skip
             done = end
 
     def _column_in_bracket(self, q) -> None:
@@ -414,7 +430,7 @@ class _Reading:
         if amounts:
             said = before[-len(name or what or "") - 16 :]  # the name as written, and its lead
             self._add(name or what or "", amounts, role, gs, stated_yield=_yield_of(content),
-                      note=_crude(role, name, said))  # fmt: skip
+                      note=_crude(role, name, said, self.head[ge : ge + 80]))  # fmt: skip
 
     def _name_after_bracket(self, gs: int) -> bool:
         """A bracket of amounts before its name: "reaction of (1.48 g, 5.0 mmol) of X",
@@ -455,9 +471,12 @@ class _Reading:
         return "product"
 
     def _after_a_yield(self, pos: int) -> bool:
-        """The mention at ``pos`` follows a yield ("Yield: 82% (415 mg)"): the product's."""
+        """The mention at ``pos`` follows a yield ("Yield: 82% (415 mg)") or names the product's
+        mass ("Mass of product: 1.20 g"): the product's."""
         near = max(0, pos - 40)
-        return "ield" in self.head[near:pos] and bool(_YIELD_BEFORE.search(self.head, near, pos))
+        words = self.head[near:pos]
+        return ("ield" in words or "roduct" in words) and bool(
+            _YIELD_BEFORE.search(self.head, near, pos))  # fmt: skip
 
     # ---------------------------------------------------------------- the rest
     def _add(self, name: str, amounts: list[AmountMention], role: str | None, pos: int,

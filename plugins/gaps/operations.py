@@ -457,7 +457,8 @@ _QUANT_WORDS = (r"a few drops|few drops|several drops|a drop|one drop|\d+ drops?
                 r"a catalytic amount|catalytic amount|a small amount|a little")  # fmt: skip
 _UNQUANTIFIED = re.compile(
     rf"\b(?P<q>{_QUANT_WORDS})\s+of\s+(?P<name>(?:conc\.\s+|concentrated\s+|glacial\s+)?"
-    r"[A-Za-z0-9(\[][\w\-()\[\]·,']*(?:\s+(?!was\b|were\b|and\b|to\b|in\b)[a-z][\w\-]*)?)"
+    r"[A-Za-z0-9(\[][\w\-()\[\]·,']*(?:\s+(?!(?:was|were|and|to|in|at|for|with|under|over|on|"
+    r"from|by|into|as|then|were|is|are|or|via)\b)[a-z][\w\-]*)?)"
     rf"|(?P<name2>[A-Za-z0-9(\[][\w\-()\[\]·,']*)\s*\((?P<q2>{_QUANT_WORDS}|cat\.|catalytic)\)",
     re.I,
 )
