@@ -419,7 +419,8 @@ def test_a_mass_after_a_yield_is_the_product_s():
     for text, grams in [("Yield: 82% (415 mg).", 0.415), ("82% yield (415 mg).", 0.415),
                         ("Yield: 415 mg (82%).", 0.415), ("Yield = 1.2 g.", 1.2),
                         ("Mass of product: 1.20 g.", 1.2), ("Product mass: 1.20 g", 1.2),
-                        ("Mass of the dry product = 1.20 g.", 1.2)]:  # fmt: skip
+                        ("Mass of the dry product = 1.20 g.", 1.2),
+                        ("Yield 1.1 g (85%); mp 120–122 °C.", 1.1)]:  # fmt: skip
         (line,) = extract(text)
         assert line.role == "product" and line.amounts[0].value == pytest.approx(grams), text
     (line,) = extract("Crude yield: 1.2 g.")

@@ -87,6 +87,7 @@ _PASSIVE_PRODUCT = re.compile(
 _YIELD_BEFORE = re.compile(
     r"\byield\s*[:=]\s*(?:\d+(?:[.,]\d+)?\s*%\s*)?$|\byield\s*[:=]?\s*\d+(?:[.,]\d+)?\s*%\s*$|"
     r"\d+(?:[.,]\d+)?\s*%\s*(?:isolated\s+|overall\s+)?yield\s*[:=]?\s*$|"
+    r"^\s*(?:crude\s+|isolated\s+|overall\s+)?yield\s*[:=]?\s*$|"  # "Yield 1.1 g (85%)"
     r"\b(?:(?:mass|weight)\s+of\s+(?:the\s+)?(?:\w+\s+)?product|product\s+(?:mass|weight))"
     r"\s*(?:\(\w+\)\s*)?[:=]\s*$",
     re.I,
