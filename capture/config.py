@@ -104,6 +104,7 @@ class AllowanceSettings(_Section):
     aspirator_minutes: float | None = Field(None, ge=0)
     drop_ml: float | None = Field(None, gt=0)
     spatula_tip_g: float | None = Field(None, gt=0)
+    spatulaful_g: float | None = Field(None, gt=0)
     crystal_g: float | None = Field(None, gt=0)
     catalytic_amount_g: float | None = Field(None, gt=0)
     assumed_density_g_ml: float | None = Field(None, gt=0)

@@ -257,17 +257,18 @@ def test_a_procedure_of_another_preparation_is_written_elsewhere(notebook):
 
 
 def test_a_text_mention_of_the_product_read_as_an_input_is_said(notebook):
-    """The product written "EtOAc" and a text mention "2.40 g of EtOAc remained": the mention
-    is read as an input (resolved to ethyl acetate), which it may be or not; a major gap names
-    it, and that it weighs what the product weighs."""
+    """The product written "EtOAc" and a text mention "the receiver held 2.40 g of EtOAc":
+    the mention is read as an input (resolved to ethyl acetate), which it may be or not; a
+    major gap names it, and that it weighs what the product weighs. ("2.40 g of EtOAc
+    remained" is read as what was left, not as an input.)"""
     notebook.write("e.md", entry_md("product: {name: EtOAc, mass: 2.40 g}",
                                     "Ethanol (3.0 g) and acetic acid (3.9 g) were heated and "
-                                    "distilled. Then 2.40 g of EtOAc remained in the receiver."))  # fmt: skip
+                                    "distilled. Then the receiver held 2.40 g of EtOAc."))  # fmt: skip
     (result,) = notebook.scan().results
     assert [m.name for m in result.materials] == ["Ethanol", "acetic acid", "EtOAc"]
     (gap,) = [g for g in result.gaps if g.kind == "product_among_inputs"]
     assert "very likely the product's own mention" in gap.message
-    assert gap.evidence.startswith("Then 2.40 g of EtOAc")
+    assert gap.evidence.startswith("Then the receiver held 2.40 g of EtOAc")
 
 
 def test_the_product_counted_as_an_input_is_said(notebook):
@@ -447,3 +448,15 @@ def test_an_unmeasured_addition_is_named_without_the_preposition_after_it():
     info = resolve_builtin("conc. H2SO4", CFG)
     drop_ml = al.value("drop_ml", CFG)[0]
     assert check.gap.allowance_g == pytest.approx(5 * drop_ml * info.density_g_ml, rel=1e-3)
+
+
+@pytest.mark.parametrize("text", ["Anhydrous MgSO4 (approximately 2 spatulas) was added.",
+                                  "Then 2 spatulas of MgSO4 were added."])  # fmt: skip
+def test_spatulas_of_a_solid_are_an_unmeasured_addition_sized_per_spatula(text):
+    """'MgSO4 (approximately 2 spatulas)' was passed over (no 'dried' in the sentence, and the
+    spatula words knew only 'a spatula (tip)'): an unmeasured addition of two spatulafuls."""
+    from masstrail_plugins.gaps.operations import unquantified
+
+    (check,) = unquantified(_ctx(), text)
+    grams, _ = al.value("spatulaful_g", CFG)
+    assert check.item == "MgSO4" and check.gap.allowance_g == pytest.approx(2 * grams)

@@ -420,7 +420,8 @@ def test_a_mass_after_a_yield_is_the_product_s():
                         ("Yield: 415 mg (82%).", 0.415), ("Yield = 1.2 g.", 1.2),
                         ("Mass of product: 1.20 g.", 1.2), ("Product mass: 1.20 g", 1.2),
                         ("Mass of the dry product = 1.20 g.", 1.2),
-                        ("Yield 1.1 g (85%); mp 120–122 °C.", 1.1)]:  # fmt: skip
+                        ("Yield 1.1 g (85%); mp 120–122 °C.", 1.1),
+                        ("The solid was dried to a constant weight of 3.21 g.", 3.21)]:  # fmt: skip
         (line,) = extract(text)
         assert line.role == "product" and line.amounts[0].value == pytest.approx(grams), text
     (line,) = extract("Crude yield: 1.2 g.")
@@ -452,6 +453,16 @@ def test_what_is_done_to_an_output_is_an_input_and_the_next_output_is_the_produc
     assert got == {"Et2O": (None, "trituration"), "white powder": ("product", "product")}
     (line,) = extract("Workup gave the title compound which was obtained as a white solid (1.2 g).")
     assert line.role == "product"
+
+
+def test_what_remained_is_an_output_not_an_input():
+    """'0.82 g of a yellow oil remained' was an input named 'remained' (the verb, with its full
+    stop, was not seen as one), '5 mL of toluene remained' an input: both are what was left.
+    'was left to stand' is not."""
+    got = [(line.role, line.name) for line in extract(
+        "After evaporation, 0.82 g of a yellow oil remained. Then 5 mL of toluene remained. "
+        "Then 3 mL of ether was left to stand.")]  # fmt: skip
+    assert got == [("intermediate", "yellow oil"), ("intermediate", "toluene"), (None, "ether")]
 
 
 def test_every_unit_masstrail_does_not_read_holds_one_of_the_hints_looked_for_first():

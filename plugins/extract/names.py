@@ -223,7 +223,8 @@ def name_after(text: str) -> tuple[str | None, str | None, int]:
     name, what = _resolve(whole, reference)
     if what is not None:  # "a 500 ml round bottomed flask", "the crude product"
         return name, what, ends[-1]
-    cut = next((i for i, w in enumerate(words) if i and _VERB_LIKE.match(w)), len(words))
+    cut = next((i for i, w in enumerate(words) if i and _VERB_LIKE.match(w.rstrip(",;:."))),
+               len(words))  # fmt: skip
     phrase = " ".join(words[:cut]).rstrip(",;:.")  # "isatine represented by", "acetone stirred"
     name, what = _resolve(phrase, reference) if cut < len(words) else (name, what)
     if name is None and what is None and had_of and _BARE_NUMBER.match(phrase):

@@ -58,10 +58,10 @@ from masstrail_plugins.prose import characterisation_start, sentences
 # "(ca. 30 mL remained)", "(24 L collected for reuse)", "30 mL of solvent were distilled off":
 # what left the flask, not an input
 _TAKEN_OUT = re.compile(
-    r"\s*(?:was|were|had\s+been|has\s+been|is|are)\s+(?:then\s+)?(?:collected|distilled|"
-    r"evaporated|removed|recovered|withdrawn|taken\s+out)\b",
+    r"\s*(?:(?:was|were|had\s+been|has\s+been|is|are)\s+(?:then\s+)?(?:collected|distilled|"
+    r"evaporated|removed|recovered|withdrawn|taken\s+out|left\b(?!\s+to\b))|remained)\b",
     re.I,
-)
+)  # "0.82 g of a yellow oil remained", "5 mL was left" (not "was left to stand")
 _TAKEN_OUT_INSIDE = re.compile(
     r"^\s*(?:remained|remaining|left|collected|distilled|evaporated|removed|recovered)\b", re.I
 )
@@ -89,7 +89,8 @@ _YIELD_BEFORE = re.compile(
     r"\d+(?:[.,]\d+)?\s*%\s*(?:isolated\s+|overall\s+)?yield\s*[:=]?\s*$|"
     r"^\s*(?:crude\s+|isolated\s+|overall\s+)?yield\s*[:=]?\s*$|"  # "Yield 1.1 g (85%)"
     r"\b(?:(?:mass|weight)\s+of\s+(?:the\s+)?(?:\w+\s+)?product|product\s+(?:mass|weight))"
-    r"\s*(?:\(\w+\)\s*)?[:=]\s*$",
+    r"\s*(?:\(\w+\)\s*)?[:=]\s*$|"
+    r"\bconstant\s+(?:weight|mass)\s+(?:of\s+)?$",  # "dried to a constant weight of 3.21 g"
     re.I,
 )
 # a bracket group, allowing one level of nested brackets inside
@@ -476,7 +477,7 @@ class _Reading:
         mass ("Mass of product: 1.20 g"): the product's."""
         near = max(0, pos - 40)
         words = self.head[near:pos]
-        return ("ield" in words or "roduct" in words) and bool(
+        return ("ield" in words or "roduct" in words or "onstant" in words) and bool(
             _YIELD_BEFORE.search(self.head, near, pos))  # fmt: skip
 
     # ---------------------------------------------------------------- the rest

@@ -453,15 +453,20 @@ def aspirator(ctx: Context, text: str, seen: set[str]) -> list[RecordCheck]:
 
 # ------------------------------------------------------------------ unquantified additions
 _QUANT_WORDS = (r"a few drops|few drops|several drops|a drop|one drop|\d+ drops?|a spatula tip|"
-                r"spatula tip|a spatula|a pinch|a crystal|a few crystals|a trace|traces|"
-                r"a catalytic amount|catalytic amount|a small amount|a little")  # fmt: skip
+                r"spatula tip|\d+ spatula tips?|a spatula(?:ful)?|\d+ spatulas?(?:ful)?|"
+                r"(?:one|two|three) spatulas?(?:ful)?|a pinch|a crystal|a few crystals|a trace|"
+                r"traces|a catalytic amount|catalytic amount|a small amount|a little")  # fmt: skip
 _UNQUANTIFIED = re.compile(
     rf"\b(?P<q>{_QUANT_WORDS})\s+of\s+(?P<name>(?:conc\.\s+|concentrated\s+|glacial\s+)?"
     r"[A-Za-z0-9(\[][\w\-()\[\]·,']*(?:\s+(?!(?:was|were|and|to|in|at|for|with|under|over|on|"
     r"from|by|into|as|then|were|is|are|or|via)\b)[a-z][\w\-]*)?)"
-    rf"|(?P<name2>[A-Za-z0-9(\[][\w\-()\[\]·,']*)\s*\((?P<q2>{_QUANT_WORDS}|cat\.|catalytic)\)",
+    rf"|(?P<name2>[A-Za-z0-9(\[][\w\-()\[\]·,']*)\s*\((?:approx(?:imately|\.)?\s+|about\s+|"
+    rf"ca\.?\s+|~\s*)?(?P<q2>{_QUANT_WORDS}|cat\.|catalytic)\)",
     re.I,
 )
+
+
+_COUNT = {"a": 1, "one": 1, "two": 2, "three": 3}
 
 
 def _quantity_allowance(q: str, name: str, ctx: Context) -> tuple[float, str]:
@@ -475,6 +480,10 @@ def _quantity_allowance(q: str, name: str, ctx: Context) -> tuple[float, str]:
         ml, basis = al.value("drop_ml", ctx.config)
         d, d_basis = ctx.density(name)
         return n * ml * d, f"{n} drop(s) × {ml:g} mL ({basis}) × {d_basis}"
+    if "spatula" in q and "tip" not in q:  # "2 spatulas of MgSO4": each a spatulaful
+        n = _COUNT.get(q.split()[0]) or (int(q.split()[0]) if q.split()[0].isdigit() else 1)
+        grams, basis = al.value("spatulaful_g", ctx.config)
+        return n * grams, f"{n} × {grams:g} g ({basis})"
     if "spatula" in q or "pinch" in q:
         return al.value("spatula_tip_g", ctx.config)
     if "crystal" in q:
