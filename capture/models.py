@@ -159,6 +159,7 @@ class Entry(BaseModel):
     balance_log: list[str] = Field(default_factory=list)
     materials: list[StructuredMaterial] = Field(default_factory=list)
     table_materials: list[StructuredMaterial] = Field(default_factory=list)
+    unread_tables: list[str] = Field(default_factory=list)  # "line N: | header |", a gap each
     recovered: list[Recovered] = Field(default_factory=list)
     amounts_from_text: bool = Field(
         True,

@@ -144,6 +144,68 @@ def test_pipe_tables_with_name_and_amount_columns():
     ]
 
 
+def test_a_stoichiometry_table_with_units_in_its_headers_is_read():
+    """An electronic notebook's reaction table puts the unit in the header and bare numbers in
+    the cells ("Mass (mg)", "Volume (µL)", "mmol", "Equiv", "V [mL]", "mass / g"): each cell
+    takes its column's unit. A property column (MW in g/mol, density, yield in %) is not an
+    amount. (Such a table was passed over whole: no inputs, a blocking gap.)"""
+    body = """
+| Reactant | MW (g/mol) | Equiv | mmol | Mass (mg) | Volume (µL) | Density (g/mL) |
+|---|---|---|---|---|---|---|
+| benzylamine | 107.15 | 1.1 | 2.20 | 236 | 240 | 0.981 |
+| HATU | 380.23 | 1.2 | 2.40 | 913 | | |
+
+| Component | V [mL] | mass / g | Yield (%) |
+|---|---|---|---|
+| DMF | 5.0 | | |
+| Celite | | ca. 2 | 50 |
+"""
+    rows = [(r.name, r.amount) for r in read_tables(body)]
+    assert rows == [("benzylamine", "1.1 equiv, 2.20 mmol, 236 mg, 240 μL"),
+                    ("HATU", "1.2 equiv, 2.40 mmol, 913 mg"), ("DMF", "5.0 mL"),
+                    ("Celite", "ca. 2 g")]  # fmt: skip
+
+
+def test_an_entry_with_a_stoichiometry_table_has_its_figures(notebook):
+    """The table's masses are the records (mass wins over the volume beside it); DMF by its
+    volume × 0.9487 g/mL (CRC Handbook, 20 °C, from memory); PMI = inputs ÷ product."""
+    notebook.write("e.md", entry_md("product: {name: amide, mass: 0.412 g}", """
+        | Reagent | MW (g/mol) | Equiv | mmol | Mass (mg) | Volume (µL) |
+        |---|---|---|---|---|---|
+        | benzoic acid | 122.12 | 1.0 | 2.00 | 244 | |
+        | DIPEA | 129.24 | 3.0 | 6.00 | 775 | 1045 |
+        | DMF | | | | | 5000 |
+        """))  # fmt: skip
+    notebook.scan()
+    car = notebook.sidecar("e.md")
+    got = {m["name"]: m["mass_g"] for m in car["materials"]}
+    assert got == pytest.approx({"benzoic acid": 0.244, "DIPEA": 0.775, "DMF": 5.0 * 0.9487})
+    assert car["metrics"]["pmi"] == pytest.approx(sum(got.values()) / 0.412, rel=1e-3)
+
+
+def test_a_table_of_materials_without_an_amount_column_is_a_gap_not_lost(notebook):
+    """'| Reagent | MW | n |' names materials with numbers, but no column is an amount: a major
+    gap table_not_read names the table's line and header, and the entry's other figures
+    stand. A table of conditions (no name column) is not one."""
+    notebook.write("e.md", entry_md("product: {name: amide, mass: 0.412 g}", """
+        | Time | Temperature |
+        |---|---|
+        | 1 h | 20 °C |
+
+        | Reagent | MW | n |
+        |---|---|---|
+        | benzoic acid | 122.12 | 2.0 |
+
+        The acid (244 mg) was stirred in DMF (5 mL).
+        """))  # fmt: skip
+    notebook.scan()
+    car = notebook.sidecar("e.md")
+    (gap,) = [g for g in car["gaps"] if g["kind"] == "table_not_read"]
+    assert gap["item"] == "table, line 6 of the text" and gap["severity"] == "major"
+    assert gap["evidence"] == "line 6: | Reagent | MW | n |"
+    assert car["metrics"]["pmi"] is not None
+
+
 def test_a_product_name_with_a_comma_in_a_flow_mapping_is_a_clear_error(notebook):
     """'{name: 2-(4-(benzyloxy)phenyl)-1,3-dioxolane, mass: 1.2 g}' splits at the comma; the
     entry is refused with the same message as for materials, never cut silently."""

@@ -8,9 +8,10 @@ The built-in rules run in this order:
    additions), each checked against the entry's records;
 2. ``records`` (``masstrail_find_gaps``): the product mass, every material without
    a mass, no input weighed at all, a product heavier than its inputs, a yield above 100 %;
-   ``reading`` (``masstrail_find_gaps``): quantities the text states that were not read, a
-   procedure written elsewhere, a product isolated several times, masses that disagree
-   with their moles, stated yields that disagree with the masses;
+   ``reading`` (``masstrail_find_gaps``): quantities the text states that were not read,
+   tables of materials with no amount column masstrail reads, a procedure written
+   elsewhere, a product isolated several times, masses that disagree with their moles,
+   stated yields that disagree with the masses;
 3. ``grading`` (``masstrail_grade_gaps``): each gap's severity from its allowance.
 
 Allowances come from ``allowances`` and ``data/allowances.toml`` (whose version is part of
@@ -26,6 +27,7 @@ from masstrail_plugins.gaps.reading import (
     procedure_elsewhere_gaps,
     several_products_gaps,
     unread_gaps,
+    unread_table_gaps,
 )
 from masstrail_plugins.gaps.records import (
     product_mass_gaps,
@@ -45,5 +47,6 @@ __all__ = [
     "recovered_gaps",
     "several_products_gaps",
     "unread_gaps",
+    "unread_table_gaps",
     "weighing_gaps",
 ]

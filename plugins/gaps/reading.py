@@ -114,6 +114,21 @@ def several_products_gaps(
 
 
 @hookimpl(specname="masstrail_find_gaps")
+def unread_table_gaps(entry: Entry) -> list[Gap]:
+    """A table that names materials but has no amount column masstrail reads: its amounts are
+    not in the figures (a major gap each, unsized)."""
+    return [Gap(
+        kind="table_not_read", item=f"table, {where.split(':')[0]} of the text", severity="major",
+        missing_mass=True,
+        evidence=where,
+        message="this table names materials but none of its columns is an amount masstrail "
+        "reads, so its amounts are not in the figures: head a column 'Amount' (cells with "
+        "units, '244 mg'), or put the unit in the header: 'Mass (mg)', 'Volume (mL)', 'mmol', "
+        "'Equiv'",
+    ) for where in entry.unread_tables]  # fmt: skip
+
+
+@hookimpl(specname="masstrail_find_gaps")
 def procedure_elsewhere_gaps(entry: Entry) -> list[Gap]:
     """An entry whose procedure is written elsewhere misses that procedure's materials."""
     m = _ELSEWHERE_LED.search(entry.body)

@@ -17,6 +17,7 @@ from pydantic import ValidationError
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, StructuredMaterial
+from capture.quantities import canonical_factor, normalise
 from capture.safeio import InputError, decode_text, load_json
 from capture.safeyaml import load_yaml
 
@@ -37,9 +38,36 @@ KNOWN_KEYS = {
 }
 
 _NAME_HEADERS = {"material", "materials", "reagent", "reagents", "chemical", "chemicals",
-                 "compound", "compounds", "name", "substance"}  # fmt: skip
+                 "compound", "compounds", "name", "substance", "reactant", "reactants",
+                 "component", "components"}  # fmt: skip
 _AMOUNT_HEADERS = {"amount", "quantity", "qty", "mass", "volume", "amount used", "weight"}
 _ROLE_HEADERS = {"role", "function", "use"}
+# a header that names its unit: "Mass (mg)", "V [mL]", "mass / g", or a unit alone: "mmol",
+# "Equiv" (the stoichiometry table of an electronic notebook: its cells are bare numbers)
+_HEADER_UNIT = re.compile(
+    r"^(?P<label>[^(\[/]*?)\s*(?:\((?P<a>[^()]+)\)|\[(?P<b>[^\]]+)\]|/\s*(?P<c>\S+))$"
+)
+_BARE_NUMBER = re.compile(
+    r"^(?:ca\.?\s*|approx\.?\s*|[~≈]\s*)?\d+(?:[.,]\d+)?(?:\s*[-–]\s*\d+(?:[.,]\d+)?)?$"
+)
+_TABLE_KINDS = {"mass", "volume", "amount", "equivalents", "concentration"}
+_DIGIT = re.compile(r"\d")
+
+
+def _header_unit(header: str) -> str | None:
+    """The unit an amount column's header names ("Mass (mg)" → "mg", "mmol", "Equiv"), or
+    None (a plain "Amount" column, whose cells hold their units, or not an amount column:
+    "MW (g/mol)", "Density (g/mL)", "Yield (%)")."""
+    m = _HEADER_UNIT.match(header)
+    unit = (m.group("a") or m.group("b") or m.group("c")) if m else header
+    unit = normalise(unit.strip())
+    for written in (unit, unit.lower()):
+        known = canonical_factor(written)
+        if known is not None and known[1] in _TABLE_KINDS:
+            return written
+    return None
+
+
 _ROW = re.compile(r"^\s*\|(.*)\|\s*$")
 _RULE = re.compile(r"^\s*\|?\s*:?-{2,}:?\s*(\|\s*:?-{2,}:?\s*)*\|?\s*$")
 
@@ -49,8 +77,11 @@ def _cells(line: str) -> list[str]:
     return [c.strip() for c in m.group(1).split("|")] if m else []
 
 
-def read_tables(body: str, limit: int | None = None) -> list[StructuredMaterial]:
-    """Materials from every pipe table whose header has a name and an amount column."""
+def read_tables(body: str, limit: int | None = None,
+                unread: list[str] | None = None) -> list[StructuredMaterial]:  # fmt: skip
+    """Materials from every pipe table whose header has a name and an amount column; a table
+    with a name column and numbers but no amount column masstrail reads is added to
+    ``unread`` ("line 3: | Reagent | MW | n |"), so that its amounts are a gap, not lost."""
     lines = body.split("\n")
     found: list[StructuredMaterial] = []
     i = 0
@@ -61,8 +92,13 @@ def read_tables(body: str, limit: int | None = None) -> list[StructuredMaterial]
             continue
         low = [h.casefold() for h in header]
         name_col = next((k for k, h in enumerate(low) if h in _NAME_HEADERS), None)
-        amount_cols = [k for k, h in enumerate(low) if h in _AMOUNT_HEADERS]
+        units = {k: _header_unit(h) for k, h in enumerate(header) if low[k] not in _NAME_HEADERS}
+        amount_cols = [k for k, h in enumerate(low) if h in _AMOUNT_HEADERS or units.get(k)]
         role_col = next((k for k, h in enumerate(low) if h in _ROLE_HEADERS), None)
+        if unread is not None and name_col is not None and not amount_cols and any(
+                _DIGIT.search(c) for row in _rows_of(lines, i + 2)
+                for k, c in enumerate(row) if k != name_col):  # fmt: skip
+            unread.append(f"line {i + 1}: {lines[i].strip()[:200]}")
         i += 2
         while i < len(lines) and _ROW.match(lines[i]):
             row = _cells(lines[i])
@@ -72,7 +108,8 @@ def read_tables(body: str, limit: int | None = None) -> list[StructuredMaterial]
             name = row[name_col].strip("*_ ")
             if not name:
                 continue
-            amounts = [row[k] for k in amount_cols if k < len(row) and row[k] not in {"", "-", "–"}]
+            amounts = [_with_unit(row[k], units.get(k)) for k in amount_cols
+                       if k < len(row) and row[k] not in {"", "-", "–"}]  # fmt: skip
             role = row[role_col] if role_col is not None and role_col < len(row) else None
             found.append(
                 StructuredMaterial(
@@ -85,6 +122,19 @@ def read_tables(body: str, limit: int | None = None) -> list[StructuredMaterial]
             if limit is not None and len(found) >= limit:
                 return found  # enough to know the entry is over the limit
     return found
+
+
+def _rows_of(lines: list[str], start: int):
+    """The cells of each row of the table whose rows begin at ``start``."""
+    for line in lines[start:]:
+        if not _ROW.match(line):
+            return
+        yield _cells(line)
+
+
+def _with_unit(cell: str, unit: str | None) -> str:
+    """A cell as an amount: a bare number takes its column's unit ("244" under "Mass (mg)")."""
+    return f"{cell} {unit}" if unit and _BARE_NUMBER.match(cell) else cell
 
 
 def _split_front_matter(text: str) -> tuple[str, str, int]:
@@ -118,7 +168,8 @@ def build_entry(
     if not isinstance(meta, dict):
         raise InputError(f"the {where or 'front matter'} must be a mapping of keys to values")
     listed = meta.get("materials")
-    tables = read_tables(body, max_materials + 1)
+    unread: list[str] = []
+    tables = read_tables(body, max_materials + 1, unread)
     count = (len(listed) if isinstance(listed, list) else 0) + len(tables)
     if count > max_materials:
         raise InputError(
@@ -139,6 +190,7 @@ def build_entry(
             format=fmt,
             body=body,
             table_materials=tables,
+            unread_tables=unread,
             extra=extra,
         )
     except ValidationError as exc:
