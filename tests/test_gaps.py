@@ -460,3 +460,38 @@ def test_spatulas_of_a_solid_are_an_unmeasured_addition_sized_per_spatula(text):
     (check,) = unquantified(_ctx(), text)
     grams, _ = al.value("spatulaful_g", CFG)
     assert check.item == "MgSO4" and check.gap.allowance_g == pytest.approx(2 * grams)
+
+
+def test_a_product_row_in_mmol_is_never_read_as_grams(notebook):
+    """A reaction table's product row '10.0 mmol, 1682 mg' gave a product of 10 g (its first
+    amount, in mmol, read as grams): the mass is taken, and a row in mmol alone gives no
+    product mass (a blocking gap), never a number in the wrong unit."""
+    table = ("| Reagent | mmol | Mass (mg) | Role |\n|---|---|---|---|\n"
+             "| 4-bromotoluene | 10.0 | 1710 | limiting reagent |\n"
+             "| 4-methylbiphenyl | 10.0 | {mass} | product |\n")  # fmt: skip
+    notebook.write("a.md", entry_md("product: {name: 4-methylbiphenyl}", table.format(mass=1290)))
+    notebook.write("b.md", entry_md("product: {name: 4-methylbiphenyl}", table.format(mass="")))
+    notebook.scan()
+    assert notebook.sidecar("a.md")["product"]["mass_g"] == 1.29
+    b = notebook.sidecar("b.md")
+    assert b["product"]["mass_g"] is None
+    assert any(g["kind"] == "product_mass_missing" for g in b["gaps"])
+
+
+def test_a_product_mass_at_the_theoretical_yield_is_questioned(notebook):
+    """1.682 g of 4-methylbiphenyl (C13H12, 168.24 g/mol from IUPAC 2021 weights) from
+    10.0 mmol of limiting reagent is 99.98 %: a minor gap asks whether it is the theoretical
+    mass; a stated 'quant.' yield (100 %) is not questioned, nor is 90 %."""
+
+    def entry(mass, said=""):
+        return entry_md(f"product: {{name: 4-methylbiphenyl, formula: C13H12, mass: {mass}}}\n"
+                        "materials: [{name: 4-bromotoluene, amount: '1.710 g, 10.0 mmol', "
+                        "role: limiting reagent}]", said)  # fmt: skip
+
+    notebook.write("a.md", entry("1.682 g"))
+    notebook.write("b.md", entry("1.514 g"))
+    notebook.write("c.md", entry("1.682 g", "It gave the biaryl (1.682 g, 100%)."))
+    notebook.scan()
+    kinds = {n: {g["kind"] for g in notebook.sidecar(n)["gaps"]} for n in ("a.md", "b.md", "c.md")}
+    assert "yield_theoretical" in kinds["a.md"]
+    assert "yield_theoretical" not in kinds["b.md"] | kinds["c.md"]

@@ -23,7 +23,8 @@ BLOCKING = {
 }
 ALWAYS_MINOR = {"conflicting_amounts", "conflicting_product_mass", "eluent_composition",
                 "aspirator_water", "unassigned_reading", "unstable_reading",
-                "balance_reading_date", "balance_row_unreadable", "yield_mismatch"}  # fmt: skip
+                "balance_reading_date", "balance_row_unreadable", "yield_mismatch",
+                "yield_theoretical"}  # fmt: skip
 ALWAYS_MAJOR = {"yield_above_100", "balance_log_refused", "balance_log_unreadable",
                 "balance_difference_not_positive", "mass_moles_mismatch",
                 "procedure_elsewhere", "product_mass_from_yield"}  # fmt: skip

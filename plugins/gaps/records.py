@@ -205,6 +205,13 @@ def product_sanity_gaps(
             message=f"the yield works out at {y:.2%}; a unit may be wrong (mg for g?) or the "
             "mass may be a sample's only. Check the product mass before using the E-factor",
         ))  # fmt: skip
+    if y is not None and 0.995 <= y <= 1.0 and not any(v >= 0.99 for v in stated):
+        gaps.append(Gap(  # an electronic notebook's reaction table lists the theoretical mass
+            kind="yield_theoretical", item=product.name or "product", severity="minor",
+            evidence=basis,
+            message=f"the product mass gives a yield of {y:.1%}, the theoretical mass; if it "
+            "is the theoretical yield (a reaction table lists it), record the mass isolated",
+        ))  # fmt: skip
     if y is not None and y > 1.0:
         gaps.append(
             Gap(

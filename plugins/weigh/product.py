@@ -45,14 +45,24 @@ def _recorded_line(name: str, mass: str) -> MaterialLine:
     return line
 
 
+def _mass_of(mention: MaterialLine | None):
+    """The mass a product's mention states, if it states one ("10.0 mmol, 1682 mg": 1682 mg;
+    a mention in mmol or mL alone gives no mass: it is never read as grams)."""
+    return next((a for a in mention.amounts if a.kind == "mass"), None) if mention else None
+
+
+def _where(mention: MaterialLine) -> str:
+    return "a materials table" if mention.origin == "table" else "the text"
+
+
 def _from_text(entry: Entry, formula: str | None, mention: MaterialLine) -> ProductOut:
-    said = mention.amounts[0]
+    said = _mass_of(mention)
     mm = info_from_formula(entry.product.name or "product", formula) if formula else None
     return ProductOut(
         name=entry.product.name,
         formula=formula,
         mass_g=round(said.total, 4),
-        basis=f"{said.text} as reported in the text: {mention.evidence}",
+        basis=f"{said.text} as reported in {_where(mention)}: {mention.evidence}",
         molar_mass=mm.molar_mass if mm else None,
     )
 
@@ -108,7 +118,7 @@ def product_of_entry(
     p = entry.product
     formula = p.formula or (formula_from_smiles(p.smiles) if p.smiles else None) or (
         formula_from_smiles(p.name) if p.name and looks_like_smiles(p.name) else None)  # fmt: skip
-    said = mention.amounts[0] if mention is not None and mention.amounts else None
+    said = _mass_of(mention)
     gaps: list[Gap] = []
     if not p.mass:
         if said is None:
@@ -130,8 +140,9 @@ def product_of_entry(
                 abs(said.total - out.mass_g) > 0.005 * out.mass_g:  # fmt: skip
             gaps.append(Gap(kind="conflicting_product_mass", item=p.name or "product",
                             severity="minor", evidence=mention.evidence,
-                            message=f"the front matter gives {p.mass} and the text {said.text}; "
-                            "the front matter is used. Correct whichever is wrong"))  # fmt: skip
+                            message=f"the front matter gives {p.mass} and {_where(mention)} "
+                            f"{said.text}; the front matter is used. Correct whichever is "
+                            "wrong"))  # fmt: skip
     if reading is not None:
         typed = f"; the front matter says {p.mass}" if p.mass else ""
         gaps = []  # the balance settles what the typed records disagree on
