@@ -683,3 +683,25 @@ def test_an_academic_style_entry_is_weighed_whole(notebook):
     assert car["product"]["mass_g"] == 0.415
     assert car["metrics"]["pmi"] == pytest.approx(sum(got.values()) / 0.415, rel=1e-3)
     assert not [g for g in car["gaps"] if g["kind"] == "unread_amount"]
+
+
+@pytest.mark.parametrize("tail", [
+    "Concentration of the mother liquor gave a second crop (0.35 g).",
+    "A second crop of crystals (0.35 g) was obtained from the mother liquor, giving a total of "
+    "2.27 g. The reaction was repeated on a larger scale (5.0 g of aniline).",
+])  # fmt: skip
+def test_a_second_crop_adds_to_the_product(notebook, tail):
+    """'… to give acetanilide (1.92 g). … a second crop (0.35 g)': the product is 2.27 g (it
+    was 0.35 g: the last mention alone, confidently wrong), whether the text adds them up or
+    masstrail does; no 'isolated several times' gap; a larger run's size ('on a larger scale
+    (5.0 g of aniline)') is a condition, not an input (it was 5.0 g of 'larger scale')."""
+    notebook.write("e.md", entry_md("product: {name: acetanilide}",
+                                    "Aniline (2.00 g) in water (20 mL) was treated with acetic "
+                                    "anhydride (2.5 mL). The solid was recrystallised from hot "
+                                    f"water (30 mL) to give acetanilide (1.92 g). {tail}"))  # fmt: skip
+    notebook.scan()
+    car = notebook.sidecar("e.md")
+    assert car["product"]["mass_g"] == pytest.approx(2.27)
+    assert not [g for g in car["gaps"] if g["kind"] == "several_product_masses"]
+    assert sorted(m["name"] for m in car["materials"]) == ["Aniline", "acetic anhydride",
+                                                          "water", "water"]  # fmt: skip

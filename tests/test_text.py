@@ -465,6 +465,16 @@ def test_what_remained_is_an_output_not_an_input():
     assert got == [("intermediate", "yellow oil"), ("intermediate", "toluene"), (None, "ether")]
 
 
+def test_a_total_with_no_name_after_it_is_the_product_and_with_one_an_input():
+    """'giving a total of 2.27 g' is the product's whole mass; 'a total of 50 mL of water'
+    is water."""
+    got = [(line.role, line.name, line.note) for line in extract(
+        "A second crop (0.35 g) was obtained, giving a total of 2.27 g. A total of 50 mL of "
+        "water was used.")]  # fmt: skip
+    assert got == [("product", "second crop", "crop"), ("product", "product", "total"),
+                   (None, "water", None)]  # fmt: skip
+
+
 def test_every_unit_masstrail_does_not_read_holds_one_of_the_hints_looked_for_first():
     """A sentence is searched for unread units only if it holds a hint; every unit the pattern
     names, in any case, singular or plural, holds one, so none is passed over. (A unit added

@@ -20,7 +20,8 @@ Plugin ``merge`` (``masstrail_merge_materials``):
 - an output of the text named as the product (a part of what was recovered, what was
   collected) is a mention of the product;
 - the product's text record is its last isolated mention (``… to give the amide (2.41 g)``),
-  else its last crude one: a recrystallised product wins over the crude mass before it.
+  else its last crude one: a recrystallised product wins over the crude mass before it; a
+  further crop after the last whole mention (``a second crop (0.35 g)``) is added to it.
 
 Stages are compared only when both lines know theirs: ``washed with ice-cold ethanol
 (2 × 5 mL)`` is not the ``ethanol, 10 mL`` used as the reaction solvent.
@@ -118,10 +119,28 @@ def _conflict(kept: MaterialLine, line: MaterialLine) -> Gap:
 
 
 def _product_mention(set_aside: list[MaterialLine]) -> MaterialLine | None:
-    """The last isolated mention of the product, else the last crude one."""
+    """The last isolated mention of the product, else the last crude one; further crops after
+    the last whole mention ("… a second crop (0.21 g)") are added to it."""
     mentions = [m for m in set_aside if m.role == "product" and m.amounts]
     isolated = [m for m in mentions if m.note != "crude"]
-    return (isolated or mentions or [None])[-1]
+    chosen = (isolated or mentions or [None])[-1]
+    if chosen is None or chosen.note != "crop":
+        return chosen
+    whole = [i for i, m in enumerate(isolated) if m.note != "crop"]
+    return _with_crops(isolated[whole[-1] :]) if whole else chosen
+
+
+def _with_crops(parts: list[MaterialLine]) -> MaterialLine:
+    """One mention of the product: a whole mass and the crops after it, added (each must be a
+    mass; else the last crop, as before)."""
+    masses = [next((a for a in m.amounts if a.kind == "mass"), None) for m in parts]
+    if any(a is None for a in masses):
+        return parts[-1]
+    said = " + ".join(f"{a.text} ({m.name})" if m.note == "crop" else a.text
+                      for m, a in zip(parts, masses, strict=True))  # fmt: skip
+    total = AmountMention(value=sum(a.total for a in masses), unit="g", kind="mass", text=said)
+    return parts[0].model_copy(update={"amounts": [total], "stated": said,
+                                       "note": "crops added"})  # fmt: skip
 
 
 @hookimpl(specname="masstrail_merge_materials")

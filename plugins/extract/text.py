@@ -113,6 +113,14 @@ _PERCENT_REMARK = re.compile(r"\d+(?:[.,]\d+)?\s*%\s+\w")  # "(35% calculated fr
 _COLUMN_AFTER = re.compile(r"\s*(?:[\w-]+\s+){0,2}?(?:column|cartridge)s?\b", re.I)
 # "each 600 mg scale", "a 2-g batch", "200mg trial purification": the size of a run, no material
 _GRADIENT = re.compile(r"\d\s*%?\s*(?:[-–]|to)\s*\d+(?:\.\d+)?\s*%")  # "0-10% MeOH/DCM"
+# "giving a total of 1.45 g", "combined yield 1.45 g": the product's whole mass (with no name
+# after it: "a total of 50 mL of water" is water)
+_TOTAL_BEFORE = re.compile(
+    r"\btotal\s+(?:yield\s+|mass\s+)?(?:of\s+)?$|\bcombined\s+(?:yield|mass|weight)\s*[:=]?\s*"
+    r"(?:of\s+)?$",
+    re.I,
+)
+_RUN_SIZE = re.compile(r"\bscale$", re.I)  # a bracket after "scale" gives the run's size
 _SCALE_AFTER = re.compile(
     r"[\s-]*(?:trial\s+|test\s+)?(?:scale|batch|run|experiment|purification|"
     r"reaction(?!\s+(?:mixture|solution|solvent|medium|vessel|flask|vial|tube|reactor)))\b"
@@ -219,10 +227,13 @@ _WORKED_ON = re.compile(
 def _crude(role: str | None, name: str | None, said: str = "", after: str = "") -> str | None:
     """ "crude" for a product's mention that is a crude mass ("the crude aldehyde (1.9 g)"):
     by its name, by the words as written (``said``: the name reader drops "crude"), or by
-    what was done to it next (``after``: "… (1.05 g) was recrystallised")."""
+    what was done to it next (``after``: "… (1.05 g) was recrystallised"); "crop" for a
+    further crop ("a second crop (0.21 g)")."""
     if role != "product":
         return None
     words = set(re.split(r"[\s-]+", f"{name or ''} {said}".lower()))
+    if words & {"crop", "crops"}:
+        return "crop"  # "a second crop (0.21 g)": more of the product, added to it (merge)
     crude = words & {"crude", "residue", "concentrate"} or _WORKED_ON.match(after)
     return "crude" if crude else None
 
@@ -355,6 +366,10 @@ class _Reading:
                 continue
             name, what, k = name_after(self.head[pos:])
             if name is None and what is None:
+                if _TOTAL_BEFORE.search(self.head, max(0, q.start - 30), q.start):
+                    self._add("", amounts, "product", q.start, note="total")  # "a total of 1.45 g"
+                    done = pos
+                    continue
                 if _EQUIPMENT_AFTER.match(self.head, pos):  # "a 1 l., 3-neck round-bottom flask"
                     self._add("equipment", amounts, "equipment", q.start)
                     done = pos
@@ -416,6 +431,8 @@ class _Reading:
         if name is None and what is None and mixture is None and self._name_after_bracket(gs):
             return
         role = self._role(gs, what, ge, content)
+        if name is not None and _RUN_SIZE.search(name):  # "on a larger scale (5.0 g of X)"
+            role, name = "condition", "scale"
         inside = _OUT_WORDS.search(content) and _TAKEN_OUT_INSIDE.match(
             content[quantity_end(content) :])  # fmt: skip
         if inside or _TAKEN_OUT.match(self.head, ge):

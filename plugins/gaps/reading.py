@@ -95,7 +95,9 @@ def several_products_gaps(
     against the one mass masstrail takes (the last isolated)."""
     if entry.product.mass or product.mass_g is None:
         return []
-    masses = [(m, a.total) for m in set_aside if m.role == "product" and m.note != "crude"
+    mentions = [m for m in set_aside if m.role == "product" and m.note not in {"crude", "crop"}]
+    totals = [i for i, m in enumerate(mentions) if m.note == "total"]  # "a total of 2.27 g"
+    masses = [(m, a.total) for m in mentions[totals[-1] if totals else 0 :]
               for a in m.amounts[:1] if a.kind == "mass"]  # fmt: skip
     grams = [g for _, g in masses]
     if len(grams) < 2 or max(grams) - min(grams) <= 0.05 * max(grams):
