@@ -475,6 +475,18 @@ def test_a_total_with_no_name_after_it_is_the_product_and_with_one_an_input():
                    (None, "water", None)]  # fmt: skip
 
 
+def test_a_theoretical_yield_is_a_figure_and_what_was_recovered_an_output():
+    """A student's report: 'Actual yield: 1.69 g; theoretical yield: 2.12 g.' made 2.12 g the
+    product (the last mention after a yield); a theoretical, expected or calculated mass is a
+    condition. 'Recovered: 1.2 g of unreacted starting material' was an input named
+    'unreacted': it is what came back out. 'm(product) = 1.69 g' is the product's mass."""
+    got = [(line.role, line.amounts[0].value) for line in extract(
+        "Actual yield: 1.69 g; theoretical yield: 2.12 g. The expected mass was 2.1 g. "
+        "Recovered: 1.2 g of unreacted starting material. m(product) = 1.69 g")]  # fmt: skip
+    assert got == [("product", 1.69), ("condition", 2.12), ("condition", 2.1),
+                   ("intermediate", 1.2), ("product", 1.69)]  # fmt: skip
+
+
 def test_every_unit_masstrail_does_not_read_holds_one_of_the_hints_looked_for_first():
     """A sentence is searched for unread units only if it holds a hint; every unit the pattern
     names, in any case, singular or plural, holds one, so none is passed over. (A unit added

@@ -90,7 +90,8 @@ _YIELD_BEFORE = re.compile(
     r"^\s*(?:crude\s+|isolated\s+|overall\s+)?yield\s*[:=]?\s*$|"  # "Yield 1.1 g (85%)"
     r"\b(?:(?:mass|weight)\s+of\s+(?:the\s+)?(?:\w+\s+)?product|product\s+(?:mass|weight))"
     r"\s*(?:\(\w+\)\s*)?[:=]\s*$|"
-    r"\bconstant\s+(?:weight|mass)\s+(?:of\s+)?$",  # "dried to a constant weight of 3.21 g"
+    r"\bconstant\s+(?:weight|mass)\s+(?:of\s+)?$|"  # "dried to a constant weight of 3.21 g"
+    r"\bm\s*\(\s*product\s*\)\s*[:=]\s*$",  # "m(product) = 1.69 g"
     re.I,
 )
 # a bracket group, allowing one level of nested brackets inside
@@ -120,6 +121,13 @@ _TOTAL_BEFORE = re.compile(
     r"(?:of\s+)?$",
     re.I,
 )
+# "Theoretical yield = 2.12 g", "theoretical mass: 2.12 g": worked out, not weighed
+_THEORETICAL = re.compile(
+    r"\b(?:theoretical|theor\.|expected|calculated|calc\.|maximum|max\.)\s+(?:yield|mass)\b"
+    r"[^.;,]{0,12}$",
+    re.I,
+)
+_RECOVERED_LABEL = re.compile(r"\brecovered\s*[:=]\s*$", re.I)  # "Recovered: 1.2 g of …"
 _RUN_SIZE = re.compile(r"\bscale$", re.I)  # a bracket after "scale" gives the run's size
 _SCALE_AFTER = re.compile(
     r"[\s-]*(?:trial\s+|test\s+)?(?:scale|batch|run|experiment|purification|"
@@ -345,6 +353,11 @@ class _Reading:
                 self._add("", amounts, "condition", q.start)
                 done = pos
                 continue
+            if (label := self._label_before(q.start)) is not None:
+                said = "theoretical yield" if label == "condition" else "recovered material"
+                self._add(said, amounts, label, q.start)
+                done = pos
+                continue
             if self._after_a_yield(q.start):  # "Yield: 415 mg (82%)": the product's mass
                 said = self.head[max(0, q.start - 40) : q.start]  # "Crude yield: 1.2 g"
                 self._add("", amounts, "product", q.start, note=_crude("product", None, said))
@@ -491,11 +504,20 @@ class _Reading:
 
     def _after_a_yield(self, pos: int) -> bool:
         """The mention at ``pos`` follows a yield ("Yield: 82% (415 mg)") or names the product's
-        mass ("Mass of product: 1.20 g"): the product's."""
+        mass ("Mass of product: 1.20 g"): the product's. Not a theoretical yield."""
         near = max(0, pos - 40)
         words = self.head[near:pos]
-        return ("ield" in words or "roduct" in words or "onstant" in words) and bool(
-            _YIELD_BEFORE.search(self.head, near, pos))  # fmt: skip
+        hinted = "ield" in words or "roduct" in words or "onstant" in words
+        return hinted and bool(_YIELD_BEFORE.search(self.head, near, pos)) and not (
+            _THEORETICAL.search(words))  # fmt: skip
+
+    def _label_before(self, pos: int) -> str | None:
+        """The class a label before a quantity gives it: "Theoretical yield = 2.12 g" (a
+        figure worked out: a condition), "Recovered: 1.2 g of …" (what came back out)."""
+        words = self.head[max(0, pos - 40) : pos]
+        if _THEORETICAL.search(words):
+            return "condition"
+        return "intermediate" if _RECOVERED_LABEL.search(words) else None
 
     # ---------------------------------------------------------------- the rest
     def _add(self, name: str, amounts: list[AmountMention], role: str | None, pos: int,
