@@ -445,14 +445,19 @@ def test_what_is_done_to_an_output_is_an_input_and_the_next_output_is_the_produc
     """'… to give a residue which was triturated with Et2O (2 × 5 mL) to give the amine
     (0.93 g, 76% yield)': the ether was the product's mention and the amine a second output
     of the same clause (confidently wrong: 10 mL of ether as the product, the amine set
-    aside). A relative clause that works on the output ends the product clause, and each
-    product word starts its own; 'which was obtained as' does not end it."""
+    aside). A relative clause that works on the output with more material ('which was
+    triturated with', 'dissolved in') ends the product clause, and each product word starts
+    its own; 'which was obtained as', 'which was dried in vacuo (1.5 g)' do not end it."""
     lines = extract("The solvent was removed to give a residue which was triturated with Et2O "
                     "(2 × 5 mL) to give the amine as a white powder (0.93 g, 76% yield).")  # fmt: skip
     got = {line.name: (line.role, line.operation) for line in lines}
     assert got == {"Et2O": (None, "trituration"), "white powder": ("product", "product")}
     (line,) = extract("Workup gave the title compound which was obtained as a white solid (1.2 g).")
     assert line.role == "product"
+    for text in ("The mixture was filtered to give a white solid which was dried in vacuo "
+                 "(1.5 g).", "This afforded the ester which was used directly (2.1 g)."):  # fmt: skip
+        (line,) = extract(text)  # no new material in the relative clause: still the output
+        assert line.role == "product", text
 
 
 def test_what_remained_is_an_output_not_an_input():

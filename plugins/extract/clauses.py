@@ -26,9 +26,12 @@ _ADJECTIVAL = re.compile(r"\b(?:thus|so|just|previously)\s+$", re.I)
 # a product word's reach ends with its clause
 _CLAUSE_END = re.compile(
     r",\s*which\b|;|\band\s+then\b|\bthen\b|,\s*and\s+(?=\w+\s+(?:was|were))"
-    # "to give a residue which was triturated with Et2O (2 × 5 mL)": what was done to it next
-    r"|\b(?:which|that)\s+(?:was|were)\s+(?!(?:then\s+)?(?:obtained|isolated|collected|"
-    r"produced|formed)\b)"
+    # "to give a residue which was triturated with Et2O (2 × 5 mL)": what was done to it next,
+    # with more material (not "which was dried in vacuo (1.5 g)": that is the output's mass)
+    r"|\b(?:which|that)\s+(?:was|were)\s+(?:then\s+|further\s+|subsequently\s+)?"
+    r"(?:triturated|washed|rinsed|dissolved|redissolved|suspended|slurried|extracted|"
+    r"re-?crystalli[sz]ed|crystalli[sz]ed|treated|diluted|taken\s+up|partitioned|"
+    r"chromatographed|purified|stirred|heated|refluxed|mixed|combined)\b"
 )
 
 # "… and the product was recrystallised": an operation after this belongs to another clause
