@@ -436,7 +436,9 @@ def test_a_product_mass_that_is_worked_on_further_is_a_crude_mass():
     gap before) and the needles give the product mass."""
     for text in ("The product (1.05 g) was recrystallised from hot ethanol (ca. 8 mL) to give "
                  "pale needles (0.91 g).", "1.05 g of the product was recrystallised from hot "
-                 "ethanol (ca. 8 mL) to give pale needles (0.91 g)."):  # fmt: skip
+                 "ethanol (ca. 8 mL) to give pale needles (0.91 g).", "Filtration gave the "
+                 "product (1.05 g), which was recrystallised from hot ethanol (ca. 8 mL) to give "
+                 "pale needles (0.91 g)."):  # fmt: skip
         got = [(line.role, line.note, line.amounts[0].value) for line in extract(text)]
         assert got == [("product", "crude", 1.05), (None, None, 8.0), ("product", None, 0.91)]
 

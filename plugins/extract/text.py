@@ -225,9 +225,10 @@ def _yield_of(content: str) -> float | None:
 
 # "The product (1.05 g) was recrystallised …": a mass that was worked on further, not the end
 _WORKED_ON = re.compile(
-    r"\s*(?:was|were)\s+(?:then\s+|further\s+|subsequently\s+)?(?:re-?crystalli[sz]ed|purified|"
-    r"chromatographed|triturated|dissolved|suspended|taken\s+up|distilled|sublimed|subjected|"
-    r"redissolved|slurried|used|carried\s+(?:on|forward|through))\b",
+    r"\s*,?\s*(?:(?:which|that)\s+)?(?:was|were)\s+(?:then\s+|further\s+|subsequently\s+)?"
+    r"(?:re-?crystalli[sz]ed|purified|chromatographed|triturated|dissolved|suspended|taken\s+up|"
+    r"distilled|sublimed|subjected|redissolved|slurried|used|carried\s+(?:on|forward|through)|"
+    r"stirred|heated|refluxed|treated|mixed|converted|hydroly[sz]ed|reduced|oxidi[sz]ed)\b",
     re.I,
 )
 
