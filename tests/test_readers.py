@@ -216,3 +216,25 @@ def test_a_product_name_with_a_comma_in_a_flow_mapping_is_a_clear_error(notebook
     assert side["status"] == "error" and side["error"]["location"] == "key product"
     assert "a name that contains commas must be quoted" in side["error"]["message"]
     assert '"2-(4-(benzyloxy)phenyl)-1,3-dioxolane"' in side["error"]["message"]
+
+
+def test_a_table_that_repeats_the_front_matter_is_counted_once(notebook):
+    """An entry listing its materials in the front matter and again in a table counted each
+    twice (the merge only compared the text with them): a row that repeats a front-matter
+    material, stage and amount is counted once; a different amount of the same kind keeps
+    the front matter's, with a minor conflicting_amounts gap naming the table."""
+    notebook.write("e.md", entry_md(
+        "product: {name: amide, mass: 0.412 g}\n"
+        "materials: [{name: benzoic acid, amount: 244 mg}, {name: DMF, amount: 5 mL}]", """
+        | Reagent | Amount |
+        |---|---|
+        | benzoic acid | 244 mg |
+        | DMF | 6 mL |
+        | HATU | 913 mg |
+        """))  # fmt: skip
+    notebook.scan()
+    car = notebook.sidecar("e.md")
+    got = sorted((m["name"], m["stated"]) for m in car["materials"])
+    assert got == [("DMF", "5 mL"), ("HATU", "913 mg"), ("benzoic acid", "244 mg")]
+    (gap,) = [g for g in car["gaps"] if g["kind"] == "conflicting_amounts"]
+    assert "in a materials table" in gap["message"] and gap["severity"] == "minor"

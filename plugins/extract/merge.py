@@ -3,7 +3,8 @@
 Plugin ``merge`` (``masstrail_merge_materials``):
 
 - a text mention that repeats a structured line (same material, same stage, same amount
-  within 0.5 %) is counted once, from the structured line;
+  within 0.5 %) is counted once, from the structured line; so is a table's row that repeats
+  the front matter's (an entry that lists its materials in both);
 - a text mention of the same material at the same stage with a different amount of the
   same kind is counted once, from the structured line, with a minor ``conflicting_amounts``
   gap naming both; an amount of another kind (a mass in the text, a volume in the table)
@@ -107,15 +108,32 @@ def same_stage(a: MaterialLine, b: MaterialLine) -> bool:
 
 
 def _conflict(kept: MaterialLine, line: MaterialLine) -> Gap:
+    where = "in a materials table" if line.origin == "table" else "in the text"
     return Gap(
         kind="conflicting_amounts",
         item=line.name,
         severity="minor",
         evidence=line.evidence,
         message=f"{kept.name} is recorded as {kept.stated!r} ({kept.origin}) and as "
-        f"{line.stated!r} in the text at the same stage; the {kept.origin} amount is counted. "
+        f"{line.stated!r} {where} at the same stage; the {kept.origin} amount is counted. "
         "Correct whichever is wrong",
     )
+
+
+def _repeats(line: MaterialLine, records: list[MaterialLine], gaps: list[Gap]) -> bool:
+    """True when ``line`` repeats a record (same material, same stage, the same amount, or a
+    different amount of the same kind: then a conflict gap, the record counted); a line
+    that adds a use, or an amount of another kind, does not."""
+    same = [o for o in records if _key(o) == _key(line) and same_stage(o, line)]
+    if not same:
+        return False
+    if any(same_amount(a, b) for o in same for a in line.amounts for b in o.amounts):
+        return True  # the same record twice: counted once
+    kinds = {a.kind for a in line.amounts}
+    if not any(kinds & {b.kind for b in o.amounts} for o in same):
+        return False  # e.g. a mass in the text, a volume in the table
+    gaps.append(_conflict(same[0], line))
+    return True
 
 
 def _product_mention(set_aside: list[MaterialLine]) -> MaterialLine | None:
@@ -149,11 +167,14 @@ def merge_text_with_records(
 ) -> MergedMaterials:
     """Structured lines first; the text's lines that add a use; the rest set aside."""
     apart = SET_ASIDE_ROLES | {"recovered"}
-    structured = [m for m in lines if m.origin in STRUCTURED and m.role not in apart]
+    front = [m for m in lines if m.origin == "front-matter" and m.role not in apart]
+    gaps: list[Gap] = []
+    structured = front + [m for m in lines if m.origin == "table" and m.role not in apart
+                          and not _repeats(m, front, gaps)]  # fmt: skip
     recovered = [m for m in lines if m.role == "recovered"]
     product_key = prose_key(entry.product.name) if entry.product.name else None
     set_aside = [_as_product(m, product_key) for m in lines if m.role in SET_ASIDE_ROLES]
-    materials, gaps = list(structured), []
+    materials = list(structured)
     outputs = [m for m in set_aside if m.role in {"product", "intermediate"} and m.origin == "text"]
     for line in lines:
         if line.origin in STRUCTURED or line.role in apart:
@@ -167,17 +188,8 @@ def merge_text_with_records(
             set_aside.append(line.model_copy(update={"role": "intermediate", "stage": None,
                                                      "note": note}))  # fmt: skip
             continue
-        same = [o for o in structured if _key(o) == _key(line) and same_stage(o, line)]
-        if not same:
+        if not _repeats(line, structured, gaps):
             materials.append(line)
-            continue
-        if any(same_amount(a, b) for o in same for a in line.amounts for b in o.amounts):
-            continue  # the text repeats the structured record: counted once
-        kinds = {a.kind for a in line.amounts}
-        if not any(kinds & {b.kind for b in o.amounts} for o in same):
-            materials.append(line)  # e.g. a mass in the text, a volume in the table
-            continue
-        gaps.append(_conflict(same[0], line))
     set_aside.sort(key=lambda m: min((a.span[0] for a in m.amounts if a.span), default=0))
     return MergedMaterials(materials=materials, recovered=recovered,
                            product_mention=_product_mention(set_aside), set_aside=set_aside,
