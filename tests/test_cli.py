@@ -79,6 +79,21 @@ def test_show_prints_basis_gaps_and_metrics(notebook):
     assert not (notebook.root / "sub/e.waste.json").exists()  # show writes nothing
 
 
+def test_show_says_which_product_mentions_are_crude_a_crop_or_a_total(notebook):
+    """The quantities that are not inputs say what a product's mention is, so a chemist sees
+    why the product mass is the one it is."""
+    notebook.write("e.md", entry_md("product: {name: acetanilide}",
+                                    "The product (2.0 g) was recrystallised from water (30 mL) "
+                                    "to give acetanilide (1.92 g). A second crop (0.35 g) was "
+                                    "obtained, giving a total of 2.27 g."))  # fmt: skip
+    res = CliRunner().invoke(cli, ["show", str(notebook.root / "e.md")], env={"COLUMNS": "300"})
+    assert res.exit_code == 0, res.output
+    assert (
+        "Not inputs: product 2.0 g (product, crude); acetanilide 1.92 g (product); second "
+        "crop 0.35 g (product, crop); product 2.27 g (product, total)"
+    ) in res.output
+
+
 def test_show_json_is_the_sidecar_content(notebook):
     path = notebook.write("e.md", GOOD)
     res = CliRunner().invoke(cli, ["show", "--json", str(path)])

@@ -97,6 +97,9 @@ def _materials(out, r: dict) -> None:
                   f"({esc(rec['basis'] or rec['problem'] or '')})")  # fmt: skip
 
 
+_MENTION_NOTES = {"crude", "crop", "total"}  # what a product's mention is: said beside it
+
+
 def _set_aside(out, r: dict) -> None:
     """The quantities that are not inputs: unread ones first (each is also a gap)."""
     unread = [m for m in r["set_aside"] if m["role"] == "unread"]
@@ -107,7 +110,8 @@ def _set_aside(out, r: dict) -> None:
                       f"{esc(m['evidence'] or '')}")  # fmt: skip
     others = [m for m in r["set_aside"] if m["role"] != "unread"]
     if others:
-        said = "; ".join(f"{esc(m['name'])} {esc(m['stated'] or '')} ({m['role']})"
+        said = "; ".join(f"{esc(m['name'])} {esc(m['stated'] or '')} ({m['role']}"
+                         + (f", {m['note']}" if m.get("note") in _MENTION_NOTES else "") + ")"
                          for m in others)  # fmt: skip
         out.print(f"[dim]Not inputs: {said}[/dim]")
 
