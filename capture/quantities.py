@@ -226,6 +226,11 @@ def plain_amount(
     )
 
 
+def first_of(amounts: list[AmountMention], kind: Kind) -> AmountMention | None:
+    """The first amount of ``kind`` among ``amounts`` (a line's mass, its volume …), or None."""
+    return next((a for a in amounts if a.kind == kind), None)
+
+
 # unit as written → (factor to the canonical unit, canonical unit, kind), filled on first use
 _PLAIN_UNITS: dict[str, tuple[float, str, Kind]] = {}
 

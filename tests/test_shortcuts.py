@@ -56,3 +56,20 @@ def test_an_aside_or_reference_before_a_bracket_is_found_as_by_both_patterns_eve
         assert span(_aside_or_reference_tail(text, near)) == span(both), text[-120:]
         found += both is not None
     assert found >= 10
+
+
+def test_every_label_the_quantity_reader_looks_for_holds_one_of_its_hints():
+    """A quantity's label is looked for only when the text before it holds a hint: every
+    word the label patterns accept, in any case, holds one, so no label is passed over."""
+    from masstrail_plugins.extract.text import _LABEL_HINTS, _RECOVERED_LABEL, _THEORETICAL
+
+    labels = [
+        f"{w} {what} = "
+        for w in ("theoretical", "theor.", "expected", "calculated", "calc.", "maximum", "max.")
+        for what in ("yield", "mass")
+    ]
+    labels.append("recovered: ")
+    for label in labels:
+        for written in (label, label.upper(), label.title()):
+            assert _THEORETICAL.search(written) or _RECOVERED_LABEL.search(written), written
+            assert any(hint in written.lower() for hint in _LABEL_HINTS), written

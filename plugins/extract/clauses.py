@@ -7,7 +7,7 @@ from __future__ import annotations
 import re
 
 from capture.models import Stage
-from masstrail_plugins.prose import OPERATION_STAGE, OPERATION_STEMS, by_first_letter
+from masstrail_plugins.prose import OPERATION_STAGE, OPERATION_STEMS, by_first_letter, led
 
 # words that introduce the product: the mention after them is an output, not an input
 _PRODUCT_WORDS = {"give", "gave", "giving", "gives", "afford", "afforded", "affording", "affords",
@@ -43,10 +43,10 @@ _GLASSWARE_DRIED = re.compile(r"\b(?:oven|flame|heat)[- ]$", re.I)
 # one regular expression over the lower-cased sentence finds the operation and product words
 # (tests hold it to the flat alternation it was first written as)
 _KEYWORD_FIRSTS = "".join(sorted({w[0] for w in [*OPERATION_STEMS, *_PRODUCT_WORDS]}))
-_KEYWORDS = re.compile(
-    rf"(?=[{_KEYWORD_FIRSTS}])(?<![\w-])(?:(?P<op>{by_first_letter(OPERATION_STEMS)})"
+_KEYWORDS = led(_KEYWORD_FIRSTS, re.compile(
+    rf"(?<![\w-])(?:(?P<op>{by_first_letter(OPERATION_STEMS)})"
     rf"|(?P<product>{by_first_letter(_PRODUCT_WORDS)})(?!\w))"
-)
+))  # fmt: skip
 
 
 class Sentence:

@@ -43,6 +43,7 @@ from capture.models import (
     MaterialLine,
     MergedMaterials,
 )
+from capture.quantities import first_of
 
 STRUCTURED = {"front-matter", "table"}
 # words by which the text takes up what an earlier step put out
@@ -58,7 +59,7 @@ def _start(line: MaterialLine) -> int:
 
 
 def _grams(line: MaterialLine) -> float | None:
-    mass = next((a for a in line.amounts if a.kind == "mass"), None)
+    mass = first_of(line.amounts, "mass")
     return mass.total if mass else None
 
 
@@ -151,7 +152,7 @@ def _product_mention(set_aside: list[MaterialLine]) -> MaterialLine | None:
 def _with_crops(parts: list[MaterialLine]) -> MaterialLine:
     """One mention of the product: a whole mass and the crops after it, added (each must be a
     mass; else the last crop, as before)."""
-    masses = [next((a for a in m.amounts if a.kind == "mass"), None) for m in parts]
+    masses = [first_of(m.amounts, "mass") for m in parts]
     if any(a is None for a in masses):
         return parts[-1]
     said = " + ".join(f"{a.text} ({m.name})" if m.note == "crop" else a.text

@@ -127,6 +127,7 @@ _THEORETICAL = re.compile(
     r"[^.;,]{0,12}$",
     re.I,
 )
+_LABEL_HINTS = ("theor", "expect", "calc", "max", "recovered")  # lower case
 _RECOVERED_LABEL = re.compile(r"\brecovered\s*[:=]\s*$", re.I)  # "Recovered: 1.2 g of …"
 _RUN_SIZE = re.compile(r"\bscale$", re.I)  # a bracket after "scale" gives the run's size
 _SCALE_AFTER = re.compile(
@@ -233,7 +234,9 @@ _WORKED_ON = re.compile(
 )
 
 
-def _crude(role: str | None, name: str | None, said: str = "", after: str = "") -> str | None:
+def _product_note(
+    role: str | None, name: str | None, said: str = "", after: str = ""
+) -> str | None:
     """ "crude" for a product's mention that is a crude mass ("the crude aldehyde (1.9 g)"):
     by its name, by the words as written (``said``: the name reader drops "crude"), or by
     what was done to it next (``after``: "… (1.05 g) was recrystallised"); "crop" for a
@@ -361,7 +364,9 @@ class _Reading:
                 continue
             if self._after_a_yield(q.start):  # "Yield: 415 mg (82%)": the product's mass
                 said = self.head[max(0, q.start - 40) : q.start]  # "Crude yield: 1.2 g"
-                self._add("", amounts, "product", q.start, note=_crude("product", None, said))
+                self._add(
+                    "", amounts, "product", q.start, note=_product_note("product", None, said)
+                )
                 done = pos
                 continue
             taken = _TAKEN_OUT.match(self.head, pos)
@@ -402,7 +407,7 @@ class _Reading:
                 continue
             said = self.head[pos:end]
             self._add(name or what, amounts, role, q.start,
-                      note=_crude(role, name, said, self.head[end : end + 80]))  # fmt: skip
+                      note=_product_note(role, name, said, self.head[end : end + 80]))  # fmt: skip
             done = end
 
     def _column_in_bracket(self, q) -> None:
@@ -463,7 +468,7 @@ class _Reading:
         if amounts:
             said = before[-len(name or what or "") - 16 :]  # the name as written, and its lead
             self._add(name or what or "", amounts, role, gs, stated_yield=_yield_of(content),
-                      note=_crude(role, name, said, self.head[ge : ge + 80]))  # fmt: skip
+                      note=_product_note(role, name, said, self.head[ge : ge + 80]))  # fmt: skip
 
     def _name_after_bracket(self, gs: int) -> bool:
         """A bracket of amounts before its name: "reaction of (1.48 g, 5.0 mmol) of X",
@@ -476,7 +481,7 @@ class _Reading:
         if name is None or what is not None:
             return False
         role = self._role(gs, None)
-        self._add(name, amounts, role, gs, note=_crude(role, name))
+        self._add(name, amounts, role, gs, note=_product_note(role, name))
         return True
 
     def _role(self, pos: int, what: str | None, end: int | None = None,
@@ -514,8 +519,11 @@ class _Reading:
 
     def _label_before(self, pos: int) -> str | None:
         """The class a label before a quantity gives it: "Theoretical yield = 2.12 g" (a
-        figure worked out: a condition), "Recovered: 1.2 g of …" (what came back out)."""
+        figure worked out: a condition), "Recovered: 1.2 g of …" (what came back out). Each
+        pattern holds one of the hints looked for first (most quantities have none)."""
         words = self.head[max(0, pos - 40) : pos]
+        if not any(hint in words.lower() for hint in _LABEL_HINTS):
+            return None
         if _THEORETICAL.search(words):
             return "condition"
         return "intermediate" if _RECOVERED_LABEL.search(words) else None

@@ -21,6 +21,7 @@ from capture.chem import molar_mass
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import Entry, Gap, MaterialLine, ProductOut, ReactionFigures
+from capture.quantities import first_of
 from masstrail_plugins.gaps import allowances as al
 from masstrail_plugins.prose import led
 
@@ -146,10 +147,6 @@ def procedure_elsewhere_gaps(entry: Entry) -> list[Gap]:
     )]  # fmt: skip
 
 
-def _stated(line: MaterialLine, kind: str):
-    return next((a for a in line.amounts if a.kind == kind), None)
-
-
 _WRITTEN_NUMBER = re.compile(r"\d+(?:[.,](\d+))?")
 
 
@@ -181,7 +178,7 @@ def _fractions_near(line: MaterialLine, mass, moles) -> list[float]:
 
 
 def _mass_moles_gap(line: MaterialLine) -> Gap | None:
-    mass, moles = _stated(line, "mass"), _stated(line, "amount")
+    mass, moles = first_of(line.amounts, "mass"), first_of(line.amounts, "amount")
     if mass is None or moles is None or not line.formula:
         return None
     try:

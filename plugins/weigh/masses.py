@@ -21,6 +21,7 @@ import re
 from capture.config import LabConfig
 from capture.hookspecs import hookimpl
 from capture.models import AmountMention, MassAssignment, MassContext, MaterialInfo, MaterialLine
+from capture.quantities import first_of
 
 
 def fmt(x: float) -> str:
@@ -49,10 +50,6 @@ def _amount_words(a: AmountMention, derived: bool = False) -> str:
     return core
 
 
-def _first(line: MaterialLine, kind: str) -> AmountMention | None:
-    return next((a for a in line.amounts if a.kind == kind), None)
-
-
 def _portions(line: MaterialLine, kind: str) -> tuple[float, str]:
     """The total of a line's amounts of one kind, in words: "(100 ml and 50 ml)" is two
     portions, 150 mL in all."""
@@ -73,10 +70,10 @@ def _density_words(info: MaterialInfo) -> str:
 
 
 def _moles(line: MaterialLine, info: MaterialInfo | None, mass_g: float | None) -> float | None:
-    amount = _first(line, "amount")
+    amount = first_of(line.amounts, "amount")
     if amount is not None:
         return amount.total
-    volume, conc = _first(line, "volume"), _first(line, "concentration")
+    volume, conc = first_of(line.amounts, "volume"), first_of(line.amounts, "concentration")
     if volume is not None and conc is not None:
         return volume.total * conc.value  # mL × mol/L = mmol
     if mass_g is not None and info is not None and info.molar_mass:
@@ -89,8 +86,8 @@ def _weigh_by_moles(
 ) -> MassAssignment | None:
     """A volume with no density, stated with its amount of substance ("phosphorus oxychloride
     (2.1 mL, 23.37 mmol)"): the mass is the moles × the molar mass, and the basis says so."""
-    amount = _first(line, "amount")
-    if amount is None or not info.molar_mass or _first(line, "concentration") is not None:
+    amount = first_of(line.amounts, "amount")
+    if amount is None or not info.molar_mass or first_of(line.amounts, "concentration") is not None:
         return None
     grams = amount.total * info.molar_mass / 1000
     basis = (f"{_amount_words(amount)} × {fmt(info.molar_mass)} g/mol ({info.formula}): no "
@@ -122,7 +119,7 @@ _MIXTURE = re.compile(r"[A-Za-z][^/:]*(?:\s*[/:]\s*[A-Za-z][^/:]*)+")
 
 def _unknown(line: MaterialLine, volume: AmountMention) -> str:
     """Why a volume of a material the data does not know cannot be weighed, and what to do."""
-    if _MIXTURE.fullmatch(line.name) and not _first(line, "concentration"):
+    if _MIXTURE.fullmatch(line.name) and not first_of(line.amounts, "concentration"):
         return (f"{line.name!r} is a mixture whose proportions are not given, so {volume.text} "
                 f"cannot be weighed; note its ratio by volume (e.g. '{line.name} 1:1 "
                 f"({volume.text})') or weigh it")  # fmt: skip
@@ -137,12 +134,12 @@ def _weigh(
 ) -> MassAssignment | None:
     """The mass of one line and its basis, or the problem; None if it has no amount to weigh."""
     label = info.name if info else line.name
-    mass = _first(line, "mass")
+    mass = first_of(line.amounts, "mass")
     if mass is not None:
         total, words = _portions(line, "mass")
         basis = f"{words} as recorded"
         return MassAssignment(mass_g=total, moles_mmol=_moles(line, info, total), basis=basis)
-    volume = _first(line, "volume")
+    volume = first_of(line.amounts, "volume")
     if volume is not None:
         if info is None:
             return MassAssignment(moles_mmol=_moles(line, info, None),
@@ -164,7 +161,7 @@ def _weigh(
         if line.note:
             basis += f"; {line.note}"
         return MassAssignment(mass_g=grams, moles_mmol=_moles(line, info, grams), basis=basis)
-    amount = _first(line, "amount")
+    amount = first_of(line.amounts, "amount")
     if amount is not None:
         if info is None or not info.molar_mass:
             return MassAssignment(
@@ -179,7 +176,7 @@ def _weigh(
             f"({info.formula}, IUPAC standard atomic weights)"
         )
         return MassAssignment(mass_g=grams, moles_mmol=amount.total, basis=basis)
-    equiv = _first(line, "equivalents")
+    equiv = first_of(line.amounts, "equivalents")
     if equiv is not None:
         if context.limiting_mmol is None:
             return MassAssignment(
@@ -201,7 +198,7 @@ def _weigh(
             f"({context.limiting_name}, limiting) × {fmt(info.molar_mass)} g/mol ({info.formula})"
         )
         return MassAssignment(mass_g=grams, moles_mmol=mmol, basis=basis)
-    conc = _first(line, "concentration")
+    conc = first_of(line.amounts, "concentration")
     if conc is not None:
         return _solvent_by_concentration(line, info, conc, context)
     return None

@@ -30,7 +30,7 @@ from capture.models import (
     ProductFinding,
     ProductOut,
 )
-from capture.quantities import AmountError, disagreement, parse_amounts
+from capture.quantities import AmountError, disagreement, first_of, parse_amounts
 from masstrail_plugins.resolve.knowledge import info_from_formula
 
 
@@ -48,7 +48,7 @@ def _recorded_line(name: str, mass: str) -> MaterialLine:
 def _mass_of(mention: MaterialLine | None):
     """The mass a product's mention states, if it states one ("10.0 mmol, 1682 mg": 1682 mg;
     a mention in mmol or mL alone gives no mass: it is never read as grams)."""
-    return next((a for a in mention.amounts if a.kind == "mass"), None) if mention else None
+    return first_of(mention.amounts, "mass") if mention else None
 
 
 def _where(mention: MaterialLine) -> str:
